@@ -1,0 +1,103 @@
+#!/usr/bin/env node
+// Writes the invented demo data sets in this folder from a fixed seed.
+// Scenario (invented for tallyfit): a network of six walk-in clinics records
+// visits per clinic-day with the hours it was open; a hospital records falls
+// per ward-month with occupied bed-days. Nothing here is real data.
+//   node examples/generate.mjs          rewrites clinic_visits.csv and ward_falls.csv
+import { writeFileSync } from "node:fs";
+import { dirname, join } from "node:path";
+import { fileURLToPath } from "node:url";
+
+const here = dirname(fileURLToPath(import.meta.url));
+
+/** mulberry32: a small seeded 32-bit generator. */
+function rng(seed) {
+  let a = seed >>> 0;
+  return () => {
+    a = (a + 0x6d2b79f5) >>> 0;
+    let t = a;
+    t = Math.imul(t ^ (t >>> 15), t | 1);
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+}
+
+function normal(u) {
+  return Math.sqrt(-2 * Math.log(1 - u())) * Math.cos(2 * Math.PI * u());
+}
+
+/** Gamma(shape, 1) by Marsaglia and Tsang (2000). */
+function gamma(u, shape) {
+  if (shape < 1) return gamma(u, shape + 1) * Math.pow(u(), 1 / shape);
+  const d = shape - 1 / 3, c = 1 / Math.sqrt(9 * d);
+  for (;;) {
+    let x, v;
+    do { x = normal(u); v = 1 + c * x; } while (v <= 0);
+    v = v * v * v;
+    const w = u();
+    if (w < 1 - 0.0331 * x ** 4 || Math.log(w) < 0.5 * x * x + d * (1 - v + Math.log(v))) return d * v;
+  }
+}
+
+/** Poisson by inversion for small means, normal-corrected chunks for large ones. */
+function poisson(u, mean) {
+  if (mean > 500) {
+    const half = poisson(u, mean / 2);
+    return half + poisson(u, mean / 2);
+  }
+  let k = 0, p = Math.exp(-mean), s = p;
+  const x = u();
+  while (x > s && k < 10000) { k++; p *= mean / k; s += p; }
+  return k;
+}
+
+function negbin(u, mean, alpha) {
+  return alpha > 0 ? poisson(u, mean * gamma(u, 1 / alpha) * alpha) : poisson(u, mean);
+}
+
+function clinicVisits() {
+  const u = rng(20261201);
+  const clinics = { northgate: 0, harbour: 0.18, riverside: -0.12, hillcrest: 0.05, old_town: 0.3, westfield: -0.25 };
+  const weekdays = ["mon", "tue", "wed", "thu", "fri", "sat"];
+  const dayEffect = { mon: 0.22, tue: 0.05, wed: 0, thu: 0.02, fri: 0.1, sat: -0.15 };
+  const lines = ["date,week,weekday,clinic,open_hours,staff_on_duty,flu_season,visits"];
+  const start = Date.UTC(2026, 0, 5); // a Monday
+  for (let week = 1; week <= 48; week++) {
+    for (let d = 0; d < 6; d++) {
+      const date = new Date(start + ((week - 1) * 7 + d) * 86400000).toISOString().slice(0, 10);
+      const flu = week <= 10 || week >= 44 ? 1 : 0;
+      for (const [clinic, eff] of Object.entries(clinics)) {
+        const wd = weekdays[d];
+        let hours = wd === "sat" ? 5 : clinic === "old_town" ? 12 : 9 + Math.round(u() * 2);
+        if (u() < 0.008) hours = 0; // closed for the day
+        const staff = Math.max(1, Math.round(3 + (clinic === "harbour" ? 1 : 0) + normal(u) * 0.8));
+        const rate = Math.exp(Math.log(2.1) + eff + dayEffect[wd] + 0.25 * flu + 0.04 * (staff - 3));
+        let visits = hours === 0 ? 0 : negbin(u, rate * hours, 0.04);
+        let staffText = String(staff);
+        if (u() < 0.004) staffText = "NA"; // staffing not recorded
+        lines.push(`${date},${week},${wd},${clinic},${hours},${staffText},${flu},${visits}`);
+      }
+    }
+  }
+  return lines.join("\n") + "\n";
+}
+
+function wardFalls() {
+  const u = rng(7);
+  const wards = { general_medicine: 0, surgery: -0.45, rehab: 0.55, orthopaedics: 0.1, day_unit: -2.5 };
+  const lines = ["month,ward,bed_days,staffing_ratio,falls"];
+  for (let m = 1; m <= 24; m++) {
+    const month = `${2025 + Math.floor((m - 1) / 12)}-${String(((m - 1) % 12) + 1).padStart(2, "0")}`;
+    for (const [ward, eff] of Object.entries(wards)) {
+      const beds = ward === "day_unit" ? 40 + Math.round(u() * 20) : 600 + Math.round(u() * 300);
+      const ratio = +(0.9 + u() * 0.6).toFixed(2);
+      const rate = (ward === "day_unit" ? 0 : 1) * Math.exp(Math.log(4.5 / 1000) + eff - 0.6 * (ratio - 1.2));
+      lines.push(`${month},${ward},${beds},${ratio},${poisson(u, rate * beds)}`);
+    }
+  }
+  return lines.join("\n") + "\n";
+}
+
+writeFileSync(join(here, "clinic_visits.csv"), clinicVisits());
+writeFileSync(join(here, "ward_falls.csv"), wardFalls());
+console.log("wrote examples/clinic_visits.csv and examples/ward_falls.csv");

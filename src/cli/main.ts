@@ -1,0 +1,198 @@
+// Command-line wiring: options → stage functions → output. No statistics here.
+import { Command, CommanderError, Option } from "commander";
+import { readFileSync } from "node:fs";
+import { EXIT, FitError, InputError } from "../errors.js";
+import { DEFAULT_NA, parseTable, readSource } from "../io/csv.js";
+import { parseModel, termVariables } from "../model/formula.js";
+import { buildDesign } from "../design/design.js";
+import { fitModel, type FamilyChoice } from "../fit/model.js";
+import { quasiPhi, summarizeFit } from "../infer/summary.js";
+import { profileAll } from "../infer/intervals.js";
+import { renderFitText } from "../report/fit-text.js";
+import { renderFitCsv, renderFitMarkdown, renderJson } from "../report/fit-tabular.js";
+import { makeStyle, wantColor } from "../report/style.js";
+import { writeAtomic, writeStdout } from "./output.js";
+
+const VERSION: string = JSON.parse(readFileSync(new URL("../../../package.json", import.meta.url), "utf8")).version;
+
+function collect(value: string, previous: string[]): string[] {
+  return [...previous, value];
+}
+
+function parseLevel(v: string): number {
+  const x = Number(v);
+  if (!(x > 0 && x < 1)) throw new InputError(`--level must be a number between 0 and 1, such as 0.95 (got '${v}').`);
+  return x;
+}
+
+function parsePositiveInt(name: string, v: string): number {
+  const x = Number(v);
+  if (!Number.isInteger(x) || x < 1) throw new InputError(`${name} must be a whole number of at least 1 (got '${v}').`);
+  return x;
+}
+
+function parsePositive(name: string, v: string): number {
+  const x = Number(v);
+  if (!(x > 0) || !Number.isFinite(x)) throw new InputError(`${name} must be a positive number (got '${v}').`);
+  return x;
+}
+
+function parseRefs(list: string[]): Record<string, string> {
+  const refs: Record<string, string> = {};
+  for (const r of list) {
+    const k = r.indexOf("=");
+    if (k <= 0 || k === r.length - 1) throw new InputError(`--ref takes COLUMN=LEVEL, such as --ref clinic=central (got '${r}').`);
+    refs[r.slice(0, k)] = r.slice(k + 1);
+  }
+  return refs;
+}
+
+function parseNa(v: string | undefined): string[] {
+  if (v === undefined) return DEFAULT_NA;
+  return v.split(",").map((s) => s.trim());
+}
+
+interface CommonOptions {
+  model: string[];
+  exposure?: string;
+  offset?: string;
+  family: string;
+  factor: string[];
+  ref: string[];
+  weights?: string;
+  intercept: boolean;
+  level: string;
+  intervals: string;
+  robust?: boolean;
+  format: string;
+  output?: string;
+  delimiter?: string;
+  na?: string;
+  maxIter: string;
+  tolerance: string;
+  quiet?: boolean;
+  color: boolean;
+  debug?: boolean;
+}
+
+function addCommonOptions(cmd: Command, multiModel = false): Command {
+  return cmd
+    .option(multiModel ? "--model <spec>" : "--model <spec>", 'response column and terms, as "COUNT ~ a + b + a:b"', collect, [])
+    .option("--exposure <col>", "exposure column (person-time, open hours, bed-days); its log becomes the offset")
+    .option("--offset <col>", "an offset column already on the log scale")
+    .addOption(new Option("--family <name>", "poisson, negbin, quasipoisson or auto").default("poisson"))
+    .option("--factor <cols>", "treat these numeric-looking columns as categorical (comma-separated, repeatable)", collect, [])
+    .option("--ref <col=level>", "reference level of a factor (repeatable)", collect, [])
+    .option("--weights <col>", "frequency weights (a row stands for that many identical rows)")
+    .option("--no-intercept", "drop the intercept")
+    .option("--level <p>", "interval level", "0.95")
+    .addOption(new Option("--intervals <kind>", "wald, profile or both").default("both"))
+    .option("--robust", "sandwich (Huber-White) standard errors")
+    .addOption(new Option("--format <fmt>", "text, json, csv or markdown").default("text"))
+    .option("--output <file>", "write the report to FILE (atomically) instead of stdout")
+    .option("--delimiter <c>", "field delimiter (default ',' and tab for .tsv)")
+    .option("--na <tokens>", "comma-separated missing-value tokens (default: empty, NA, NaN, null, .)")
+    .option("--max-iter <n>", "IRLS iteration limit", "50")
+    .option("--tolerance <x>", "IRLS convergence tolerance on the relative change in deviance", "1e-10")
+    .option("--quiet", "no notices on stderr")
+    .option("--no-color", "no colour")
+    .option("--debug", "show a stack trace on internal errors");
+}
+
+function notice(opts: CommonOptions, msg: string): void {
+  if (!opts.quiet) process.stderr.write(`tallyfit: ${msg}\n`);
+}
+
+async function runFit(file: string | undefined, opts: CommonOptions): Promise<number> {
+  if (opts.model.length !== 1) throw new InputError(opts.model.length === 0 ? 'fit needs --model "COUNT ~ TERMS".' : "fit takes one --model; use `tallyfit compare` for several.");
+  const level = parseLevel(opts.level);
+  const formats = ["text", "json", "csv", "markdown"];
+  if (!formats.includes(opts.format)) throw new InputError(`--format must be one of ${formats.join(", ")} (got '${opts.format}').`);
+  const families = ["poisson", "quasipoisson", "negbin"];
+  if (!families.includes(opts.family)) throw new InputError(`--family must be one of ${families.join(", ")} (got '${opts.family}').`);
+  const intervals = opts.intervals;
+  if (!["wald", "profile", "both"].includes(intervals)) throw new InputError(`--intervals must be wald, profile or both (got '${intervals}').`);
+  const control = { maxIter: parsePositiveInt("--max-iter", opts.maxIter), tolerance: parsePositive("--tolerance", opts.tolerance) };
+  const spec = parseModel(opts.model[0], { intercept: opts.intercept });
+  const refs = parseRefs(opts.ref);
+  const factors = opts.factor.flatMap((f) => f.split(",").map((s) => s.trim()).filter(Boolean));
+
+  const path = file ?? "-";
+  if (path === "-" && process.stdin.isTTY) throw new InputError("no input: give a CSV file, or pipe one in (tallyfit fit - reads standard input).");
+  const { bytes, name } = await readSource(path);
+  const select = [spec.response, ...termVariables(spec), ...[opts.exposure, opts.offset, opts.weights].filter((x): x is string => !!x), ...Object.keys(refs)];
+  const table = parseTable(bytes, { source: name, delimiter: opts.delimiter, na: parseNa(opts.na), factors, select });
+  for (const f of factors)
+    if (!table.header.includes(f)) throw new InputError(`${name}: --factor column '${f}' is not in the file. The columns are ${table.header.map((h) => `'${h}'`).join(", ")}.`);
+  const design = buildDesign(table, spec, { exposure: opts.exposure, offset: opts.offset, weights: opts.weights, refs });
+  for (const n of design.notices) notice(opts, n);
+
+  const result = fitModel(design, { family: opts.family as FamilyChoice, control });
+  const phi = result.family === "quasipoisson" ? quasiPhi(design, result.fit) : 1;
+  const profiles = intervals === "wald" ? undefined : profileAll(design, result, level, phi);
+  const summary = summarizeFit(design, result.fit, { level, family: result.family, nullDeviance: result.nullDeviance, profiles });
+
+  let content: string;
+  if (opts.format === "json") content = renderJson(summary);
+  else if (opts.format === "csv") content = renderFitCsv(summary);
+  else if (opts.format === "markdown") content = renderFitMarkdown(summary);
+  else {
+    const toTTY = !opts.output && process.stdout.isTTY;
+    const color = !opts.output && wantColor(process.stdout.isTTY, process.env, opts.color);
+    content = renderFitText(summary, { style: makeStyle(color), width: toTTY ? Math.max(60, Math.min(process.stdout.columns ?? 100, 120)) : 100, intervals: intervals as "wald" | "profile" | "both" });
+  }
+  if (opts.output) {
+    await writeAtomic(opts.output, content);
+    notice(opts, `report written to ${opts.output}`);
+  } else await writeStdout(content);
+  return EXIT.ok;
+}
+
+export function buildProgram(onResult: (code: number) => void): Command {
+  const program = new Command();
+  program
+    .name("tallyfit")
+    .description("Poisson and negative-binomial rate models for count data in CSV files.")
+    .version(VERSION)
+    .exitOverride()
+    .configureOutput({ writeErr: (s) => process.stderr.write(s), writeOut: (s) => process.stdout.write(s) })
+    .showHelpAfterError("(run tallyfit --help for the commands and options)");
+  addCommonOptions(program.command("fit").description("fit one model and print the report").argument("[file]", "CSV file, or - for standard input"))
+    .action(async (file: string | undefined, opts: CommonOptions) => onResult(await runFit(file, opts)));
+  return program;
+}
+
+function stripAnsi(s: string): string {
+  return s.replace(/\x1b\[[0-9;]*m/g, "");
+}
+
+export async function main(argv: string[]): Promise<void> {
+  process.stdout.on("error", (e: NodeJS.ErrnoException) => {
+    if (e.code === "EPIPE") process.exit(EXIT.ok);
+  });
+  const debug = argv.includes("--debug");
+  let code: number = EXIT.ok;
+  try {
+    const program = buildProgram((c) => (code = c));
+    if (argv.length <= 2) {
+      program.outputHelp();
+      process.exitCode = EXIT.input;
+      return;
+    }
+    await program.parseAsync(argv);
+  } catch (e) {
+    if (e instanceof CommanderError) {
+      code = e.code === "commander.helpDisplayed" || e.code === "commander.version" || e.code === "commander.help" ? EXIT.ok : EXIT.input;
+    } else if (e instanceof InputError || e instanceof FitError) {
+      const kind = e instanceof FitError ? "the model could not be fitted" : "error";
+      process.stderr.write(`tallyfit: ${kind}: ${stripAnsi(e.message)}\n`);
+      code = e.exitCode;
+    } else {
+      const err = e as Error;
+      process.stderr.write(`tallyfit: internal error: ${err?.message ?? String(e)}\nThis is a bug in tallyfit; please report it with the command you ran.${debug ? "" : " (--debug shows the stack trace)"}\n`);
+      if (debug && err?.stack) process.stderr.write(err.stack + "\n");
+      code = EXIT.internal;
+    }
+  }
+  process.exitCode = code;
+}

@@ -1,0 +1,345 @@
+// Design stage: model terms + typed columns → a row-sparse design matrix with
+// treatment (reference-level) coding, an offset, weights and the rows used.
+import { InputError } from "../errors.js";
+import { guessDelimiter, showDelimiter } from "../io/csv.js";
+import type { Column, FactorColumn, Table } from "../io/table.js";
+import { fileRow } from "../io/table.js";
+import type { ModelSpec } from "../model/formula.js";
+import { termVariables } from "../model/formula.js";
+import { closestName, listNames, naturalCompare } from "./naming.js";
+
+export interface DesignOptions {
+  exposure?: string;
+  offset?: string;
+  weights?: string;
+  /** Reference level per factor. */
+  refs?: Record<string, string>;
+}
+
+export interface FactorCoding {
+  name: string;
+  /** Levels present among the rows used, in natural order. */
+  levels: string[];
+  reference: string;
+}
+
+export type ColumnKind = "intercept" | "numeric" | "indicator" | "slope";
+
+export interface DesignColumn {
+  /** Contract name: intercept, x, COL=LEVEL, parts joined by ':'. */
+  name: string;
+  /** Index of the term in `termLabels`, or −1 for the intercept. */
+  term: number;
+  kind: ColumnKind;
+  /** Factor levels this column stands for (empty for numeric columns). */
+  levels: { factor: string; level: string }[];
+}
+
+/**
+ * One slot per term: in each row a term puts its value into at most one of
+ * its columns colStart .. colStart + colCount − 1 (a factor row has one
+ * level). `cols` gives that column per row (−1: none, i.e. the reference
+ * level); null means the single column colStart in every row. `values` holds
+ * the numeric factor of the term (null: the value is 1).
+ */
+export interface Slot {
+  term: number;
+  colStart: number;
+  colCount: number;
+  cols: Int32Array | null;
+  values: Float64Array | null;
+}
+
+export interface ModelMatrix {
+  n: number;
+  p: number;
+  slots: Slot[];
+  /** Index of the intercept column, or −1. */
+  interceptCol: number;
+}
+
+export interface Design {
+  source: string;
+  model: ModelSpec;
+  /** Data rows in the file. */
+  nRows: number;
+  /** Rows used in the fit. */
+  n: number;
+  /** Data-row index (0-based) of each row used; file row = index + 2. */
+  rowIndex: Int32Array;
+  y: Float64Array;
+  /** Log offset: log(exposure) plus the offset column, per row used. */
+  offset: Float64Array;
+  /** Frequency weights (null: every row counts once). */
+  weights: Float64Array | null;
+  exposure: Float64Array | null;
+  exposureName: string | null;
+  offsetName: string | null;
+  weightsName: string | null;
+  matrix: ModelMatrix;
+  columns: DesignColumn[];
+  termLabels: string[];
+  /** Design columns of each term. */
+  termColumns: number[][];
+  factors: FactorCoding[];
+  dropped: { missing: number; zeroExposureZeroCount: number; zeroWeight: number };
+  notices: string[];
+}
+
+function unknownColumn(table: Table, name: string, role: string): InputError {
+  const known = table.header.filter((h) => h !== "");
+  const close = closestName(name, known);
+  let msg = `${table.source}: ${role} column '${name}' is not in the file.`;
+  if (close) msg += ` Did you mean '${close}'?`;
+  msg += ` The columns are ${listNames(known)}.`;
+  if (known.length === 1) {
+    const guess = guessDelimiter(known[0], table.delimiter);
+    if (guess)
+      msg += ` The whole header landed in one column, so the file probably uses ${showDelimiter(guess)} between fields, not ${showDelimiter(table.delimiter)}: try --delimiter ${guess === "\t" ? "$'\\t'" : `'${guess}'`}.`;
+  }
+  return new InputError(msg);
+}
+
+function firstRows(rows: number[]): string {
+  const shown = rows.slice(0, 3).join(", ");
+  return rows.length > 3 ? `${shown} and ${rows.length - 3} more` : shown;
+}
+
+function numericValues(table: Table, col: Column, role: string): Float64Array {
+  if (col.kind === "numeric") return col.values;
+  const why = col.reason.forced
+    ? "it was listed in --factor"
+    : `row ${col.reason.row} holds '${col.reason.value}', which is not a finite number`;
+  throw new InputError(`${table.source}: the ${role} column '${col.name}' must be numeric, but ${why}.`);
+}
+
+/** Build the design matrix for a model on a table. */
+export function buildDesign(table: Table, model: ModelSpec, options: DesignOptions = {}): Design {
+  const get = (name: string, role: string): Column => {
+    const c = table.columns.get(name);
+    if (!c) throw unknownColumn(table, name, role);
+    return c;
+  };
+  const response = get(model.response, "count");
+  const yAll = numericValues(table, response, "count");
+  const vars = termVariables(model);
+  const varCols = vars.map((v) => get(v, "model"));
+  const exposureCol = options.exposure ? get(options.exposure, "exposure") : null;
+  const offsetCol = options.offset ? get(options.offset, "offset") : null;
+  const weightsCol = options.weights ? get(options.weights, "weights") : null;
+  const expAll = exposureCol ? numericValues(table, exposureCol, "exposure") : null;
+  const offAll = offsetCol ? numericValues(table, offsetCol, "offset") : null;
+  const wAll = weightsCol ? numericValues(table, weightsCol, "weights") : null;
+  for (const [name] of Object.entries(options.refs ?? {})) {
+    const c = table.columns.get(name);
+    if (!c) throw unknownColumn(table, name, "--ref");
+    if (!vars.includes(name)) throw new InputError(`--ref ${name}=...: '${name}' is not one of the model's terms.`);
+    if (c.kind !== "factor")
+      throw new InputError(`--ref ${name}=...: '${name}' is numeric; a reference level applies to a factor (add --factor ${name} to treat it as one).`);
+  }
+
+  // Rows complete in every column the model uses.
+  const N = table.nRows;
+  const usable = new Uint8Array(N).fill(1);
+  const missingIn = (c: Column) => {
+    if (c.kind === "numeric") { for (let i = 0; i < N; i++) if (Number.isNaN(c.values[i])) usable[i] = 0; }
+    else for (let i = 0; i < N; i++) if (c.codes[i] < 0) usable[i] = 0;
+  };
+  for (const c of [response, ...varCols, exposureCol, offsetCol, weightsCol]) if (c) missingIn(c);
+  let missing = 0;
+  for (let i = 0; i < N; i++) if (!usable[i]) missing++;
+
+  // Count, exposure and weight checks on complete rows.
+  const badCount: number[] = [];
+  const badExposure: number[] = [];
+  const negWeight: number[] = [];
+  let zeroExp = 0;
+  let zeroW = 0;
+  for (let i = 0; i < N; i++) {
+    if (!usable[i]) continue;
+    const y = yAll[i];
+    if (y < 0 || !Number.isInteger(y)) { badCount.push(i); continue; }
+    if (expAll) {
+      const e = expAll[i];
+      if (e < 0 || (e === 0 && y > 0)) { badExposure.push(i); continue; }
+      if (e === 0) { usable[i] = 0; zeroExp++; continue; }
+    }
+    if (wAll) {
+      const w = wAll[i];
+      if (w < 0) { negWeight.push(i); continue; }
+      if (w === 0) { usable[i] = 0; zeroW++; }
+    }
+  }
+  if (badCount.length > 0) {
+    const i = badCount[0];
+    throw new InputError(
+      `${table.source}, row ${fileRow(i)}, column '${model.response}': the count is ${yAll[i]}; counts must be whole numbers ≥ 0 ` +
+        `(rows ${firstRows(badCount.map(fileRow))}).`,
+    );
+  }
+  if (badExposure.length > 0) {
+    const i = badExposure[0];
+    const e = expAll![i];
+    throw new InputError(
+      `${table.source}, row ${fileRow(i)}, column '${options.exposure}': exposure ${e} with a count of ${yAll[i]}; ` +
+        `${e < 0 ? "exposure cannot be negative" : "a positive count needs positive exposure"} (rows ${firstRows(badExposure.map(fileRow))}). Correct the extract or leave those rows out.`,
+    );
+  }
+  if (negWeight.length > 0) {
+    const i = negWeight[0];
+    throw new InputError(
+      `${table.source}, row ${fileRow(i)}, column '${options.weights}': weight ${wAll![i]}; frequency weights cannot be negative (rows ${firstRows(negWeight.map(fileRow))}).`,
+    );
+  }
+
+  let n = 0;
+  for (let i = 0; i < N; i++) if (usable[i]) n++;
+  const notices: string[] = [];
+  if (missing > 0) notices.push(`${missing} row${missing === 1 ? " has" : "s have"} a missing value in a column the model uses and ${missing === 1 ? "was" : "were"} left out`);
+  if (zeroExp > 0) notices.push(`${zeroExp} row${zeroExp === 1 ? " has" : "s have"} zero exposure and a zero count; ${zeroExp === 1 ? "it carries" : "they carry"} no information and ${zeroExp === 1 ? "was" : "were"} left out`);
+  if (zeroW > 0) notices.push(`${zeroW} row${zeroW === 1 ? " has" : "s have"} weight 0 and ${zeroW === 1 ? "was" : "were"} left out`);
+  if (n === 0) {
+    throw new InputError(
+      `${table.source}: no rows are left to fit (${N} read; ${missing} with missing values, ${zeroExp} with zero exposure and zero count, ${zeroW} with weight 0).`,
+    );
+  }
+  const rowIndex = new Int32Array(n);
+  for (let i = 0, k = 0; i < N; i++) if (usable[i]) rowIndex[k++] = i;
+  const pick = (a: Float64Array) => { const out = new Float64Array(n); for (let k = 0; k < n; k++) out[k] = a[rowIndex[k]]; return out; };
+  const y = pick(yAll);
+  const exposure = expAll ? pick(expAll) : null;
+  const offset = new Float64Array(n);
+  if (exposure) for (let k = 0; k < n; k++) offset[k] = Math.log(exposure[k]);
+  if (offAll) for (let k = 0; k < n; k++) offset[k] += offAll[rowIndex[k]];
+  const weights = wAll ? pick(wAll) : null;
+
+  // Factor codings: levels present among used rows, natural order.
+  const factors = new Map<string, { coding: FactorCoding; codes: Int32Array }>();
+  vars.forEach((v, j) => {
+    const c = varCols[j];
+    if (c.kind !== "factor") return;
+    factors.set(v, codeFactor(table, c, rowIndex, options.refs?.[v]));
+  });
+
+  // Terms → columns.
+  const columns: DesignColumn[] = [];
+  const slots: Slot[] = [];
+  const termColumns: number[][] = [];
+  let interceptCol = -1;
+  if (model.intercept) {
+    interceptCol = 0;
+    columns.push({ name: "intercept", term: -1, kind: "intercept", levels: [] });
+    slots.push({ term: -1, colStart: 0, colCount: 1, cols: null, values: null });
+  }
+  const termKeys = new Set(model.terms.map((t) => [...t.variables].sort().join("\u0000")));
+  if (model.intercept) termKeys.add("");
+  model.terms.forEach((term, ti) => {
+    const parts = term.variables.map((v) => {
+      const f = factors.get(v);
+      if (!f) return { kind: "numeric" as const, name: v, values: pick((table.columns.get(v) as { values: Float64Array }).values) };
+      // Contrasts when the term without this factor is in the model (its margin), else full indicators.
+      const rest = term.variables.filter((u) => u !== v).sort().join("\u0000");
+      const contrast = termKeys.has(rest);
+      const coded = contrast ? f.coding.levels.filter((l) => l !== f.coding.reference) : f.coding.levels;
+      const refIdx = f.coding.levels.indexOf(f.coding.reference);
+      const map = f.coding.levels.map((_, li) => (contrast ? (li === refIdx ? -1 : li < refIdx ? li : li - 1) : li));
+      return { kind: "factor" as const, name: v, coded, map, codes: f.codes };
+    });
+    // Column names: Cartesian product of coded levels, first factor varying slowest.
+    const factorParts = parts.filter((p) => p.kind === "factor") as { name: string; coded: string[]; map: number[]; codes: Int32Array }[];
+    const numericParts = parts.filter((p) => p.kind === "numeric") as { name: string; values: Float64Array }[];
+    const sizes = factorParts.map((p) => p.coded.length);
+    const total = sizes.reduce((a, b) => a * b, 1);
+    const base = columns.length;
+    const cols: number[] = [];
+    for (let c = 0; c < total; c++) {
+      let rem = c;
+      const idx: number[] = new Array(sizes.length);
+      for (let k = sizes.length - 1; k >= 0; k--) { idx[k] = rem % sizes[k]; rem = Math.floor(rem / sizes[k]); }
+      const levels = factorParts.map((p, k) => ({ factor: p.name, level: p.coded[idx[k]] }));
+      const name = parts
+        .map((p) => (p.kind === "numeric" ? p.name : `${p.name}=${levels.find((l) => l.factor === p.name)!.level}`))
+        .join(":");
+      const kind: ColumnKind = factorParts.length === 0 ? "numeric" : numericParts.length === 0 ? "indicator" : "slope";
+      columns.push({ name, term: ti, kind, levels });
+      cols.push(base + c);
+    }
+    termColumns.push(cols);
+    let values: Float64Array | null = null;
+    if (numericParts.length > 0) {
+      values = new Float64Array(n);
+      for (let k = 0; k < n; k++) {
+        let v = 1;
+        for (const p of numericParts) v *= p.values[k];
+        values[k] = v;
+      }
+    }
+    if (factorParts.length === 0) {
+      slots.push({ term: ti, colStart: base, colCount: 1, cols: null, values });
+    } else {
+      const rowCols = new Int32Array(n);
+      for (let k = 0; k < n; k++) {
+        let c = 0;
+        let none = false;
+        for (let f = 0; f < factorParts.length; f++) {
+          const m = factorParts[f].map[factorParts[f].codes[k]];
+          if (m < 0) { none = true; break; }
+          c = c * sizes[f] + m;
+        }
+        rowCols[k] = none ? -1 : base + c;
+      }
+      slots.push({ term: ti, colStart: base, colCount: total, cols: rowCols, values });
+    }
+  });
+  const p = columns.length;
+  if (p === 0) throw new InputError("--model: the model has no terms and no intercept; add a term or drop --no-intercept.");
+  const nEff = weights ? weights.reduce((a, b) => a + b, 0) : n;
+  if (p > nEff) {
+    throw new InputError(
+      `${table.source}: the model has ${p} coefficients but only ${n} rows are used; a model needs fewer coefficients than rows. Drop terms or interactions.`,
+    );
+  }
+  return {
+    source: table.source,
+    model,
+    nRows: N,
+    n,
+    rowIndex,
+    y,
+    offset,
+    weights,
+    exposure,
+    exposureName: options.exposure ?? null,
+    offsetName: options.offset ?? null,
+    weightsName: options.weights ?? null,
+    matrix: { n, p, slots, interceptCol },
+    columns,
+    termLabels: model.terms.map((t) => t.variables.join(":")),
+    termColumns,
+    factors: [...factors.values()].map((f) => f.coding),
+    dropped: { missing, zeroExposureZeroCount: zeroExp, zeroWeight: zeroW },
+    notices,
+  };
+}
+
+function codeFactor(table: Table, c: FactorColumn, rowIndex: Int32Array, ref: string | undefined): { coding: FactorCoding; codes: Int32Array } {
+  const present = new Uint8Array(c.levels.length);
+  for (let k = 0; k < rowIndex.length; k++) present[c.codes[rowIndex[k]]] = 1;
+  const levels = c.levels.filter((_, i) => present[i]).sort(naturalCompare);
+  if (ref !== undefined && !levels.includes(ref)) {
+    const close = closestName(ref, levels);
+    throw new InputError(
+      `--ref ${c.name}=${ref}: '${ref}' is not a level of '${c.name}' among the rows used.${close ? ` Did you mean '${close}'?` : ""} The levels are ${listNames(levels, 30)}.`,
+    );
+  }
+  if (levels.length < 2) {
+    throw new InputError(
+      `${table.source}: factor '${c.name}' has a single level ('${levels[0]}') among the rows used, so it cannot explain any difference; remove it from the model.`,
+    );
+  }
+  const pos = new Map(levels.map((l, i) => [l, i]));
+  const remap = c.levels.map((l) => pos.get(l) ?? -1);
+  const codes = new Int32Array(rowIndex.length);
+  for (let k = 0; k < rowIndex.length; k++) codes[k] = remap[c.codes[rowIndex[k]]];
+  return { coding: { name: c.name, levels, reference: ref ?? levels[0] }, codes };
+}

@@ -1,0 +1,46 @@
+// Count families with the log link. alpha = 0 is the Poisson; alpha > 0 is the
+// NB2 negative binomial, variance = mu + alpha·mu² (Cameron and Trivedi,
+// Regression Analysis of Count Data, 2nd ed., 2013, §3.3).
+import { lgamma } from "../infer/distributions.js";
+
+/** Variance function V(mu). */
+export function variance(mu: number, alpha: number): number {
+  return mu + alpha * mu * mu;
+}
+
+/** y·log(y/mu), taken as 0 at y = 0. */
+function ylogy(y: number, mu: number): number {
+  return y > 0 ? y * Math.log(y / mu) : 0;
+}
+
+/** Unit deviance d(y, mu): twice the log-likelihood shortfall from the saturated fit. */
+export function unitDeviance(y: number, mu: number, alpha: number): number {
+  if (alpha === 0) return 2 * (ylogy(y, mu) - (y - mu));
+  const r = 1 / alpha;
+  // 2[y log(y/mu) − (y + 1/alpha) log((1 + alpha y)/(1 + alpha mu))]
+  return 2 * (ylogy(y, mu) - (y + r) * (Math.log1p(alpha * y) - Math.log1p(alpha * mu)));
+}
+
+/** Log-likelihood of one observation, with the log y! (or log-gamma) terms. */
+export function logDensity(y: number, mu: number, alpha: number): number {
+  if (alpha === 0) {
+    if (mu === 0) return y === 0 ? 0 : -Infinity;
+    return y * Math.log(mu) - mu - lgamma(y + 1);
+  }
+  if (mu === 0) return y === 0 ? 0 : -Infinity;
+  const r = 1 / alpha;
+  // log Γ(y + r) − log Γ(r) − log y! + r log(r/(r+mu)) + y log(mu/(r+mu))
+  const lg = lgammaRatio(y, r);
+  return lg - lgamma(y + 1) - r * Math.log1p(alpha * mu) + y * (Math.log(alpha * mu) - Math.log1p(alpha * mu));
+}
+
+/** log Γ(y + r) − log Γ(r), exact for small whole y and stable when r is huge. */
+export function lgammaRatio(y: number, r: number): number {
+  if (y === 0) return 0;
+  if (y <= 64) {
+    let s = 0;
+    for (let k = 0; k < y; k++) s += Math.log(r + k);
+    return s;
+  }
+  return lgamma(y + r) - lgamma(r);
+}

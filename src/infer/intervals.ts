@@ -1,0 +1,29 @@
+// Profile-likelihood limits for every coefficient of a fitted model.
+import type { Design } from "../design/design.js";
+import { constrainedStatistic, noEventsGuess, type ModelFit } from "../fit/model.js";
+import { chiSquareQuantile, normalQuantile } from "./distributions.js";
+import { profileLimits, profileUpperFromMinusInfinity, type ProfileResult } from "./profile.js";
+
+/**
+ * Profile limits on the log scale for each design column that was estimated
+ * or has no events. For quasi-Poisson the statistic is the deviance
+ * difference divided by phi, referred to chi-square(1).
+ */
+export function profileAll(design: Design, mf: ModelFit, level: number, phi = 1): Map<number, ProfileResult> {
+  const crit = chiSquareQuantile(level, 1);
+  const zq = normalQuantile(1 - (1 - level) / 2);
+  const out = new Map<number, ProfileResult>();
+  const q = mf.fit.covariance.p;
+  mf.fit.status.forEach((st, c) => {
+    if (st === "estimated") {
+      const k = mf.fit.estimable.indexOf(c);
+      const se = Math.sqrt(mf.fit.covariance.data[k * q + k] * phi);
+      const stat = constrainedStatistic(design, mf, c);
+      out.set(c, profileLimits((b) => stat(b) / phi, mf.fit.beta[c], zq * se, crit));
+    } else if (st === "no_events") {
+      const stat = constrainedStatistic(design, mf, c);
+      out.set(c, profileUpperFromMinusInfinity((b) => stat(b) / phi, noEventsGuess(design, mf, c, crit * phi), crit));
+    }
+  });
+  return out;
+}

@@ -1,0 +1,229 @@
+// Inference stage: a fitted model → the figures users publish and check.
+// Standard errors are the square roots of the diagonal of the inverse
+// expected (Fisher) information (see GlmFit.covariance), times sqrt(phi)
+// for quasi-Poisson.
+import type { Design } from "../design/design.js";
+import type { GlmFit } from "../fit/irls.js";
+import { logDensity, variance } from "../fit/family.js";
+import { chiSquareUpperTail, normalQuantile, normalTwoSidedP } from "./distributions.js";
+import type { ProfileResult } from "./profile.js";
+
+export type FamilyName = "poisson" | "negbin" | "quasipoisson";
+
+export interface CoefficientRow {
+  term: string;
+  estimate: number | null;
+  std_error: number | null;
+  z: number | null;
+  p_value: number | null;
+  rate_ratio: number | null;
+  /** Wald limits on the rate-ratio scale. */
+  wald: [number | null, number | null] | null;
+  /** Profile-likelihood limits on the rate-ratio scale. */
+  profile: [number | null, number | null] | null;
+  aliased: boolean;
+  status: "estimated" | "aliased" | "no_events";
+  /** For factor-level terms: the factor, the level and its reference. */
+  levels: { factor: string; level: string; reference: string }[];
+  kind: "intercept" | "numeric" | "indicator" | "slope";
+  term_group: string;
+}
+
+export interface FitSummary {
+  schema: "tallyfit.fit/1";
+  family: FamilyName;
+  link: "log";
+  level: number;
+  source: string;
+  model: string;
+  response: string;
+  exposure: string | null;
+  offset: string | null;
+  weights: string | null;
+  n_rows: number;
+  n_used: number;
+  n_dropped: number;
+  dropped: { missing: number; zero_exposure_zero_count: number; zero_weight: number };
+  df_residual: number;
+  n_parameters: number;
+  converged: boolean;
+  iterations: number;
+  deviance: number;
+  null_deviance: number;
+  df_null: number;
+  pearson_chi2: number;
+  log_likelihood: number;
+  aic: number;
+  bic: number;
+  dispersion: { pearson: number; deviance: number; pearson_p_value: number; deviance_p_value: number; phi_used: number };
+  references: { factor: string; level: string }[];
+  baseline: { rate: number; wald: [number, number]; per: string | null } | null;
+  coefficients: CoefficientRow[];
+  test_distribution: "normal";
+  standard_errors: "model" | "robust";
+  warnings: string[];
+  notices: string[];
+}
+
+export interface SummaryOptions {
+  level: number;
+  family: FamilyName;
+  /** Null deviance of the intercept-only model with the same offset and alpha. */
+  nullDeviance: number;
+  /** Profile limits on the log scale by design column, when computed. */
+  profiles?: Map<number, ProfileResult>;
+}
+
+/** Null deviance for the Poisson: the intercept-only MLE has the closed form exp(b0) = Σwy / Σw·exp(offset). */
+export function poissonNullDeviance(design: Design): number {
+  const { y, offset, weights } = design;
+  let sy = 0, se = 0;
+  for (let i = 0; i < y.length; i++) {
+    const w = weights ? weights[i] : 1;
+    sy += w * y[i];
+    se += w * Math.exp(offset[i]);
+  }
+  const hasIntercept = design.matrix.interceptCol >= 0;
+  const scale = hasIntercept ? sy / se : 1;
+  let d = 0;
+  for (let i = 0; i < y.length; i++) {
+    const mu = Math.exp(offset[i]) * scale;
+    const w = weights ? weights[i] : 1;
+    const yi = y[i];
+    d += w * 2 * ((yi > 0 ? yi * Math.log(yi / mu) : 0) - (yi - mu));
+  }
+  return d;
+}
+
+/** Goodness-of-fit figures that do not depend on how the standard errors are made. */
+export function fitStatistics(design: Design, fit: GlmFit) {
+  const { y, weights } = design;
+  let pearson = 0, ll = 0, nEff = 0;
+  for (let i = 0; i < y.length; i++) {
+    const w = weights ? weights[i] : 1;
+    nEff += w;
+    const mu = fit.mu[i];
+    if (mu > 0) pearson += (w * (y[i] - mu) ** 2) / variance(mu, fit.alpha);
+    ll += w * logDensity(y[i], mu, fit.alpha);
+  }
+  let k = 0;
+  for (const s of fit.status) if (s === "estimated" || s === "no_events") k++;
+  const nPar = k + (fit.alpha > 0 ? 1 : 0);
+  const df = nEff - k;
+  return {
+    pearson, logLik: ll, nEff, nCoef: k, nPar, df,
+    aic: -2 * ll + 2 * nPar,
+    bic: -2 * ll + Math.log(nEff) * nPar,
+  };
+}
+
+/** Build the report record for a fitted model. */
+export function summarizeFit(design: Design, fit: GlmFit, options: SummaryOptions): FitSummary {
+  const stats = fitStatistics(design, fit);
+  const df = stats.df;
+  const pearsonRatio = df > 0 ? stats.pearson / df : NaN;
+  const devRatio = df > 0 ? fit.deviance / df : NaN;
+  const phi = options.family === "quasipoisson" ? pearsonRatio : 1;
+  const zq = normalQuantile(1 - (1 - options.level) / 2);
+  const posOf = new Map(fit.estimable.map((c, k) => [c, k]));
+  const q = fit.covariance.p;
+  const refs = new Map(design.factors.map((f) => [f.name, f.reference]));
+  const coefficients: CoefficientRow[] = design.columns.map((col, c) => {
+    const st = fit.status[c];
+    const levels = col.levels.map((l) => ({ factor: l.factor, level: l.level, reference: refs.get(l.factor) ?? "" }));
+    const base = {
+      term: col.name, levels, kind: col.kind,
+      term_group: col.term < 0 ? "intercept" : design.termLabels[col.term],
+      profile: profileRow(options.profiles?.get(c)),
+    };
+    if (st === "aliased" || st === "fixed")
+      return { ...base, estimate: null, std_error: null, z: null, p_value: null, rate_ratio: null, wald: null, aliased: true, status: "aliased" as const };
+    if (st === "no_events")
+      return { ...base, estimate: null, std_error: null, z: null, p_value: null, rate_ratio: 0, wald: [0, null] as [number, null], aliased: false, status: "no_events" as const };
+    const k = posOf.get(c)!;
+    const b = fit.beta[c];
+    const se = Math.sqrt(fit.covariance.data[k * q + k] * phi);
+    const zval = b / se;
+    return {
+      ...base, estimate: b, std_error: se, z: zval, p_value: normalTwoSidedP(zval), rate_ratio: Math.exp(b),
+      wald: [Math.exp(b - zq * se), Math.exp(b + zq * se)] as [number, number], aliased: false, status: "estimated" as const,
+    };
+  });
+
+  const warnings: string[] = [...fit.warnings];
+  if (options.profiles)
+    for (const [c, pr] of options.profiles)
+      for (const [side, r] of [["lower", pr.lower], ["upper", pr.upper]] as const)
+        if (r.value === null && r.reason && !(fit.status[c] === "no_events" && side === "lower"))
+          warnings.push(`${design.columns[c].name}: the ${side} profile limit is ${r.open ? (side === "lower" ? "0 (open)" : "unbounded") : "not available"}: ${r.reason}`);
+  for (const row of coefficients) {
+    if (row.status === "aliased")
+      warnings.push(`${row.term} is aliased (a linear combination of earlier columns) and was left out of the fit; no estimate is shown for it`);
+    if (row.status === "no_events")
+      warnings.push(`${row.term}: every row of this level has a zero count, so its rate ratio has no finite estimate (it is 0); its lower limit is 0 and no Wald interval exists`);
+  }
+  if (!fit.converged)
+    warnings.push(`IRLS stopped after ${fit.iterations} iterations without meeting the convergence rule; the estimates may be inaccurate (raise --max-iter)`);
+
+  let baseline: FitSummary["baseline"] = null;
+  const ic = design.matrix.interceptCol;
+  if (ic >= 0 && coefficients[ic].status === "estimated") {
+    const r = coefficients[ic];
+    baseline = { rate: r.rate_ratio!, wald: [r.wald![0]!, r.wald![1]!], per: design.exposureName };
+  }
+  return {
+    schema: "tallyfit.fit/1",
+    family: options.family,
+    link: "log",
+    level: options.level,
+    source: design.source,
+    model: design.model.text,
+    response: design.model.response,
+    exposure: design.exposureName,
+    offset: design.offsetName,
+    weights: design.weightsName,
+    n_rows: design.nRows,
+    n_used: design.n,
+    n_dropped: design.nRows - design.n,
+    dropped: { missing: design.dropped.missing, zero_exposure_zero_count: design.dropped.zeroExposureZeroCount, zero_weight: design.dropped.zeroWeight },
+    df_residual: df,
+    n_parameters: stats.nPar,
+    converged: fit.converged,
+    iterations: fit.iterations,
+    deviance: fit.deviance,
+    null_deviance: options.nullDeviance,
+    df_null: stats.nEff - (ic >= 0 ? 1 : 0),
+    pearson_chi2: stats.pearson,
+    log_likelihood: stats.logLik,
+    aic: stats.aic,
+    bic: stats.bic,
+    dispersion: {
+      pearson: pearsonRatio,
+      deviance: devRatio,
+      pearson_p_value: df > 0 ? chiSquareUpperTail(stats.pearson, df) : NaN,
+      deviance_p_value: df > 0 ? chiSquareUpperTail(fit.deviance, df) : NaN,
+      phi_used: phi,
+    },
+    references: design.factors.map((f) => ({ factor: f.name, level: f.reference })),
+    baseline,
+    coefficients,
+    test_distribution: "normal",
+    standard_errors: "model",
+    warnings: [...design.notices, ...warnings],
+    notices: design.notices,
+  };
+}
+
+/** Profile limits on the rate-ratio scale; an open lower side is 0, an open upper side null (unbounded). */
+function profileRow(pr: ProfileResult | undefined): [number | null, number | null] | null {
+  if (!pr) return null;
+  const lo = pr.lower.value !== null ? Math.exp(pr.lower.value) : pr.lower.open ? 0 : null;
+  const hi = pr.upper.value !== null ? Math.exp(pr.upper.value) : null;
+  return [lo, hi];
+}
+
+/** Quasi-Poisson dispersion phi = Pearson chi-square / residual df (McCullagh and Nelder 1989, §4.5.2). */
+export function quasiPhi(design: Design, fit: GlmFit): number {
+  const st = fitStatistics(design, fit);
+  return st.df > 0 ? st.pearson / st.df : NaN;
+}

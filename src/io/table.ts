@@ -1,0 +1,37 @@
+// Plain typed records for a loaded table: columns as typed arrays.
+
+/** A column whose every present value is a finite number; NaN marks a missing value. */
+export interface NumericColumn {
+  kind: "numeric";
+  name: string;
+  values: Float64Array;
+}
+
+/** A categorical column: level codes (−1 = missing) into `levels` (in order of first appearance). */
+export interface FactorColumn {
+  kind: "factor";
+  name: string;
+  codes: Int32Array;
+  levels: string[];
+  /** Why the column is a factor: forced by the user, or the first value that is not a finite number. */
+  reason: { forced: true } | { forced: false; row: number; value: string };
+}
+
+export type Column = NumericColumn | FactorColumn;
+
+export interface Table {
+  /** Display name of the source: the path, or "<stdin>". */
+  source: string;
+  /** Column names in header order. */
+  header: string[];
+  /** Number of data rows (the header is row 1, so data row i is file row i + 2). */
+  nRows: number;
+  /** The selected columns (all columns when no selection was given). */
+  columns: Map<string, Column>;
+  delimiter: string;
+}
+
+/** File row number (1-based, header = row 1) of data row index i (0-based). */
+export function fileRow(i: number): number {
+  return i + 2;
+}

@@ -1,0 +1,167 @@
+// The text report of one fitted model, in tallyfit's own layout:
+// rate ratios first, then the coefficients, fit figures, dispersion, warnings.
+import type { CoefficientRow, FitSummary } from "../infer/summary.js";
+import { fixed, interval, pEquals, pValue, sig, table, wrap } from "./format.js";
+import type { Style } from "./style.js";
+
+const FAMILY_TITLE = { poisson: "Poisson", negbin: "Negative-binomial (NB2)", quasipoisson: "Quasi-Poisson" } as const;
+
+export const CAUTION =
+  "Rate ratios from routinely collected counts describe associations, not the effect of a clinic, ward or policy; " +
+  "groups with few events (roughly under 10, common practice) give wide, unstable intervals; " +
+  "local protocols and qualified review decide what, if anything, is done.";
+
+export interface TextOptions {
+  style: Style;
+  width: number;
+  intervals: "wald" | "profile" | "both";
+}
+
+function pct(level: number): string {
+  return `${+(level * 100).toFixed(2)}%`;
+}
+
+function droppedText(s: FitSummary): string {
+  const parts: string[] = [];
+  if (s.dropped.missing) parts.push(`${s.dropped.missing} with missing values`);
+  if (s.dropped.zero_exposure_zero_count) parts.push(`${s.dropped.zero_exposure_zero_count} with zero exposure and zero count`);
+  if (s.dropped.zero_weight) parts.push(`${s.dropped.zero_weight} with weight 0`);
+  return parts.length ? `, ${s.n_dropped} left out (${parts.join("; ")})` : "";
+}
+
+function groupHeading(rows: CoefficientRow[]): string {
+  const r = rows[0];
+  const refs = [...new Map(r.levels.map((l) => [l.factor, l.reference])).entries()];
+  if (refs.length === 0) return r.kind === "numeric" ? "" : r.term_group;
+  const refText = refs.map(([f, l]) => `${f} = ${l}`).join(", ");
+  return `${r.term_group}  (reference: ${refText})`;
+}
+
+export function renderFitText(s: FitSummary, o: TextOptions): string {
+  const out: string[] = [];
+  const st = o.style;
+  const lv = pct(s.level);
+  const exposureText = s.exposure ? `, exposure ${s.exposure} (log offset)` : s.offset ? `, offset ${s.offset}` : "";
+  out.push(st.heading(`${FAMILY_TITLE[s.family]} rate model for ${s.response}, log link${exposureText}`));
+  out.push(`  data    ${s.source}: ${fixed(s.n_rows, 0)} rows, ${fixed(s.n_used, 0)} used${droppedText(s)}`);
+  out.push(`  model   ${s.model}${s.weights ? `   (frequency weights: ${s.weights})` : ""}`);
+  out.push(`  fit     ${s.converged ? "converged" : st.bad("did NOT converge")} after ${s.iterations} IRLS iteration${s.iterations === 1 ? "" : "s"}`);
+  out.push("");
+
+  // Rate ratios, grouped by term.
+  const showW = o.intervals !== "profile";
+  const showP = o.intervals !== "wald";
+  const nonIntercept = s.coefficients.filter((c) => c.kind !== "intercept");
+  out.push(st.heading(`Rate ratios with ${lv} intervals`));
+  if (nonIntercept.length === 0) out.push("  (the model has no terms besides the intercept)");
+  else {
+    const head = ["term", "rate ratio"];
+    if (showW) head.push(`Wald ${lv}`);
+    if (showP) head.push(`profile ${lv}`);
+    head.push("p-value");
+    const rows: string[][] = [head];
+    const groups: string[] = [];
+    for (const c of nonIntercept) if (!groups.includes(c.term_group)) groups.push(c.term_group);
+    for (const g of groups) {
+      const members = nonIntercept.filter((c) => c.term_group === g);
+      const h = groupHeading(members);
+      if (h) rows.push([h, "", ...(showW ? [""] : []), ...(showP ? [""] : []), ""]);
+      for (const c of members) {
+        const label = (h ? "  " : "") + c.term;
+        if (c.status === "aliased") { rows.push([label, "aliased", ...(showW ? [""] : []), ...(showP ? [""] : []), ""]); continue; }
+        if (c.status === "no_events") {
+          rows.push([label, "0 (no events)", ...(showW ? ["–"] : []), ...(showP ? [interval(c.profile)] : []), "–"]);
+          continue;
+        }
+        rows.push([label, sig(c.rate_ratio), ...(showW ? [interval(c.wald)] : []), ...(showP ? [c.profile ? interval(c.profile) : "–"] : []), pValue(c.p_value)]);
+      }
+    }
+    const align: ("l" | "r")[] = ["l", "r", ...(showW ? ["r" as const] : []), ...(showP ? ["r" as const] : []), "r"];
+    out.push(...table(rows, align));
+    const numeric = nonIntercept.filter((c) => c.kind === "numeric" || c.kind === "slope");
+    if (numeric.length) out.push(`  A numeric term's rate ratio is per one unit of that column.`);
+  }
+  if (s.baseline) {
+    const at = [
+      ...s.references.map((r) => `${r.factor} = ${r.level}`),
+      ...s.coefficients.filter((c) => c.kind === "numeric").map((c) => `${c.term} = 0`),
+    ];
+    const per = s.baseline.per ? `per unit of ${s.baseline.per}` : s.offset ? "per unit of exp(offset)" : "per row";
+    out.push(
+      ...wrap(
+        `Baseline rate: ${sig(s.baseline.rate)} ${s.response} ${per}${at.length ? ` at ${at.join(", ")}` : ""} (Wald ${lv} ${interval(s.baseline.wald)}).`,
+        o.width - 2, "  ",
+      ).map((l) => "  " + l),
+    );
+  }
+  out.push("");
+
+  out.push(st.heading("Coefficients on the log scale"));
+  const crow: string[][] = [["term", "estimate", "std. error", "z", "p-value"]];
+  for (const c of s.coefficients) {
+    if (c.status === "aliased") crow.push([c.term, "aliased", "", "", ""]);
+    else if (c.status === "no_events") crow.push([c.term, "−∞", "–", "–", "–"]);
+    else crow.push([c.term, fixed(c.estimate, 4), fixed(c.std_error, 4), fixed(c.z, 2), pValue(c.p_value)]);
+  }
+  out.push(...table(crow, ["l", "r", "r", "r", "r"]));
+  const seText =
+    s.standard_errors === "robust"
+      ? "sandwich (Huber–White) standard errors"
+      : s.family === "quasipoisson"
+        ? `standard errors from the inverse Fisher information times √φ (φ = ${fixed(s.dispersion.phi_used, 3)})`
+        : "standard errors from the inverse Fisher information";
+  out.push(`  ${seText}; z and p against the standard normal`);
+  out.push("");
+
+  out.push(st.heading("Fit"));
+  const frows: string[][] = [
+    ["deviance", fixed(s.deviance, 2), `on ${fixed(s.df_residual, 0)} residual df`],
+    ["null deviance", fixed(s.null_deviance, 2), `on ${fixed(s.df_null, 0)} df`],
+    ["Pearson chi-square", fixed(s.pearson_chi2, 2), ""],
+    ["log-likelihood", fixed(s.log_likelihood, 2), `${s.n_parameters} parameters`],
+    ["AIC", fixed(s.aic, 2), ""],
+    ["BIC", fixed(s.bic, 2), ""],
+  ];
+  out.push(...table(frows, ["l", "r", "l"]));
+  out.push("");
+
+  out.push(st.heading("Dispersion"));
+  out.push(...dispersionBlock(s, o));
+  out.push("");
+
+  const warns = s.warnings.filter((w) => !s.notices.includes(w));
+  if (warns.length) {
+    out.push(st.caution("Warnings"));
+    warns.forEach((w, i) => out.push(...wrap(`${i + 1}. ${w}`, o.width - 2, "   ").map((l) => "  " + l)));
+    out.push("");
+  }
+  out.push(...wrap(`Reading these results: ${CAUTION}`, o.width));
+  return out.join("\n") + "\n";
+}
+
+function dispersionBlock(s: FitSummary, o: TextOptions): string[] {
+  const st = o.style;
+  const d = s.dispersion;
+  const out: string[] = [];
+  const rows = [
+    ["Pearson chi-square / df", fixed(d.pearson, 3), Number.isNaN(d.pearson_p_value) ? "" : `${pEquals(d.pearson_p_value)} against chi-square on ${fixed(s.df_residual, 0)} df`],
+    ["deviance / df", fixed(d.deviance, 3), Number.isNaN(d.deviance_p_value) ? "" : pEquals(d.deviance_p_value)],
+  ];
+  out.push(...table(rows, ["l", "r", "l"]));
+  let verdict: string;
+  if (s.df_residual <= 0) verdict = st.caution("No residual degrees of freedom: the dispersion cannot be judged from this fit.");
+  else if (s.family === "poisson") {
+    if (d.pearson > 1 && d.pearson_p_value < 0.05)
+      verdict = st.caution(
+        `The counts vary more than a Poisson model allows (Pearson ratio ${fixed(d.pearson, 2)}); the standard errors and p-values above are too small. ` +
+          "Run `tallyfit check` for the formal tests, and refit with --family negbin or --family quasipoisson.",
+      );
+    else if (d.pearson < 1 && 1 - d.pearson_p_value < 0.05)
+      verdict = st.caution(`The counts vary less than a Poisson model expects (Pearson ratio ${fixed(d.pearson, 2)}); the intervals above are conservative.`);
+    else verdict = st.good(`Consistent with Poisson variation (variance close to the mean): the Pearson ratio is ${fixed(d.pearson, 2)}.`);
+  } else if (s.family === "quasipoisson")
+    verdict = `Standard errors are scaled by √φ = ${fixed(Math.sqrt(d.phi_used), 3)} to allow for the extra variation.`;
+  else verdict = `The negative-binomial variance mu + alpha·mu² allows for extra variation; ratios near 1 mean it accounts for it.`;
+  out.push(...wrap(verdict, o.width - 2, "  ").map((l) => "  " + l));
+  return out;
+}
