@@ -6,9 +6,13 @@ export { parseModel, termVariables, type ModelSpec, type Term } from "./model/fo
 export { buildDesign, type Design, type DesignColumn, type DesignOptions, type FactorCoding, type ModelMatrix, type Slot } from "./design/design.js";
 export { naturalCompare } from "./design/naming.js";
 export { fitGlm, prepareFit, columnValues, DEFAULT_CONTROL, type FitControl, type FitData, type GlmFit } from "./fit/irls.js";
-export { fitModel, constrainedStatistic, type FamilyChoice, type ModelFit } from "./fit/model.js";
+export { fitModel, constrainedStatistic, nullDeviance, type FamilyChoice, type FamilyName, type ModelFit } from "./fit/model.js";
+export { fitNegbin, negbinLogLik, maximizeAlpha, alphaDerivatives, type NegbinFit } from "./fit/negbin.js";
 export { logDensity, unitDeviance, variance } from "./fit/family.js";
-export { summarizeFit, fitStatistics, poissonNullDeviance, quasiPhi, type CoefficientRow, type FamilyName, type FitSummary } from "./infer/summary.js";
+export { summarizeFit, fitStatistics, quasiPhi, boundaryLrTest, type CoefficientRow, type FitSummary, type NegbinSummary } from "./infer/summary.js";
+export { runChecks, dispersionFlagged, type CheckResult, type CheckTest } from "./infer/check.js";
+export { sandwichCovariance } from "./infer/robust.js";
+export { analyzeFit, analyzeCheck, type AnalysisOptions, type FitAnalysis } from "./analysis.js";
 export { profileAll } from "./infer/intervals.js";
 export { profileLimits, type ProfileResult } from "./infer/profile.js";
 export { brentRoot } from "./infer/roots.js";

@@ -5,21 +5,17 @@ import { fileURLToPath } from "node:url";
 import { buildDesign, type DesignOptions } from "../src/design/design.js";
 import { parseTable } from "../src/io/csv.js";
 import { parseModel } from "../src/model/formula.js";
-import { fitModel, type FamilyChoice } from "../src/fit/model.js";
-import { quasiPhi, summarizeFit } from "../src/infer/summary.js";
-import { profileAll } from "../src/infer/intervals.js";
+import type { FamilyChoice } from "../src/fit/model.js";
+import { analyzeFit } from "../src/analysis.js";
 
 export const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), "..", "..");
 export const FIXTURES = join(ROOT, "test", "fixtures");
 export const BIN = join(ROOT, "bin", "tallyfit.js");
 
-export function fitCsv(csv: string, model: string, options: DesignOptions & { factors?: string[]; family?: FamilyChoice; intercept?: boolean; profile?: boolean } = {}) {
+export function fitCsv(csv: string, model: string, options: DesignOptions & { factors?: string[]; family?: FamilyChoice; intercept?: boolean; profile?: boolean; robust?: boolean } = {}) {
   const table = parseTable(csv, { source: "test.csv", factors: options.factors });
   const design = buildDesign(table, parseModel(model, { intercept: options.intercept }), options);
-  const mf = fitModel(design, { family: options.family ?? "poisson" });
-  const phi = mf.family === "quasipoisson" ? quasiPhi(design, mf.fit) : 1;
-  const profiles = options.profile ? profileAll(design, mf, 0.95, phi) : undefined;
-  const summary = summarizeFit(design, mf.fit, { level: 0.95, family: mf.family, nullDeviance: mf.nullDeviance, profiles });
+  const { modelFit: mf, summary } = analyzeFit(design, { family: options.family ?? "poisson", level: 0.95, intervals: options.profile ? "both" : "wald", robust: options.robust });
   return { table, design, mf, summary, coef: (term: string) => summary.coefficients.find((c) => c.term === term)! };
 }
 
@@ -57,4 +53,57 @@ export function poissonDraw(u: () => number, mean: number): number {
   const x = u();
   while (x > s && k < 100000) { k++; p *= mean / k; s += p; }
   return k;
+}
+
+/** Standard normal draw (Box–Muller). */
+export function normalDraw(u: () => number): number {
+  return Math.sqrt(-2 * Math.log(1 - u())) * Math.cos(2 * Math.PI * u());
+}
+
+/** Gamma(shape, 1) draw (Marsaglia and Tsang 2000). */
+export function gammaDraw(u: () => number, shape: number): number {
+  if (shape < 1) return gammaDraw(u, shape + 1) * Math.pow(u(), 1 / shape);
+  const d = shape - 1 / 3, c = 1 / Math.sqrt(9 * d);
+  for (;;) {
+    let x: number, v: number;
+    do { x = normalDraw(u); v = 1 + c * x; } while (v <= 0);
+    v = v * v * v;
+    const w = u();
+    if (w < 1 - 0.0331 * x ** 4 || Math.log(w) < 0.5 * x * x + d * (1 - v + Math.log(v))) return d * v;
+  }
+}
+
+/** NB2 draw with mean mu and dispersion alpha, as a gamma–Poisson mixture. */
+export function negbinDraw(u: () => number, mu: number, alpha: number): number {
+  return alpha > 0 ? poissonDraw(u, mu * alpha * gammaDraw(u, 1 / alpha)) : poissonDraw(u, mu);
+}
+
+/** Two-sided 99.9% limits for a Binomial(n, p) count, from the exact distribution. */
+export function binomialLimits(n: number, p: number, level = 0.999): [number, number] {
+  const pmf: number[] = [];
+  let logc = 0;
+  for (let k = 0; k <= n; k++) {
+    if (k > 0) logc += Math.log((n - k + 1) / k);
+    pmf.push(Math.exp(logc + k * Math.log(p) + (n - k) * Math.log(1 - p)));
+  }
+  const tail = (1 - level) / 2;
+  let lo = 0, acc = 0;
+  while (acc + pmf[lo] < tail) { acc += pmf[lo]; lo++; }
+  let hi = n; acc = 0;
+  while (acc + pmf[hi] < tail) { acc += pmf[hi]; hi--; }
+  return [lo, hi];
+}
+
+/** CSV text of a simulated rate data set: group g (3 levels), numeric x, exposure e, count y. */
+export function simulateRates(u: () => number, n: number, alpha: number, base = 2): string {
+  let csv = "g,x,e,y\n";
+  const eff = [0, 0.4, -0.3];
+  for (let i = 0; i < n; i++) {
+    const g = i % 3;
+    const x = u();
+    const e = 1 + 4 * u();
+    const mu = e * base * Math.exp(eff[g] + 0.5 * x);
+    csv += `g${g},${x},${e},${negbinDraw(u, mu, alpha)}\n`;
+  }
+  return csv;
 }

@@ -7,7 +7,7 @@ test("every stage is usable from the package entry point", () => {
   const table = tf.parseTable("g,e,y\na,1,3\nb,2,9\na,2,4\nb,1,5\n", { source: "inline" });
   const design = tf.buildDesign(table, tf.parseModel("y ~ g"), { exposure: "e" });
   const mf = tf.fitModel(design, { family: "poisson" });
-  const summary = tf.summarizeFit(design, mf.fit, { level: 0.9, family: mf.family, nullDeviance: mf.nullDeviance, profiles: tf.profileAll(design, mf, 0.9) });
+  const summary = tf.summarizeFit(design, mf, { level: 0.9, profiles: tf.profileAll(design, mf, 0.9) });
   // Closed form: rate(b)/rate(a) = (14/3)/(7/3) = 2.
   assert.ok(Math.abs(summary.coefficients[1].rate_ratio! - 2) < 1e-12);
   const text = tf.renderFitText(summary, { style: tf.makeStyle(false), width: 90, intervals: "both" });

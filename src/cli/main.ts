@@ -5,10 +5,11 @@ import { EXIT, FitError, InputError } from "../errors.js";
 import { DEFAULT_NA, parseTable, readSource } from "../io/csv.js";
 import { parseModel, termVariables } from "../model/formula.js";
 import { buildDesign } from "../design/design.js";
-import { fitModel, type FamilyChoice } from "../fit/model.js";
-import { quasiPhi, summarizeFit } from "../infer/summary.js";
-import { profileAll } from "../infer/intervals.js";
+import type { Design } from "../design/design.js";
+import type { FamilyChoice } from "../fit/model.js";
+import { analyzeCheck, analyzeFit } from "../analysis.js";
 import { renderFitText } from "../report/fit-text.js";
+import { renderCheckText } from "../report/check-text.js";
 import { renderFitCsv, renderFitMarkdown, renderJson } from "../report/fit-tabular.js";
 import { makeStyle, wantColor } from "../report/style.js";
 import { writeAtomic, writeStdout } from "./output.js";
@@ -103,22 +104,19 @@ function notice(opts: CommonOptions, msg: string): void {
   if (!opts.quiet) process.stderr.write(`tallyfit: ${msg}\n`);
 }
 
-async function runFit(file: string | undefined, opts: CommonOptions): Promise<number> {
-  if (opts.model.length !== 1) throw new InputError(opts.model.length === 0 ? 'fit needs --model "COUNT ~ TERMS".' : "fit takes one --model; use `tallyfit compare` for several.");
-  const level = parseLevel(opts.level);
-  const formats = ["text", "json", "csv", "markdown"];
-  if (!formats.includes(opts.format)) throw new InputError(`--format must be one of ${formats.join(", ")} (got '${opts.format}').`);
-  const families = ["poisson", "quasipoisson", "negbin"];
-  if (!families.includes(opts.family)) throw new InputError(`--family must be one of ${families.join(", ")} (got '${opts.family}').`);
-  const intervals = opts.intervals;
-  if (!["wald", "profile", "both"].includes(intervals)) throw new InputError(`--intervals must be wald, profile or both (got '${intervals}').`);
+interface Loaded {
+  design: Design;
+  control: { maxIter: number; tolerance: number };
+}
+
+/** Read the input and build the design: the load → design stages, shared by the fitting commands. */
+async function loadDesign(file: string | undefined, opts: CommonOptions, modelText: string): Promise<Loaded> {
   const control = { maxIter: parsePositiveInt("--max-iter", opts.maxIter), tolerance: parsePositive("--tolerance", opts.tolerance) };
-  const spec = parseModel(opts.model[0], { intercept: opts.intercept });
+  const spec = parseModel(modelText, { intercept: opts.intercept });
   const refs = parseRefs(opts.ref);
   const factors = opts.factor.flatMap((f) => f.split(",").map((s) => s.trim()).filter(Boolean));
-
   const path = file ?? "-";
-  if (path === "-" && process.stdin.isTTY) throw new InputError("no input: give a CSV file, or pipe one in (tallyfit fit - reads standard input).");
+  if (path === "-" && process.stdin.isTTY) throw new InputError("no input: give a CSV file, or pipe one in (a FILE of - reads standard input).");
   const { bytes, name } = await readSource(path);
   const select = [spec.response, ...termVariables(spec), ...[opts.exposure, opts.offset, opts.weights].filter((x): x is string => !!x), ...Object.keys(refs)];
   const table = parseTable(bytes, { source: name, delimiter: opts.delimiter, na: parseNa(opts.na), factors, select });
@@ -126,26 +124,61 @@ async function runFit(file: string | undefined, opts: CommonOptions): Promise<nu
     if (!table.header.includes(f)) throw new InputError(`${name}: --factor column '${f}' is not in the file. The columns are ${table.header.map((h) => `'${h}'`).join(", ")}.`);
   const design = buildDesign(table, spec, { exposure: opts.exposure, offset: opts.offset, weights: opts.weights, refs });
   for (const n of design.notices) notice(opts, n);
+  return { design, control };
+}
 
-  const result = fitModel(design, { family: opts.family as FamilyChoice, control });
-  const phi = result.family === "quasipoisson" ? quasiPhi(design, result.fit) : 1;
-  const profiles = intervals === "wald" ? undefined : profileAll(design, result, level, phi);
-  const summary = summarizeFit(design, result.fit, { level, family: result.family, nullDeviance: result.nullDeviance, profiles });
+function oneOf(name: string, value: string, allowed: string[]): string {
+  if (!allowed.includes(value)) throw new InputError(`${name} must be one of ${allowed.join(", ")} (got '${value}').`);
+  return value;
+}
 
-  let content: string;
-  if (opts.format === "json") content = renderJson(summary);
-  else if (opts.format === "csv") content = renderFitCsv(summary);
-  else if (opts.format === "markdown") content = renderFitMarkdown(summary);
-  else {
-    const toTTY = !opts.output && process.stdout.isTTY;
-    const color = !opts.output && wantColor(process.stdout.isTTY, process.env, opts.color);
-    content = renderFitText(summary, { style: makeStyle(color), width: toTTY ? Math.max(60, Math.min(process.stdout.columns ?? 100, 120)) : 100, intervals: intervals as "wald" | "profile" | "both" });
-  }
+function textLayout(opts: CommonOptions) {
+  const toTTY = !opts.output && process.stdout.isTTY;
+  const color = !opts.output && wantColor(process.stdout.isTTY, process.env, opts.color);
+  return { style: makeStyle(color), width: toTTY ? Math.max(60, Math.min(process.stdout.columns ?? 100, 120)) : 100 };
+}
+
+async function emit(opts: CommonOptions, content: string): Promise<void> {
   if (opts.output) {
     await writeAtomic(opts.output, content);
     notice(opts, `report written to ${opts.output}`);
   } else await writeStdout(content);
+}
+
+function parseTestLevel(v: string): number {
+  const x = Number(v);
+  if (!(x > 0 && x < 1)) throw new InputError(`--alpha is the test level, a number between 0 and 1 such as 0.05 (got '${v}').`);
+  return x;
+}
+
+async function runFit(file: string | undefined, opts: CommonOptions & { alpha: string }): Promise<number> {
+  if (opts.model.length !== 1) throw new InputError(opts.model.length === 0 ? 'fit needs --model "COUNT ~ TERMS".' : "fit takes one --model; use `tallyfit compare` for several.");
+  const level = parseLevel(opts.level);
+  oneOf("--format", opts.format, ["text", "json", "csv", "markdown"]);
+  const family = oneOf("--family", opts.family, ["poisson", "quasipoisson", "negbin", "auto"]) as FamilyChoice;
+  const intervals = oneOf("--intervals", opts.intervals, ["wald", "profile", "both"]) as "wald" | "profile" | "both";
+  const testLevel = parseTestLevel(opts.alpha);
+  const { design, control } = await loadDesign(file, opts, opts.model[0]);
+  const { summary } = analyzeFit(design, { family, control, level, intervals, robust: !!opts.robust, testLevel });
+  let content: string;
+  if (opts.format === "json") content = renderJson(summary);
+  else if (opts.format === "csv") content = renderFitCsv(summary);
+  else if (opts.format === "markdown") content = renderFitMarkdown(summary);
+  else content = renderFitText(summary, { ...textLayout(opts), intervals });
+  await emit(opts, content);
   return EXIT.ok;
+}
+
+async function runCheck(file: string | undefined, opts: CommonOptions & { alpha: string }): Promise<number> {
+  if (opts.model.length !== 1) throw new InputError('check needs one --model "COUNT ~ TERMS".');
+  oneOf("--format", opts.format, ["text", "json"]);
+  if (opts.family !== "poisson") throw new InputError("check always tests the Poisson model; leave out --family.");
+  const testLevel = parseTestLevel(opts.alpha);
+  const { design, control } = await loadDesign(file, opts, opts.model[0]);
+  const check = analyzeCheck(design, { control, testLevel });
+  const content = opts.format === "json" ? renderJson({ schema: check.schema, check }) : renderCheckText(check, textLayout(opts));
+  await emit(opts, content);
+  return check.flagged ? EXIT.flagged : EXIT.ok;
 }
 
 export function buildProgram(onResult: (code: number) => void): Command {
@@ -158,7 +191,16 @@ export function buildProgram(onResult: (code: number) => void): Command {
     .configureOutput({ writeErr: (s) => process.stderr.write(s), writeOut: (s) => process.stdout.write(s) })
     .showHelpAfterError("(run tallyfit --help for the commands and options)");
   addCommonOptions(program.command("fit").description("fit one model and print the report").argument("[file]", "CSV file, or - for standard input"))
-    .action(async (file: string | undefined, opts: CommonOptions) => onResult(await runFit(file, opts)));
+    .option("--alpha <p>", "test level of the dispersion check used by --family auto", "0.05")
+    .action(async (file: string | undefined, opts: CommonOptions & { alpha: string }) => onResult(await runFit(file, opts)));
+  addCommonOptions(
+    program
+      .command("check")
+      .description("dispersion and zero-count diagnostics of the Poisson model; exit code 4 when a test flags")
+      .argument("[file]", "CSV file, or - for standard input"),
+  )
+    .option("--alpha <p>", "test level: a test flags when its p-value is below this", "0.05")
+    .action(async (file: string | undefined, opts: CommonOptions & { alpha: string }) => onResult(await runCheck(file, opts)));
   return program;
 }
 

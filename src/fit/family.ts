@@ -34,10 +34,10 @@ export function logDensity(y: number, mu: number, alpha: number): number {
   return lg - lgamma(y + 1) - r * Math.log1p(alpha * mu) + y * (Math.log(alpha * mu) - Math.log1p(alpha * mu));
 }
 
-/** log Γ(y + r) − log Γ(r), exact for small whole y and stable when r is huge. */
+/** log Γ(y + r) − log Γ(r): a direct sum for small whole y, or when r is so large that the lgamma difference would cancel. */
 export function lgammaRatio(y: number, r: number): number {
   if (y === 0) return 0;
-  if (y <= 64) {
+  if (y <= 16 || (y <= 256 && r > 1e5)) {
     let s = 0;
     for (let k = 0; k < y; k++) s += Math.log(r + k);
     return s;

@@ -46,6 +46,9 @@ export interface GlmFit {
   /** Rows whose fitted mean is 0 because they belong to a no-events column. */
   rowsAtZero: number;
   warnings: string[];
+  /** The screening and conditioning used; covarianceScaled is in its coordinates. */
+  setup: FitSetup;
+  covarianceScaled: SymMatrix;
 }
 
 export interface FitOptions {
@@ -173,7 +176,7 @@ export function prepareFit(m: ModelMatrix, data: FitData, fixed?: Map<number, nu
   return { status, inFit, active, order, center, scale, rowsAtZero };
 }
 
-interface Layout {
+export interface Layout {
   inFit: Uint8Array;
   active: Int32Array;
   q: number;
@@ -248,7 +251,7 @@ function totalDeviance(y: Float64Array, mu: Float64Array, pw: Float64Array | nul
 }
 
 /** Map scaled-coordinate coefficients of the active columns to the original scale (β = T β'). */
-function transformMatrix(m: ModelMatrix, setup: FitSetup): Float64Array {
+export function transformMatrix(m: ModelMatrix, setup: FitSetup): Float64Array {
   const q = setup.order.length;
   const t = new Float64Array(q * q);
   const ic = m.interceptCol >= 0 ? setup.active[m.interceptCol] : -1;
@@ -387,7 +390,7 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
     );
   return {
     beta, status: setup.status, estimable: order, covariance, mu, eta, deviance: dev, iterations: iter, converged, alpha,
-    rowsAtZero: setup.rowsAtZero, warnings,
+    rowsAtZero: setup.rowsAtZero, warnings, setup, covarianceScaled: covS,
   };
 }
 
@@ -403,4 +406,30 @@ export function linearPredictorFrom(m: ModelMatrix, beta: Float64Array, offset: 
       eta[i] += b === -Infinity ? -Infinity : b * (s.values === null ? 1 : s.values[i]);
     }
   return eta;
+}
+
+/** x_iᵀ C x_i for every row, with C over the active columns in the fit's scaled coordinates. */
+export function rowQuadraticForms(m: ModelMatrix, setup: FitSetup, c: SymMatrix): Float64Array {
+  const out = new Float64Array(m.n);
+  const ns = m.slots.length;
+  const idx = new Int32Array(ns);
+  const val = new Float64Array(ns);
+  const q = c.p;
+  for (let i = 0; i < m.n; i++) {
+    if (!setup.inFit[i]) continue;
+    let k = 0;
+    for (const slot of m.slots) {
+      const col = slot.cols === null ? slot.colStart : slot.cols[i];
+      if (col < 0) continue;
+      const pos = setup.active[col];
+      if (pos < 0) continue;
+      idx[k] = pos;
+      val[k] = slot.values === null ? 1 : (slot.values[i] - setup.center[col]) / setup.scale[col];
+      k++;
+    }
+    let s = 0;
+    for (let u = 0; u < k; u++) for (let v = 0; v < k; v++) s += val[u] * val[v] * c.data[idx[u] * q + idx[v]];
+    out[i] = s;
+  }
+  return out;
 }

@@ -1,51 +1,111 @@
-// Fitting stage entry point: chooses the family and returns the fit with the
-// figures that need a second fit (the null deviance), and the constrained
-// fits that profile likelihoods need.
-import type { Design } from "../design/design.js";
+// Fitting stage entry point: fits the requested family and the figures that
+// need a second fit (the null deviance, the Poisson fit beneath a negative
+// binomial), and the constrained fits that profile likelihoods need.
+import type { Design, ModelMatrix } from "../design/design.js";
 import { FitError } from "../errors.js";
-import type { FamilyName } from "../infer/summary.js";
-import { poissonNullDeviance } from "../infer/summary.js";
+import { unitDeviance } from "./family.js";
 import { fitGlm, linearPredictorFrom, prepareFit, type FitControl, type FitSetup, type GlmFit } from "./irls.js";
+import { fitNegbin, negbinLogLik } from "./negbin.js";
 
-export type FamilyChoice = "poisson" | "quasipoisson" | "negbin" | "auto";
+export type FamilyName = "poisson" | "negbin" | "quasipoisson";
+export type FamilyChoice = FamilyName | "auto";
+
+export interface NegbinPart {
+  alpha: number;
+  alphaStdError: number | null;
+  boundary: boolean;
+  logLik: number;
+  poissonLogLik: number;
+  poissonFit: GlmFit;
+  outerIterations: number;
+}
 
 export interface ModelFit {
   family: FamilyName;
   fit: GlmFit;
   nullDeviance: number;
   control: FitControl;
+  negbin: NegbinPart | null;
 }
 
 export interface FitModelOptions {
-  family: FamilyChoice;
+  family: FamilyName;
   control?: Partial<FitControl>;
+}
+
+const DEFAULTS: FitControl = { maxIter: 50, tolerance: 1e-10 };
+
+/** Null deviance: the intercept-only model with the same offset, weights and alpha. */
+export function nullDeviance(design: Design, alpha: number, control: FitControl): number {
+  const { y, offset, weights } = design;
+  if (design.matrix.interceptCol < 0) {
+    let d = 0;
+    for (let i = 0; i < y.length; i++) d += (weights ? weights[i] : 1) * unitDeviance(y[i], Math.exp(offset[i]), alpha);
+    return d;
+  }
+  if (alpha === 0) {
+    // Poisson closed form: exp(b0) = Σwy / Σw·exp(offset).
+    let sy = 0, se = 0;
+    for (let i = 0; i < y.length; i++) { const w = weights ? weights[i] : 1; sy += w * y[i]; se += w * Math.exp(offset[i]); }
+    let d = 0;
+    for (let i = 0; i < y.length; i++) d += (weights ? weights[i] : 1) * unitDeviance(y[i], (Math.exp(offset[i]) * sy) / se, 0);
+    return d;
+  }
+  const m: ModelMatrix = { n: design.n, p: 1, slots: [{ term: -1, colStart: 0, colCount: 1, cols: null, values: null }], interceptCol: 0 };
+  return fitGlm(m, design, { alpha, control }).deviance;
+}
+
+function requireConverged(f: GlmFit): void {
+  if (!f.converged)
+    throw new FitError(`IRLS did not converge in ${f.iterations} iterations (deviance ${f.deviance}); raise --max-iter or --tolerance, or simplify the model.`);
 }
 
 /** Fit the model; a fit that does not meet the convergence rule is a FitError (exit 3). */
 export function fitModel(design: Design, options: FitModelOptions): ModelFit {
-  if (options.family === "negbin" || options.family === "auto") throw new FitError(`family '${options.family}' is not available in this build.`);
-  const control = { maxIter: 50, tolerance: 1e-10, ...options.control };
+  const control = { ...DEFAULTS, ...options.control };
+  if (options.family === "negbin") {
+    const nb = fitNegbin(design.matrix, design, { control });
+    requireConverged(nb.fit);
+    return {
+      family: "negbin",
+      fit: nb.fit,
+      nullDeviance: nullDeviance(design, nb.alpha, control),
+      control,
+      negbin: {
+        alpha: nb.alpha, alphaStdError: nb.alphaStdError, boundary: nb.boundary, logLik: nb.logLik,
+        poissonLogLik: nb.poissonLogLik, poissonFit: nb.poisson, outerIterations: nb.outerIterations,
+      },
+    };
+  }
   const fit = fitGlm(design.matrix, design, { control });
-  if (!fit.converged)
-    throw new FitError(
-      `IRLS did not converge in ${fit.iterations} iterations (deviance ${fit.deviance}); raise --max-iter or --tolerance, or simplify the model.`,
-    );
-  return { family: options.family, fit, nullDeviance: poissonNullDeviance(design), control };
+  requireConverged(fit);
+  return { family: options.family, fit, nullDeviance: nullDeviance(design, 0, control), control, negbin: null };
 }
 
 /**
  * The likelihood-ratio statistic 2(ℓ̂ − ℓ(b)) with coefficient `col` held at b
- * and every other parameter re-maximised (for the Poisson this is the
- * deviance difference D(b) − D̂). Warm-starts each fit from the previous one.
+ * and every other parameter re-maximised, alpha included for the negative
+ * binomial (for the Poisson this is the deviance difference D(b) − D̂).
+ * Warm-starts each fit from the previous one.
  */
 export function constrainedStatistic(design: Design, mf: ModelFit, col: number): (b: number) => number {
   let setup: FitSetup | null = null;
   let start: Float64Array = new Float64Array(mf.fit.beta);
   const control = { maxIter: 100, tolerance: Math.min(mf.control.tolerance, 1e-12) };
+  if (mf.family === "negbin" && mf.negbin && !mf.negbin.boundary) {
+    const llHat = mf.negbin.logLik;
+    let alpha = mf.negbin.alpha;
+    return (b: number) => {
+      const fixed = new Map([[col, b]]);
+      const nb = fitNegbin(design.matrix, design, { control, fixed, start, startAlpha: alpha });
+      if (nb.fit.warnings.length === 0) { start = nb.fit.beta; if (nb.alpha > 0) alpha = nb.alpha; }
+      return Math.max(0, 2 * (llHat - nb.logLik));
+    };
+  }
   return (b: number) => {
     const fixed = new Map([[col, b]]);
     if (setup === null) setup = prepareFit(design.matrix, design, fixed);
-    const f = fitGlm(design.matrix, design, { fixed, setup, start, control, alpha: mf.fit.alpha });
+    const f = fitGlm(design.matrix, design, { fixed, setup, start, control, alpha: 0 });
     if (f.warnings.length === 0) start = f.beta;
     return Math.max(0, f.deviance - mf.fit.deviance);
   };
@@ -63,3 +123,5 @@ export function noEventsGuess(design: Design, mf: ModelFit, col: number, crit: n
   }
   return e > 0 && Number.isFinite(e) ? Math.log(crit / (2 * e)) : 0;
 }
+
+export { negbinLogLik };

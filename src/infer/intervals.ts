@@ -1,17 +1,22 @@
 // Profile-likelihood limits for every coefficient of a fitted model.
 import type { Design } from "../design/design.js";
 import { constrainedStatistic, noEventsGuess, type ModelFit } from "../fit/model.js";
-import { chiSquareQuantile, normalQuantile } from "./distributions.js";
+import { chiSquareQuantile, normalQuantile, studentQuantile } from "./distributions.js";
+import { fitStatistics, quasiPhi } from "./summary.js";
 import { profileLimits, profileUpperFromMinusInfinity, type ProfileResult } from "./profile.js";
 
 /**
  * Profile limits on the log scale for each design column that was estimated
  * or has no events. For quasi-Poisson the statistic is the deviance
- * difference divided by phi, referred to chi-square(1).
+ * difference divided by phi, referred to F(1, df) (= t² on df).
  */
-export function profileAll(design: Design, mf: ModelFit, level: number, phi = 1): Map<number, ProfileResult> {
-  const crit = chiSquareQuantile(level, 1);
-  const zq = normalQuantile(1 - (1 - level) / 2);
+export function profileAll(design: Design, mf: ModelFit, level: number): Map<number, ProfileResult> {
+  const quasi = mf.family === "quasipoisson";
+  const phi = quasi ? quasiPhi(design, mf.fit) : 1;
+  const df = fitStatistics(design, mf.fit).df;
+  const tq = quasi && df > 0 ? studentQuantile(1 - (1 - level) / 2, df) : NaN;
+  const crit = quasi && df > 0 ? tq * tq : chiSquareQuantile(level, 1);
+  const zq = quasi && df > 0 ? tq : normalQuantile(1 - (1 - level) / 2);
   const out = new Map<number, ProfileResult>();
   const q = mf.fit.covariance.p;
   mf.fit.status.forEach((st, c) => {

@@ -1,19 +1,22 @@
 // Inference stage: a fitted model → the figures users publish and check.
 // Standard errors are the square roots of the diagonal of the inverse
-// expected (Fisher) information (see GlmFit.covariance), times sqrt(phi)
-// for quasi-Poisson.
+// expected (Fisher) information X'WX at the estimate (GlmFit.covariance),
+// times sqrt(phi) for quasi-Poisson, or the sandwich estimate with --robust.
 import type { Design } from "../design/design.js";
 import type { GlmFit } from "../fit/irls.js";
+import type { FamilyName, ModelFit } from "../fit/model.js";
 import { logDensity, variance } from "../fit/family.js";
-import { chiSquareUpperTail, normalQuantile, normalTwoSidedP } from "./distributions.js";
+import { chiSquareUpperTail, normalQuantile, normalTwoSidedP, studentQuantile, studentTwoSidedP } from "./distributions.js";
 import type { ProfileResult } from "./profile.js";
+import { sandwichCovariance } from "./robust.js";
 
-export type FamilyName = "poisson" | "negbin" | "quasipoisson";
+export type { FamilyName } from "../fit/model.js";
 
 export interface CoefficientRow {
   term: string;
   estimate: number | null;
   std_error: number | null;
+  /** Wald statistic (z, or t for quasi-Poisson). */
   z: number | null;
   p_value: number | null;
   rate_ratio: number | null;
@@ -29,9 +32,24 @@ export interface CoefficientRow {
   term_group: string;
 }
 
+export interface NegbinSummary {
+  alpha: number;
+  alpha_std_error: number | null;
+  /** Wald interval on log alpha, back-transformed. */
+  alpha_ci: [number, number] | null;
+  alpha_ci_method: "wald-log";
+  theta: number | null;
+  lr_stat: number;
+  lr_p_value: number;
+  boundary: boolean;
+  poisson_log_likelihood: number;
+  poisson_aic: number;
+}
+
 export interface FitSummary {
   schema: "tallyfit.fit/1";
   family: FamilyName;
+  family_choice: { requested: string; used: FamilyName; reason: string } | null;
   link: "log";
   level: number;
   source: string;
@@ -59,40 +77,20 @@ export interface FitSummary {
   references: { factor: string; level: string }[];
   baseline: { rate: number; wald: [number, number]; per: string | null } | null;
   coefficients: CoefficientRow[];
-  test_distribution: "normal";
+  negbin?: NegbinSummary;
+  test_distribution: "normal" | "t";
   standard_errors: "model" | "robust";
+  profile_reference: string | null;
   warnings: string[];
   notices: string[];
 }
 
 export interface SummaryOptions {
   level: number;
-  family: FamilyName;
-  /** Null deviance of the intercept-only model with the same offset and alpha. */
-  nullDeviance: number;
   /** Profile limits on the log scale by design column, when computed. */
   profiles?: Map<number, ProfileResult>;
-}
-
-/** Null deviance for the Poisson: the intercept-only MLE has the closed form exp(b0) = Σwy / Σw·exp(offset). */
-export function poissonNullDeviance(design: Design): number {
-  const { y, offset, weights } = design;
-  let sy = 0, se = 0;
-  for (let i = 0; i < y.length; i++) {
-    const w = weights ? weights[i] : 1;
-    sy += w * y[i];
-    se += w * Math.exp(offset[i]);
-  }
-  const hasIntercept = design.matrix.interceptCol >= 0;
-  const scale = hasIntercept ? sy / se : 1;
-  let d = 0;
-  for (let i = 0; i < y.length; i++) {
-    const mu = Math.exp(offset[i]) * scale;
-    const w = weights ? weights[i] : 1;
-    const yi = y[i];
-    d += w * 2 * ((yi > 0 ? yi * Math.log(yi / mu) : 0) - (yi - mu));
-  }
-  return d;
+  robust?: boolean;
+  familyChoice?: { requested: string; reason: string };
 }
 
 /** Goodness-of-fit figures that do not depend on how the standard errors are made. */
@@ -110,60 +108,85 @@ export function fitStatistics(design: Design, fit: GlmFit) {
   for (const s of fit.status) if (s === "estimated" || s === "no_events") k++;
   const nPar = k + (fit.alpha > 0 ? 1 : 0);
   const df = nEff - k;
-  return {
-    pearson, logLik: ll, nEff, nCoef: k, nPar, df,
-    aic: -2 * ll + 2 * nPar,
-    bic: -2 * ll + Math.log(nEff) * nPar,
-  };
+  return { pearson, logLik: ll, nEff, nCoef: k, nPar, df, aic: -2 * ll + 2 * nPar, bic: -2 * ll + Math.log(nEff) * nPar };
+}
+
+/** Quasi-Poisson dispersion phi = Pearson chi-square / residual df (McCullagh and Nelder 1989, §4.5.2). */
+export function quasiPhi(design: Design, fit: GlmFit): number {
+  const st = fitStatistics(design, fit);
+  return st.df > 0 ? st.pearson / st.df : NaN;
+}
+
+/** Likelihood-ratio test of alpha = 0 on the boundary: p = ½·P(χ²₁ ≥ LR) (Self and Liang 1987). */
+export function boundaryLrTest(llNegbin: number, llPoisson: number): { stat: number; p: number } {
+  const stat = Math.max(0, 2 * (llNegbin - llPoisson));
+  return { stat, p: stat > 0 ? 0.5 * chiSquareUpperTail(stat, 1) : 1 };
 }
 
 /** Build the report record for a fitted model. */
-export function summarizeFit(design: Design, fit: GlmFit, options: SummaryOptions): FitSummary {
+export function summarizeFit(design: Design, mf: ModelFit, options: SummaryOptions): FitSummary {
+  const fit = mf.fit;
   const stats = fitStatistics(design, fit);
   const df = stats.df;
   const pearsonRatio = df > 0 ? stats.pearson / df : NaN;
   const devRatio = df > 0 ? fit.deviance / df : NaN;
-  const phi = options.family === "quasipoisson" ? pearsonRatio : 1;
-  const zq = normalQuantile(1 - (1 - options.level) / 2);
+  const quasi = mf.family === "quasipoisson";
+  const phi = quasi ? pearsonRatio : 1;
+  const useT = quasi && df > 0;
+  const crit = useT ? studentQuantile(1 - (1 - options.level) / 2, df) : normalQuantile(1 - (1 - options.level) / 2);
+  const pOf = (z: number) => (useT ? studentTwoSidedP(z, df) : normalTwoSidedP(z));
+  const cov = options.robust ? sandwichCovariance(design, fit) : fit.covariance;
+  const seScale = options.robust ? 1 : phi;
   const posOf = new Map(fit.estimable.map((c, k) => [c, k]));
-  const q = fit.covariance.p;
+  const q = cov.p;
   const refs = new Map(design.factors.map((f) => [f.name, f.reference]));
   const coefficients: CoefficientRow[] = design.columns.map((col, c) => {
     const st = fit.status[c];
     const levels = col.levels.map((l) => ({ factor: l.factor, level: l.level, reference: refs.get(l.factor) ?? "" }));
-    const base = {
-      term: col.name, levels, kind: col.kind,
-      term_group: col.term < 0 ? "intercept" : design.termLabels[col.term],
-      profile: profileRow(options.profiles?.get(c)),
-    };
+    const base = { term: col.name, levels, kind: col.kind, term_group: col.term < 0 ? "intercept" : design.termLabels[col.term], profile: profileRow(options.profiles?.get(c)) };
     if (st === "aliased" || st === "fixed")
-      return { ...base, estimate: null, std_error: null, z: null, p_value: null, rate_ratio: null, wald: null, aliased: true, status: "aliased" as const };
+      return { ...base, profile: null, estimate: null, std_error: null, z: null, p_value: null, rate_ratio: null, wald: null, aliased: true, status: "aliased" as const };
     if (st === "no_events")
       return { ...base, estimate: null, std_error: null, z: null, p_value: null, rate_ratio: 0, wald: [0, null] as [number, null], aliased: false, status: "no_events" as const };
     const k = posOf.get(c)!;
     const b = fit.beta[c];
-    const se = Math.sqrt(fit.covariance.data[k * q + k] * phi);
+    const se = Math.sqrt(cov.data[k * q + k] * seScale);
     const zval = b / se;
     return {
-      ...base, estimate: b, std_error: se, z: zval, p_value: normalTwoSidedP(zval), rate_ratio: Math.exp(b),
-      wald: [Math.exp(b - zq * se), Math.exp(b + zq * se)] as [number, number], aliased: false, status: "estimated" as const,
+      ...base, estimate: b, std_error: se, z: zval, p_value: pOf(zval), rate_ratio: Math.exp(b),
+      wald: [Math.exp(b - crit * se), Math.exp(b + crit * se)] as [number, number], aliased: false, status: "estimated" as const,
     };
   });
 
   const warnings: string[] = [...fit.warnings];
+  for (const row of coefficients) {
+    if (row.status === "aliased") warnings.push(`${row.term} is aliased (a linear combination of earlier columns) and was left out of the fit; no estimate is shown for it`);
+    if (row.status === "no_events")
+      warnings.push(`${row.term}: every row of this level has a zero count, so its rate ratio has no finite estimate (it is 0); its lower limit is 0 and no Wald interval exists`);
+  }
   if (options.profiles)
     for (const [c, pr] of options.profiles)
       for (const [side, r] of [["lower", pr.lower], ["upper", pr.upper]] as const)
         if (r.value === null && r.reason && !(fit.status[c] === "no_events" && side === "lower"))
           warnings.push(`${design.columns[c].name}: the ${side} profile limit is ${r.open ? (side === "lower" ? "0 (open)" : "unbounded") : "not available"}: ${r.reason}`);
-  for (const row of coefficients) {
-    if (row.status === "aliased")
-      warnings.push(`${row.term} is aliased (a linear combination of earlier columns) and was left out of the fit; no estimate is shown for it`);
-    if (row.status === "no_events")
-      warnings.push(`${row.term}: every row of this level has a zero count, so its rate ratio has no finite estimate (it is 0); its lower limit is 0 and no Wald interval exists`);
+  if (options.robust && options.profiles) warnings.push("with --robust, the Wald limits use sandwich standard errors; the profile limits remain likelihood-based (model-based)");
+
+  let negbin: NegbinSummary | undefined;
+  if (mf.negbin) {
+    const nb = mf.negbin;
+    const lr = boundaryLrTest(nb.logLik, nb.poissonLogLik);
+    const zq = normalQuantile(1 - (1 - options.level) / 2);
+    const ci: [number, number] | null =
+      nb.alphaStdError !== null && nb.alpha > 0 ? [nb.alpha * Math.exp(-zq * (nb.alphaStdError / nb.alpha)), nb.alpha * Math.exp(zq * (nb.alphaStdError / nb.alpha))] : null;
+    const poisStats = fitStatistics(design, nb.poissonFit);
+    negbin = {
+      alpha: nb.alpha, alpha_std_error: nb.alphaStdError, alpha_ci: ci, alpha_ci_method: "wald-log",
+      theta: nb.alpha > 0 ? 1 / nb.alpha : null, lr_stat: lr.stat, lr_p_value: lr.p, boundary: nb.boundary,
+      poisson_log_likelihood: nb.poissonLogLik, poisson_aic: poisStats.aic,
+    };
+    if (nb.boundary) warnings.push("alpha is estimated at 0: the likelihood is largest with no extra-Poisson variation, so the negative binomial reduces to the Poisson here");
   }
-  if (!fit.converged)
-    warnings.push(`IRLS stopped after ${fit.iterations} iterations without meeting the convergence rule; the estimates may be inaccurate (raise --max-iter)`);
+  if (!fit.converged) warnings.push(`IRLS stopped after ${fit.iterations} iterations without meeting the convergence rule; the estimates may be inaccurate (raise --max-iter)`);
 
   let baseline: FitSummary["baseline"] = null;
   const ic = design.matrix.interceptCol;
@@ -171,9 +194,11 @@ export function summarizeFit(design: Design, fit: GlmFit, options: SummaryOption
     const r = coefficients[ic];
     baseline = { rate: r.rate_ratio!, wald: [r.wald![0]!, r.wald![1]!], per: design.exposureName };
   }
+  const profileRef = !options.profiles ? null : quasi ? `deviance difference / phi against F(1, ${df})` : "likelihood ratio against chi-square(1)";
   return {
     schema: "tallyfit.fit/1",
-    family: options.family,
+    family: mf.family,
+    family_choice: options.familyChoice ? { requested: options.familyChoice.requested, used: mf.family, reason: options.familyChoice.reason } : null,
     link: "log",
     level: options.level,
     source: design.source,
@@ -189,9 +214,9 @@ export function summarizeFit(design: Design, fit: GlmFit, options: SummaryOption
     df_residual: df,
     n_parameters: stats.nPar,
     converged: fit.converged,
-    iterations: fit.iterations,
+    iterations: mf.negbin && !mf.negbin.boundary ? mf.negbin.outerIterations : fit.iterations,
     deviance: fit.deviance,
-    null_deviance: options.nullDeviance,
+    null_deviance: mf.nullDeviance,
     df_null: stats.nEff - (ic >= 0 ? 1 : 0),
     pearson_chi2: stats.pearson,
     log_likelihood: stats.logLik,
@@ -207,8 +232,10 @@ export function summarizeFit(design: Design, fit: GlmFit, options: SummaryOption
     references: design.factors.map((f) => ({ factor: f.name, level: f.reference })),
     baseline,
     coefficients,
-    test_distribution: "normal",
-    standard_errors: "model",
+    ...(negbin ? { negbin } : {}),
+    test_distribution: useT ? "t" : "normal",
+    standard_errors: options.robust ? "robust" : "model",
+    profile_reference: profileRef,
     warnings: [...design.notices, ...warnings],
     notices: design.notices,
   };
@@ -220,10 +247,4 @@ function profileRow(pr: ProfileResult | undefined): [number | null, number | nul
   const lo = pr.lower.value !== null ? Math.exp(pr.lower.value) : pr.lower.open ? 0 : null;
   const hi = pr.upper.value !== null ? Math.exp(pr.upper.value) : null;
   return [lo, hi];
-}
-
-/** Quasi-Poisson dispersion phi = Pearson chi-square / residual df (McCullagh and Nelder 1989, §4.5.2). */
-export function quasiPhi(design: Design, fit: GlmFit): number {
-  const st = fitStatistics(design, fit);
-  return st.df > 0 ? st.pearson / st.df : NaN;
 }

@@ -45,7 +45,8 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
   out.push(st.heading(`${FAMILY_TITLE[s.family]} rate model for ${s.response}, log link${exposureText}`));
   out.push(`  data    ${s.source}: ${fixed(s.n_rows, 0)} rows, ${fixed(s.n_used, 0)} used${droppedText(s)}`);
   out.push(`  model   ${s.model}${s.weights ? `   (frequency weights: ${s.weights})` : ""}`);
-  out.push(`  fit     ${s.converged ? "converged" : st.bad("did NOT converge")} after ${s.iterations} IRLS iteration${s.iterations === 1 ? "" : "s"}`);
+  out.push(`  fit     ${s.converged ? "converged" : st.bad("did NOT converge")} after ${s.iterations} ${s.family === "negbin" && s.negbin && !s.negbin.boundary ? "rounds of IRLS alternating with a Newton step for alpha" : `IRLS iteration${s.iterations === 1 ? "" : "s"}`}`);
+  if (s.family_choice) out.push(...wrap(`family  ${s.family_choice.used} (--family ${s.family_choice.requested}): ${s.family_choice.reason}`, o.width - 2, "          ").map((l) => "  " + l));
   out.push("");
 
   // Rate ratios, grouped by term.
@@ -110,7 +111,8 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
       : s.family === "quasipoisson"
         ? `standard errors from the inverse Fisher information times √φ (φ = ${fixed(s.dispersion.phi_used, 3)})`
         : "standard errors from the inverse Fisher information";
-  out.push(`  ${seText}; z and p against the standard normal`);
+  out.push(`  ${seText}; ${s.test_distribution === "t" ? `t and p against Student's t on ${fixed(s.df_residual, 0)} df` : "z and p against the standard normal"}`);
+  if (s.profile_reference) out.push(`  profile limits: ${s.profile_reference}`);
   out.push("");
 
   out.push(st.heading("Fit"));
@@ -123,8 +125,23 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
     ["BIC", fixed(s.bic, 2), ""],
   ];
   out.push(...table(frows, ["l", "r", "l"]));
+  if (s.family === "negbin") out.push("  (deviance and null deviance are negative-binomial deviances at the fitted alpha)");
   out.push("");
 
+  if (s.negbin) {
+    const nb = s.negbin;
+    out.push(st.heading("Negative-binomial dispersion (variance = mu + alpha·mu²)"));
+    const nrows: string[][] = [
+      ["alpha", sig(nb.alpha), nb.alpha_std_error !== null ? `std. error ${sig(nb.alpha_std_error)}` : "", nb.alpha_ci ? `${lv} ${interval(nb.alpha_ci)} (Wald on log alpha)` : ""],
+      ["theta = 1/alpha", nb.theta === null ? "∞" : sig(nb.theta), "", ""],
+      ["log-likelihood", fixed(s.log_likelihood, 2), `Poisson ${fixed(nb.poisson_log_likelihood, 2)}`, ""],
+      ["AIC", fixed(s.aic, 2), `Poisson ${fixed(nb.poisson_aic, 2)}`, ""],
+      ["LR test of alpha = 0", fixed(nb.lr_stat, 2), pEquals(nb.lr_p_value), "½·chi-square(1) tail, alpha = 0 is on the boundary"],
+    ];
+    out.push(...table(nrows, ["l", "r", "l", "l"]));
+    if (nb.boundary) out.push(...wrap(st.good("alpha is 0 at the maximum: the negative binomial reduces to the Poisson here."), o.width - 2, "  ").map((l) => "  " + l));
+    out.push("");
+  }
   out.push(st.heading("Dispersion"));
   out.push(...dispersionBlock(s, o));
   out.push("");

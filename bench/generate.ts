@@ -1,0 +1,55 @@
+// Seeded benchmark data: three factors (20, 6 and 2 levels), a 0/1 column, a
+// numeric covariate, an exposure and a count, written as CSV. Invented data.
+import { createWriteStream } from "node:fs";
+import { once } from "node:events";
+
+function rng(seed: number): () => number {
+  let a = seed >>> 0;
+  return () => {
+    a = (a + 0x6d2b79f5) >>> 0;
+    let t = a;
+    t = Math.imul(t ^ (t >>> 15), t | 1);
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+}
+
+function poisson(u: () => number, mean: number): number {
+  let k = 0, p = Math.exp(-mean), s = p;
+  const x = u();
+  while (x > s && k < 1000) { k++; p *= mean / k; s += p; }
+  return k;
+}
+
+function gamma(u: () => number, shape: number): number {
+  const d = shape - 1 / 3, c = 1 / Math.sqrt(9 * d);
+  for (;;) {
+    let x: number, v: number;
+    do { x = Math.sqrt(-2 * Math.log(1 - u())) * Math.cos(2 * Math.PI * u()); v = 1 + c * x; } while (v <= 0);
+    v = v * v * v;
+    const w = u();
+    if (w < 1 - 0.0331 * x ** 4 || Math.log(w) < 0.5 * x * x + d * (1 - v + Math.log(v))) return d * v;
+  }
+}
+
+/** Write `rows` rows to `path`; alpha > 0 makes the counts negative binomial. */
+export async function writeBenchFile(path: string, rows: number, seed = 1, alpha = 0.3): Promise<void> {
+  const u = rng(seed);
+  const out = createWriteStream(path);
+  out.write("region,agegrp,sex,insured,score,exposure,visits\n");
+  const reg = Array.from({ length: 20 }, (_, i) => Math.sin(i) * 0.4);
+  const age = [0, 0.2, 0.35, 0.5, 0.7, 0.9];
+  let buf = "";
+  for (let i = 0; i < rows; i++) {
+    const r = Math.floor(u() * 20), a = Math.floor(u() * 6), s = u() < 0.5 ? 1 : 0, ins = u() < 0.7 ? 1 : 0;
+    const score = Math.round(u() * 1000) / 100;
+    const e = Math.round((0.5 + u() * 4) * 100) / 100;
+    const mu = e * Math.exp(-0.5 + reg[r] + age[a] + 0.15 * s - 0.2 * ins + 0.03 * score);
+    const m = alpha > 0 ? mu * alpha * gamma(u, 1 / alpha) : mu;
+    buf += `r${r + 1},a${a + 1},${s ? "f" : "m"},${ins},${score},${e},${poisson(u, m)}\n`;
+    if (buf.length > 1 << 16) { if (!out.write(buf)) await once(out, "drain"); buf = ""; }
+  }
+  out.write(buf);
+  out.end();
+  await once(out, "finish");
+}

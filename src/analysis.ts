@@ -1,0 +1,54 @@
+// Compositions of the stages that the commands run: fit → infer for one
+// model, with the family chosen by the dispersion check for --family auto.
+import type { Design } from "./design/design.js";
+import type { FitControl } from "./fit/irls.js";
+import { fitModel, type FamilyChoice, type ModelFit } from "./fit/model.js";
+import { dispersionFlagged, runChecks, type CheckResult } from "./infer/check.js";
+import { profileAll } from "./infer/intervals.js";
+import { summarizeFit, type FitSummary } from "./infer/summary.js";
+
+export interface AnalysisOptions {
+  family: FamilyChoice;
+  control?: Partial<FitControl>;
+  level: number;
+  intervals: "wald" | "profile" | "both";
+  robust?: boolean;
+  /** Test level of the dispersion check (used by --family auto). */
+  testLevel?: number;
+}
+
+export interface FitAnalysis {
+  modelFit: ModelFit;
+  summary: FitSummary;
+  check: CheckResult | null;
+}
+
+/** Fit one model and summarise it; --family auto fits both and lets the check decide. */
+export function analyzeFit(design: Design, o: AnalysisOptions): FitAnalysis {
+  let mf: ModelFit;
+  let check: CheckResult | null = null;
+  let familyChoice: { requested: string; reason: string } | undefined;
+  if (o.family === "auto") {
+    const pois = fitModel(design, { family: "poisson", control: o.control });
+    const nb = fitModel(design, { family: "negbin", control: o.control });
+    check = runChecks(design, pois, nb, o.testLevel ?? 0.05);
+    const flagged = dispersionFlagged(check);
+    mf = flagged.length > 0 ? nb : pois;
+    familyChoice = {
+      requested: "auto",
+      reason: flagged.length > 0
+        ? `the dispersion check flagged (${flagged.map((t) => t.short).join(", ")}) at ${o.testLevel ?? 0.05}, so the negative binomial is used`
+        : `no dispersion test flagged at ${o.testLevel ?? 0.05}, so the Poisson model is kept`,
+    };
+  } else mf = fitModel(design, { family: o.family, control: o.control });
+  const profiles = o.intervals === "wald" ? undefined : profileAll(design, mf, o.level);
+  const summary = summarizeFit(design, mf, { level: o.level, profiles, robust: o.robust, familyChoice });
+  return { modelFit: mf, summary, check };
+}
+
+/** The dispersion and zero-count check of a model. */
+export function analyzeCheck(design: Design, o: { control?: Partial<FitControl>; testLevel: number }): CheckResult {
+  const pois = fitModel(design, { family: "poisson", control: o.control });
+  const nb = fitModel(design, { family: "negbin", control: o.control });
+  return runChecks(design, pois, nb, o.testLevel);
+}

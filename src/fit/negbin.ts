@@ -1,0 +1,186 @@
+// Maximum likelihood for the NB2 negative binomial with log link: IRLS for
+// the coefficients at fixed alpha inside a one-dimensional search for alpha
+// (Lawless 1987, Canadian Journal of Statistics 15:209–225).
+import type { ModelMatrix } from "../design/design.js";
+import { FitError } from "../errors.js";
+import { digamma, trigamma } from "../infer/distributions.js";
+import { logDensity } from "./family.js";
+import { fitGlm, prepareFit, type FitControl, type FitData, type GlmFit } from "./irls.js";
+
+export interface NegbinFit {
+  fit: GlmFit;
+  alpha: number;
+  /** Standard error of alpha from its observed information −∂²ℓ/∂α² (null at the boundary). */
+  alphaStdError: number | null;
+  logLik: number;
+  /** True when the likelihood is largest at alpha = 0: the model reduces to the Poisson. */
+  boundary: boolean;
+  outerIterations: number;
+  /** The Poisson fit it started from, with its log-likelihood. */
+  poisson: GlmFit;
+  poissonLogLik: number;
+}
+
+/** Σ_{j<y} 1/(r+j) and Σ_{j<y} 1/(r+j)², directly for small y, else by digamma/trigamma differences. */
+function harmonic(y: number, r: number): [number, number] {
+  if (y <= 16 || (y <= 256 && r > 1e5)) {
+    let d = 0, e = 0;
+    for (let j = 0; j < y; j++) { const t = 1 / (r + j); d += t; e += t * t; }
+    return [d, e];
+  }
+  return [digamma(y + r) - digamma(r), trigamma(r) - trigamma(y + r)];
+}
+
+/** NB2 log-likelihood at the given means (rows with mu = 0 and y = 0 contribute 0). */
+export function negbinLogLik(y: Float64Array, mu: Float64Array, pw: Float64Array | null, alpha: number): number {
+  let ll = 0;
+  for (let i = 0; i < y.length; i++) if (mu[i] > 0) ll += (pw ? pw[i] : 1) * logDensity(y[i], mu[i], alpha);
+  return ll;
+}
+
+/** Score g = ∂ℓ/∂α and its derivative h = ∂²ℓ/∂α² at fixed means (Cameron and Trivedi 2013, §3.3). */
+export function alphaDerivatives(y: Float64Array, mu: Float64Array, pw: Float64Array | null, alpha: number): { g: number; h: number } {
+  const r = 1 / alpha;
+  let g = 0, h = 0;
+  for (let i = 0; i < y.length; i++) {
+    const m = mu[i];
+    if (!(m > 0)) continue;
+    const w = pw ? pw[i] : 1;
+    const yi = y[i];
+    const [d, e] = harmonic(yi, r);
+    const l = Math.log1p(alpha * m);
+    const q = 1 + alpha * m;
+    g += w * ((l - d) / (alpha * alpha) + (yi - m) / (alpha * q));
+    h += w * (-2 * (l - d) / alpha ** 3 + (m / q - e / (alpha * alpha)) / (alpha * alpha) - ((yi - m) * (1 + 2 * alpha * m)) / (alpha * alpha * q * q));
+  }
+  return { g, h };
+}
+
+/** ∂ℓ/∂α at alpha → 0⁺ with the means fixed: ½ Σ w[(y − mu)² − y]. */
+export function scoreAtZero(y: Float64Array, mu: Float64Array, pw: Float64Array | null): number {
+  let s = 0;
+  for (let i = 0; i < y.length; i++) if (mu[i] > 0) s += (pw ? pw[i] : 1) * ((y[i] - mu[i]) ** 2 - y[i]);
+  return 0.5 * s;
+}
+
+/** Below this alpha the model is treated as the Poisson (the profile is flat to ~1e-6 in log-likelihood there). */
+const ALPHA_MIN = 1e-6;
+const ALPHA_CEILING = 1e8;
+
+/** Maximise ℓ(alpha) at fixed means: Newton on θ = log alpha with step-halving; returns 0 at the boundary. */
+export function maximizeAlpha(y: Float64Array, mu: Float64Array, pw: Float64Array | null, alpha0: number): number {
+  if (scoreAtZero(y, mu, pw) <= 0) return 0;
+  let theta = Math.log(Math.min(Math.max(alpha0, 1e-4), 1e4));
+  let ll = negbinLogLik(y, mu, pw, Math.exp(theta));
+  for (let it = 0; it < 200; it++) {
+    const a = Math.exp(theta);
+    const { g, h } = alphaDerivatives(y, mu, pw, a);
+    const d1 = a * g; // dℓ/dθ
+    const d2 = a * a * h + a * g; // d²ℓ/dθ²
+    let step = d2 < 0 ? -d1 / d2 : Math.sign(d1) * 1;
+    step = Math.max(-5, Math.min(5, step));
+    let next = theta + step, llNext = negbinLogLik(y, mu, pw, Math.exp(next));
+    let k = 0;
+    while (!(llNext >= ll - 1e-12 * Math.abs(ll)) && k < 50) { step /= 2; next = theta + step; llNext = negbinLogLik(y, mu, pw, Math.exp(next)); k++; }
+    theta = next;
+    ll = llNext;
+    if (Math.exp(theta) < ALPHA_MIN) return 0;
+    if (Math.exp(theta) > ALPHA_CEILING)
+      throw new FitError(`the negative-binomial alpha grows without bound (above ${ALPHA_CEILING}); the counts are too dispersed for this model, or the model misses a major term.`);
+    if (Math.abs(step) < 1e-12) break;
+  }
+  return Math.exp(theta);
+}
+
+export interface NegbinOptions {
+  control: FitControl;
+  fixed?: Map<number, number>;
+  start?: Float64Array | null;
+  startAlpha?: number;
+}
+
+/**
+ * Fit the NB2 model. alpha maximises the profile log-likelihood
+ * ℓp(alpha) = max_beta ℓ(beta, alpha), each evaluation an IRLS fit warm-started
+ * from the last; by the envelope theorem dℓp/dalpha is the alpha score at
+ * betâ(alpha). The root of that score in θ = log alpha is found by Newton
+ * steps (curvature from ∂²ℓ/∂alpha², exact in expectation because the
+ * information is block-diagonal; Lawless 1987) safeguarded by bisection
+ * inside a bracket (the "rtsafe" scheme of Press et al., Numerical Recipes,
+ * 3rd ed., §9.4).
+ */
+export function fitNegbin(m: ModelMatrix, data: FitData, o: NegbinOptions): NegbinFit {
+  const setup = prepareFit(m, data, o.fixed);
+  const pois = fitGlm(m, data, { control: o.control, fixed: o.fixed, start: o.start, setup, alpha: 0 });
+  const pw = data.weights;
+  const poisLL = negbinLogLik(data.y, pois.mu, pw, 0);
+  const atBoundary = (evals: number): NegbinFit => ({ fit: pois, alpha: 0, alphaStdError: null, logLik: poisLL, boundary: true, outerIterations: evals, poisson: pois, poissonLogLik: poisLL });
+  if (scoreAtZero(data.y, pois.mu, pw) <= 0) return atBoundary(0);
+
+  let beta = pois.beta;
+  let last: GlmFit = pois;
+  let evals = 0;
+  // Profile score in θ = log alpha and its approximate derivative.
+  const score = (theta: number): { f: number; df: number; fit: GlmFit } => {
+    const a = Math.exp(theta);
+    const fit = fitGlm(m, data, { control: o.control, fixed: o.fixed, start: beta, setup, alpha: a });
+    evals++;
+    if (fit.converged) beta = fit.beta;
+    last = fit;
+    const { g, h } = alphaDerivatives(data.y, fit.mu, pw, a);
+    return { f: a * g, df: a * g + a * a * h, fit };
+  };
+
+  // Bracket the root: the score is positive below the maximum and negative above it.
+  let theta = Math.log(Math.min(Math.max(o.startAlpha && o.startAlpha > 0 ? o.startAlpha : momentAlpha(data.y, pois.mu, pw), 1e-4), 1e2));
+  let cur = score(theta);
+  let lo = -Infinity, hi = Infinity;
+  if (cur.f > 0) lo = theta; else hi = theta;
+  let step = 1;
+  while (!Number.isFinite(lo) || !Number.isFinite(hi)) {
+    // Try a Newton step first; fall back to widening steps.
+    let next = cur.df < 0 ? theta - cur.f / cur.df : theta + (cur.f > 0 ? step : -step);
+    if (cur.f > 0 && !(next > theta)) next = theta + step;
+    if (cur.f <= 0 && !(next < theta)) next = theta - step;
+    next = Math.max(theta - 4, Math.min(theta + 4, next));
+    step *= 2;
+    if (next < Math.log(ALPHA_MIN)) {
+      const edge = score(Math.log(ALPHA_MIN));
+      if (edge.f <= 0) return atBoundary(evals);
+      lo = Math.log(ALPHA_MIN); theta = lo; cur = edge;
+      continue;
+    }
+    if (next > Math.log(ALPHA_CEILING))
+      throw new FitError(`the negative-binomial alpha grows without bound (above ${ALPHA_CEILING}); the counts are too dispersed for this model, or the model misses a major term.`);
+    theta = next;
+    cur = score(theta);
+    if (cur.f > 0) lo = Math.max(lo, theta); else hi = Math.min(hi, theta);
+  }
+  // Newton with bisection safeguard inside [lo, hi].
+  for (let it = 0; it < 200; it++) {
+    let next = cur.df < 0 ? theta - cur.f / cur.df : NaN;
+    if (!(next > lo && next < hi)) next = 0.5 * (lo + hi);
+    const moved = Math.abs(next - theta);
+    theta = next;
+    cur = score(theta);
+    if (cur.f > 0) lo = theta; else hi = theta;
+    if (moved < 1e-10 || hi - lo < 1e-12) break;
+  }
+  const alpha = Math.exp(theta);
+  const fit = last;
+  const { h } = alphaDerivatives(data.y, fit.mu, pw, alpha);
+  const se = h < 0 ? 1 / Math.sqrt(-h) : null;
+  return { fit, alpha, alphaStdError: se, logLik: negbinLogLik(data.y, fit.mu, pw, alpha), boundary: false, outerIterations: evals, poisson: pois, poissonLogLik: poisLL };
+}
+
+/** Moment starting value: Σw[(y − mu)² − y] / Σw·mu², floored. */
+function momentAlpha(y: Float64Array, mu: Float64Array, pw: Float64Array | null): number {
+  let num = 0, den = 0;
+  for (let i = 0; i < y.length; i++) {
+    if (!(mu[i] > 0)) continue;
+    const w = pw ? pw[i] : 1;
+    num += w * ((y[i] - mu[i]) ** 2 - y[i]);
+    den += w * mu[i] * mu[i];
+  }
+  return Math.max(1e-3, num / den);
+}

@@ -1,0 +1,110 @@
+// The NB2 negative binomial, quasi-Poisson and sandwich errors, against outside references.
+import { test } from "node:test";
+import assert from "node:assert/strict";
+import { readFileSync } from "node:fs";
+import { join } from "node:path";
+import { FIXTURES, assertRel, fitCsv, rng, simulateRates } from "./helpers.js";
+import { digamma, lgamma, trigamma } from "../src/infer/distributions.js";
+import { lgammaRatio } from "../src/fit/family.js";
+
+const expected = JSON.parse(readFileSync(join(FIXTURES, "scipy", "expected.json"), "utf8"));
+const fixture = (name: string) => readFileSync(join(FIXTURES, "scipy", name), "utf8");
+
+test(`NB2 against scipy.optimize on the NB2 log-likelihood (${expected.source}): estimates 1e-5, alpha 1e-4, log-likelihood 1e-6, SEs 1e-4`, () => {
+  const ref = expected.negbin_wards;
+  const { summary, coef } = fitCsv(fixture(ref.data), ref.model, { exposure: ref.exposure, family: "negbin" });
+  assert.equal(summary.family, "negbin");
+  for (const [term, r] of Object.entries(ref.coefficients) as [string, { estimate: number; std_error: number }][]) {
+    assertRel(coef(term).estimate!, r.estimate, 1e-5, `${term} estimate`);
+    assertRel(coef(term).std_error!, r.std_error, 1e-4, `${term} std_error (expected information X'WX)`);
+  }
+  assertRel(summary.negbin!.alpha, ref.alpha, 1e-4, "alpha");
+  assertRel(summary.negbin!.alpha_std_error!, ref.alpha_std_error, 1e-4, "alpha std_error (observed information)");
+  assertRel(summary.log_likelihood, ref.log_likelihood, 1e-6, "log-likelihood");
+  assertRel(summary.negbin!.poisson_log_likelihood, ref.poisson_log_likelihood, 1e-8, "Poisson log-likelihood");
+  assertRel(summary.negbin!.theta!, 1 / ref.alpha, 1e-4, "theta = 1/alpha");
+  const ci = summary.negbin!.alpha_ci!;
+  assert.ok(ci[0] < summary.negbin!.alpha && summary.negbin!.alpha < ci[1]);
+  // Boundary-corrected LR test of alpha = 0 (Self and Liang 1987).
+  assert.ok(summary.negbin!.lr_stat > 10 && summary.negbin!.lr_p_value < 1e-3);
+});
+
+test("closed form: intercept-only NB2 fits the sample mean exactly; alpha solves its score equation (scipy brentq + digamma)", () => {
+  const ref = expected.negbin_intercept;
+  assert.ok(Math.abs(ref.score_at_alpha) < 1e-8);
+  const { summary } = fitCsv(fixture(ref.data), "y ~ 1", { family: "negbin" });
+  assertRel(summary.baseline!.rate, ref.mean, 1e-12, "fitted mean = sample mean");
+  assertRel(summary.negbin!.alpha, ref.alpha, 1e-8, "alpha");
+});
+
+test("boundary: Poisson-generated data give alpha ≈ 0 cleanly, LR ≈ 0, p ≥ 0.5", () => {
+  const u = rng(4242);
+  let zeros = 0;
+  for (let k = 0; k < 20; k++) {
+    const { summary } = fitCsv(simulateRates(u, 120, 0), "y ~ g + x", { exposure: "e", family: "negbin" });
+    const nb = summary.negbin!;
+    assert.ok(nb.alpha < 0.05, `alpha ${nb.alpha}`);
+    if (nb.boundary) {
+      zeros++;
+      assert.equal(nb.alpha, 0);
+      assert.equal(nb.lr_stat, 0);
+      assert.ok(summary.warnings.some((w) => w.includes("reduces to the Poisson")));
+    }
+    if (nb.lr_stat < 1e-6) assert.ok(nb.lr_p_value >= 0.5);
+  }
+  assert.ok(zeros >= 5, `about half of Poisson data sets put alpha on the boundary (${zeros}/20)`);
+});
+
+test("very large alpha converges or fails clearly", () => {
+  const u = rng(5);
+  const { summary } = fitCsv(simulateRates(u, 300, 8), "y ~ g + x", { exposure: "e", family: "negbin" });
+  assert.ok(summary.converged);
+  assert.ok(summary.negbin!.alpha > 3 && summary.negbin!.alpha < 20, `alpha ${summary.negbin!.alpha}`);
+});
+
+test("fact of the trade (common practice, no source): quasi-Poisson SEs are the Poisson ones times √φ exactly, φ = X²/df", () => {
+  const csv = simulateRates(rng(8), 400, 0.4);
+  const p = fitCsv(csv, "y ~ g + x", { exposure: "e" }).summary;
+  const q = fitCsv(csv, "y ~ g + x", { exposure: "e", family: "quasipoisson" }).summary;
+  const phi = p.pearson_chi2 / p.df_residual;
+  assert.ok(phi > 1.5, "overdispersed data have a Pearson ratio well above 1");
+  assertRel(q.dispersion.phi_used, phi, 1e-14, "phi");
+  p.coefficients.forEach((c, k) => {
+    assertRel(q.coefficients[k].estimate!, c.estimate!, 1e-14, `${c.term} estimate unchanged`);
+    assertRel(q.coefficients[k].std_error!, c.std_error! * Math.sqrt(phi), 1e-12, `${c.term} se × √φ`);
+  });
+  assert.equal(q.test_distribution, "t");
+});
+
+test("fact of the trade (common practice, no source): for Poisson data the Pearson ratio is near 1", () => {
+  const s = fitCsv(simulateRates(rng(9), 2000, 0), "y ~ g + x", { exposure: "e" }).summary;
+  assert.ok(Math.abs(s.dispersion.pearson - 1) < 0.1, `ratio ${s.dispersion.pearson}`);
+});
+
+test(`sandwich: HC0 matches a direct matrix computation (${expected.source}) to 1e-6`, () => {
+  const ref = expected.sandwich_hc0;
+  const { coef } = fitCsv(fixture(ref.data), ref.model, { exposure: ref.exposure, robust: true });
+  for (const [term, se] of Object.entries(ref.robust_std_error) as [string, number][]) assertRel(coef(term).std_error!, se, 1e-6, term);
+});
+
+test("sandwich: for a correctly specified Poisson model on large data, robust and model SEs agree within a few percent", () => {
+  const csv = simulateRates(rng(10), 20000, 0);
+  const m = fitCsv(csv, "y ~ g + x", { exposure: "e" }).summary;
+  const r = fitCsv(csv, "y ~ g + x", { exposure: "e", robust: true }).summary;
+  assert.equal(r.standard_errors, "robust");
+  m.coefficients.forEach((c, k) => {
+    const ratio = r.coefficients[k].std_error! / c.std_error!;
+    assert.ok(Math.abs(ratio - 1) < 0.05, `${c.term}: ratio ${ratio}`);
+  });
+});
+
+test(`special functions from @stdlib agree with scipy.special (${expected.source}) to 1e-13`, () => {
+  const sp = expected.special;
+  sp.x.forEach((x: number, i: number) => {
+    assertRel(lgamma(x), sp.gammaln[i], 1e-13, `gammaln(${x})`);
+    assertRel(digamma(x), sp.digamma[i], 1e-13, `digamma(${x})`);
+    assertRel(trigamma(x), sp.trigamma[i], 1e-12, `trigamma(${x})`);
+  });
+  // Our exact small-y form of log Γ(y + r) − log Γ(r) agrees with the lgamma difference.
+  for (const [y, r] of [[3, 0.7], [40, 12.5], [64, 1e3]]) assertRel(lgammaRatio(y, r), lgamma(y + r) - lgamma(r), 1e-11, `ratio ${y},${r}`);
+});
