@@ -6,6 +6,7 @@ import { fitModel, type FamilyChoice, type ModelFit } from "./fit/model.js";
 import { dispersionFlagged, runChecks, type CheckResult } from "./infer/check.js";
 import { profileAll } from "./infer/intervals.js";
 import { summarizeFit, type FitSummary } from "./infer/summary.js";
+import { termTests } from "./infer/terms.js";
 
 export interface AnalysisOptions {
   family: FamilyChoice;
@@ -15,6 +16,8 @@ export interface AnalysisOptions {
   robust?: boolean;
   /** Test level of the dispersion check (used by --family auto). */
   testLevel?: number;
+  /** Tests for dropping each term (default true). */
+  termTests?: boolean;
 }
 
 export interface FitAnalysis {
@@ -43,6 +46,7 @@ export function analyzeFit(design: Design, o: AnalysisOptions): FitAnalysis {
   } else mf = fitModel(design, { family: o.family, control: o.control });
   const profiles = o.intervals === "wald" ? undefined : profileAll(design, mf, o.level);
   const summary = summarizeFit(design, mf, { level: o.level, profiles, robust: o.robust, familyChoice });
+  if (o.termTests !== false && design.model.terms.length > 0) summary.term_tests = termTests(design, mf);
   return { modelFit: mf, summary, check };
 }
 

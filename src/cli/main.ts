@@ -6,7 +6,9 @@ import { DEFAULT_NA, parseTable, readSource } from "../io/csv.js";
 import { parseModel, termVariables } from "../model/formula.js";
 import { buildDesign } from "../design/design.js";
 import type { Design } from "../design/design.js";
-import type { FamilyChoice } from "../fit/model.js";
+import { fitModel, type FamilyChoice, type FamilyName } from "../fit/model.js";
+import { compareModels } from "../infer/compare.js";
+import { renderCompareText } from "../report/compare-text.js";
 import { analyzeCheck, analyzeFit } from "../analysis.js";
 import { renderFitText } from "../report/fit-text.js";
 import { renderCheckText } from "../report/check-text.js";
@@ -77,11 +79,13 @@ interface CommonOptions {
 }
 
 function addCommonOptions(cmd: Command, multiModel = false): Command {
-  return cmd
-    .option(multiModel ? "--model <spec>" : "--model <spec>", 'response column and terms, as "COUNT ~ a + b + a:b"', collect, [])
+  const withModel = cmd.option("--model <spec>", multiModel ? 'a model "COUNT ~ TERMS" (give two or more)' : 'response column and terms, as "COUNT ~ a + b + a:b"', collect, []);
+  const withFamily = multiModel
+    ? withModel.option("--family <name>", "poisson, negbin or quasipoisson: once for all models, or once per --model in order", collect, [])
+    : withModel.addOption(new Option("--family <name>", "poisson, negbin, quasipoisson or auto").default("poisson"));
+  return withFamily
     .option("--exposure <col>", "exposure column (person-time, open hours, bed-days); its log becomes the offset")
     .option("--offset <col>", "an offset column already on the log scale")
-    .addOption(new Option("--family <name>", "poisson, negbin, quasipoisson or auto").default("poisson"))
     .option("--factor <cols>", "treat these numeric-looking columns as categorical (comma-separated, repeatable)", collect, [])
     .option("--ref <col=level>", "reference level of a factor (repeatable)", collect, [])
     .option("--weights <col>", "frequency weights (a row stands for that many identical rows)")
@@ -109,22 +113,31 @@ interface Loaded {
   control: { maxIter: number; tolerance: number };
 }
 
-/** Read the input and build the design: the load → design stages, shared by the fitting commands. */
-async function loadDesign(file: string | undefined, opts: CommonOptions, modelText: string): Promise<Loaded> {
+/** Read the input and build the designs: the load → design stages, shared by the fitting commands. */
+async function loadDesigns(file: string | undefined, opts: CommonOptions, modelTexts: string[]): Promise<{ designs: Design[]; control: Loaded["control"] }> {
   const control = { maxIter: parsePositiveInt("--max-iter", opts.maxIter), tolerance: parsePositive("--tolerance", opts.tolerance) };
-  const spec = parseModel(modelText, { intercept: opts.intercept });
+  const specs = modelTexts.map((t) => parseModel(t, { intercept: opts.intercept }));
   const refs = parseRefs(opts.ref);
   const factors = opts.factor.flatMap((f) => f.split(",").map((s) => s.trim()).filter(Boolean));
   const path = file ?? "-";
   if (path === "-" && process.stdin.isTTY) throw new InputError("no input: give a CSV file, or pipe one in (a FILE of - reads standard input).");
   const { bytes, name } = await readSource(path);
-  const select = [spec.response, ...termVariables(spec), ...[opts.exposure, opts.offset, opts.weights].filter((x): x is string => !!x), ...Object.keys(refs)];
+  const vars = [...new Set(specs.flatMap((spec) => [spec.response, ...termVariables(spec)]))];
+  const select = [...vars, ...[opts.exposure, opts.offset, opts.weights].filter((x): x is string => !!x), ...Object.keys(refs)];
   const table = parseTable(bytes, { source: name, delimiter: opts.delimiter, na: parseNa(opts.na), factors, select });
   for (const f of factors)
     if (!table.header.includes(f)) throw new InputError(`${name}: --factor column '${f}' is not in the file. The columns are ${table.header.map((h) => `'${h}'`).join(", ")}.`);
-  const design = buildDesign(table, spec, { exposure: opts.exposure, offset: opts.offset, weights: opts.weights, refs });
-  for (const n of design.notices) notice(opts, n);
-  return { design, control };
+  const designs = specs.map((spec) => {
+    const ownRefs = Object.fromEntries(Object.entries(refs).filter(([k]) => termVariables(spec).includes(k) || specs.length === 1));
+    return buildDesign(table, spec, { exposure: opts.exposure, offset: opts.offset, weights: opts.weights, refs: ownRefs, complete: specs.length > 1 ? vars : undefined });
+  });
+  for (const n of designs[0].notices) notice(opts, n);
+  return { designs, control };
+}
+
+async function loadDesign(file: string | undefined, opts: CommonOptions, modelText: string): Promise<Loaded> {
+  const { designs, control } = await loadDesigns(file, opts, [modelText]);
+  return { design: designs[0], control };
 }
 
 function oneOf(name: string, value: string, allowed: string[]): string {
@@ -181,6 +194,21 @@ async function runCheck(file: string | undefined, opts: CommonOptions & { alpha:
   return check.flagged ? EXIT.flagged : EXIT.ok;
 }
 
+async function runCompare(file: string | undefined, opts: Omit<CommonOptions, "family"> & { family: string[] }): Promise<number> {
+  if (opts.model.length < 2) throw new InputError("compare needs two or more --model options.");
+  oneOf("--format", opts.format, ["text", "json"]);
+  const fams = opts.family.length === 0 ? ["poisson"] : opts.family;
+  if (fams.length !== 1 && fams.length !== opts.model.length)
+    throw new InputError(`give --family once (for all models) or once per --model (${opts.model.length} times); got it ${fams.length} times.`);
+  for (const f of fams) oneOf("--family", f, ["poisson", "negbin", "quasipoisson"]);
+  const { designs, control } = await loadDesigns(file, { ...opts, family: "poisson" }, opts.model);
+  const entries = designs.map((design, i) => ({ design, mf: fitModel(design, { family: (fams.length === 1 ? fams[0] : fams[i]) as FamilyName, control }) }));
+  const result = compareModels(entries);
+  const content = opts.format === "json" ? renderJson(result) : renderCompareText(result, textLayout(opts as unknown as CommonOptions));
+  await emit(opts as unknown as CommonOptions, content);
+  return EXIT.ok;
+}
+
 export function buildProgram(onResult: (code: number) => void): Command {
   const program = new Command();
   program
@@ -201,6 +229,13 @@ export function buildProgram(onResult: (code: number) => void): Command {
   )
     .option("--alpha <p>", "test level: a test flags when its p-value is below this", "0.05")
     .action(async (file: string | undefined, opts: CommonOptions & { alpha: string }) => onResult(await runCheck(file, opts)));
+  addCommonOptions(
+    program
+      .command("compare")
+      .description("nested-model tests and information criteria for two or more models on the same rows")
+      .argument("[file]", "CSV file, or - for standard input"),
+    true,
+  ).action(async (file: string | undefined, opts: Omit<CommonOptions, "family"> & { family: string[] }) => onResult(await runCompare(file, opts)));
   return program;
 }
 

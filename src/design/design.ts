@@ -14,6 +14,8 @@ export interface DesignOptions {
   weights?: string;
   /** Reference level per factor. */
   refs?: Record<string, string>;
+  /** Further columns that must be present in a row for it to be used (so several models share rows). */
+  complete?: string[];
 }
 
 export interface FactorCoding {
@@ -145,7 +147,8 @@ export function buildDesign(table: Table, model: ModelSpec, options: DesignOptio
     if (c.kind === "numeric") { for (let i = 0; i < N; i++) if (Number.isNaN(c.values[i])) usable[i] = 0; }
     else for (let i = 0; i < N; i++) if (c.codes[i] < 0) usable[i] = 0;
   };
-  for (const c of [response, ...varCols, exposureCol, offsetCol, weightsCol]) if (c) missingIn(c);
+  const extra = (options.complete ?? []).filter((c) => !vars.includes(c)).map((c) => get(c, "model"));
+  for (const c of [response, ...varCols, exposureCol, offsetCol, weightsCol, ...extra]) if (c) missingIn(c);
   let missing = 0;
   for (let i = 0; i < N; i++) if (!usable[i]) missing++;
 

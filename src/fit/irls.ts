@@ -61,6 +61,14 @@ export interface FitOptions {
   start?: Float64Array | null;
   /** A setup from an earlier call with the same fixed columns, to skip the screening. */
   setup?: FitSetup;
+  /** Skip the information matrix at the end (profile fits need only the deviance). */
+  skipCovariance?: boolean;
+  /**
+   * Also stop when the Newton decrement of the last step is so small that the
+   * next step's change (quadratic convergence: about its square) would fall
+   * below the tolerance. Used for the many constrained fits of a profile.
+   */
+  stopOnPredicted?: boolean;
 }
 
 /** Screening results: which columns are estimated and how columns are conditioned. */
@@ -73,6 +81,15 @@ export interface FitSetup {
   center: Float64Array;
   scale: Float64Array;
   rowsAtZero: number;
+  /** Slots resolved against this setup, built on first use. */
+  compiled?: CompiledSlot[];
+  /** Raw values of fixed columns, built on first use. */
+  fixedValues?: Map<number, Float64Array>;
+}
+
+function compiledOf(m: ModelMatrix, setup: FitSetup): CompiledSlot[] {
+  if (!setup.compiled) setup.compiled = compileSlots(m, { inFit: setup.inFit, active: setup.active, q: setup.order.length, center: setup.center, scale: setup.scale });
+  return setup.compiled;
 }
 
 /** Raw values of design column c in every row (0 where the column is absent). */
@@ -185,62 +202,109 @@ export interface Layout {
 }
 
 /**
- * X'WX and X'Wz over the active columns in scaled coordinates, accumulated row
- * by row from the slots, so a row costs the square of its non-zero columns.
+ * A slot resolved against a layout: the active position of its column in
+ * each row (−1: none, or the row is out of the fit) and its scaled value
+ * (null: 1). Loops over these typed arrays are the hot path of IRLS.
  */
-export function crossProducts(m: ModelMatrix, lay: Layout, w: Float64Array, z: Float64Array | null): { a: SymMatrix; b: Float64Array } {
-  const q = lay.q;
+export interface CompiledSlot {
+  pos: Int32Array;
+  val: Float64Array | null;
+}
+
+export function compileSlots(m: ModelMatrix, lay: Layout): CompiledSlot[] {
+  const n = m.n;
+  return m.slots.map((slot) => {
+    const pos = new Int32Array(n);
+    const cols = slot.cols;
+    const fixed = lay.active[slot.colStart];
+    for (let i = 0; i < n; i++) {
+      if (!lay.inFit[i]) { pos[i] = -1; continue; }
+      if (cols === null) pos[i] = fixed;
+      else { const c = cols[i]; pos[i] = c < 0 ? -1 : lay.active[c]; }
+    }
+    let val: Float64Array | null = null;
+    if (slot.values !== null) {
+      // Centre and scale are shared by all columns of a slot.
+      const c0 = lay.center[slot.colStart], s0 = lay.scale[slot.colStart];
+      val = new Float64Array(n);
+      const v = slot.values;
+      for (let i = 0; i < n; i++) val[i] = (v[i] - c0) / s0;
+    }
+    return { pos, val };
+  });
+}
+
+/**
+ * X'WX and X'Wz over the active columns in scaled coordinates, accumulated
+ * slot pair by slot pair over the rows, so a row costs the square of its
+ * non-zero columns and the dense design is never formed.
+ */
+export function crossProducts(m: ModelMatrix, lay: Layout | CompiledSlot[], w: Float64Array, z: Float64Array | null, q?: number): { a: SymMatrix; b: Float64Array } {
+  const cs = Array.isArray(lay) ? lay : compileSlots(m, lay);
+  const dim = Array.isArray(lay) ? q! : lay.q;
+  return crossProductsCompiled(cs, m.n, dim, w, z);
+}
+
+export function crossProductsCompiled(cs: CompiledSlot[], n: number, q: number, w: Float64Array, z: Float64Array | null): { a: SymMatrix; b: Float64Array } {
   const a = new Float64Array(q * q);
   const b = new Float64Array(q);
-  const ns = m.slots.length;
-  const idx = new Int32Array(ns);
-  const val = new Float64Array(ns);
-  const { center, scale, active, inFit } = lay;
-  for (let i = 0; i < m.n; i++) {
-    if (!inFit[i]) continue;
-    const wi = w[i];
-    if (wi === 0) continue;
-    let k = 0;
-    for (let s = 0; s < ns; s++) {
-      const slot = m.slots[s];
-      const c = slot.cols === null ? slot.colStart : slot.cols[i];
-      if (c < 0) continue;
-      const pos = active[c];
-      if (pos < 0) continue;
-      idx[k] = pos;
-      val[k] = slot.values === null ? 1 : (slot.values[i] - center[c]) / scale[c];
-      k++;
+  const k = cs.length;
+  for (let s = 0; s < k; s++) {
+    const ps = cs[s].pos, vs = cs[s].val;
+    if (z !== null) {
+      for (let i = 0; i < n; i++) {
+        const p = ps[i];
+        if (p < 0) continue;
+        b[p] += w[i] * (vs === null ? 1 : vs[i]) * z[i];
+      }
     }
-    const zi = z === null ? 0 : z[i];
-    for (let u = 0; u < k; u++) {
-      const wu = wi * val[u];
-      const iu = idx[u];
-      b[iu] += wu * zi;
-      for (let v = 0; v <= u; v++) {
-        const iv = idx[v];
-        if (iu >= iv) a[iu * q + iv] += wu * val[v];
-        else a[iv * q + iu] += wu * val[v];
+    for (let t = 0; t <= s; t++) {
+      const pt = cs[t].pos, vt = cs[t].val;
+      if (vs === null && vt === null) {
+        for (let i = 0; i < n; i++) {
+          const p = ps[i], r = pt[i];
+          if (p < 0 || r < 0) continue;
+          a[p >= r ? p * q + r : r * q + p] += w[i];
+        }
+      } else if (vt === null) {
+        for (let i = 0; i < n; i++) {
+          const p = ps[i], r = pt[i];
+          if (p < 0 || r < 0) continue;
+          a[p >= r ? p * q + r : r * q + p] += w[i] * vs![i];
+        }
+      } else if (vs === null) {
+        for (let i = 0; i < n; i++) {
+          const p = ps[i], r = pt[i];
+          if (p < 0 || r < 0) continue;
+          a[p >= r ? p * q + r : r * q + p] += w[i] * vt[i];
+        }
+      } else {
+        for (let i = 0; i < n; i++) {
+          const p = ps[i], r = pt[i];
+          if (p < 0 || r < 0) continue;
+          a[p >= r ? p * q + r : r * q + p] += w[i] * vs[i] * vt[i];
+        }
       }
     }
   }
+  // Pairs within one slot put a row's value on the diagonal only (one column per row);
+  // pairs across slots may land in either triangle: fold everything to the lower one.
+  for (let r = 0; r < q; r++)
+    for (let c = r + 1; c < q; c++) {
+      a[c * q + r] += a[r * q + c];
+      a[r * q + c] = 0;
+    }
   for (let r = 0; r < q; r++) for (let c = 0; c < r; c++) a[c * q + r] = a[r * q + c];
   return { a: { p: q, data: a }, b };
 }
 
 /** eta = offset + X·beta' (scaled coordinates) over the rows in the fit. */
-function linearPredictor(m: ModelMatrix, setup: FitSetup, betaS: Float64Array, off: Float64Array, eta: Float64Array): void {
-  const { center, scale, active, inFit } = setup;
-  for (let i = 0; i < m.n; i++) {
-    if (!inFit[i]) { eta[i] = -Infinity; continue; }
-    let e = off[i];
-    for (const slot of m.slots) {
-      const c = slot.cols === null ? slot.colStart : slot.cols[i];
-      if (c < 0) continue;
-      const pos = active[c];
-      if (pos < 0) continue;
-      e += betaS[pos] * (slot.values === null ? 1 : (slot.values[i] - center[c]) / scale[c]);
-    }
-    eta[i] = e;
+function linearPredictor(cs: CompiledSlot[], inFit: Uint8Array, betaS: Float64Array, off: Float64Array, eta: Float64Array): void {
+  const n = off.length;
+  for (let i = 0; i < n; i++) eta[i] = inFit[i] ? off[i] : -Infinity;
+  for (const { pos, val } of cs) {
+    if (val === null) for (let i = 0; i < n; i++) { const p = pos[i]; if (p >= 0) eta[i] += betaS[p]; }
+    else for (let i = 0; i < n; i++) { const p = pos[i]; if (p >= 0) eta[i] += betaS[p] * val[i]; }
   }
 }
 
@@ -276,10 +340,13 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
   const off = new Float64Array(data.offset);
   if (options.fixed)
     for (const [c, v] of options.fixed) {
-      const x = columnValues(m, c);
+      setup.fixedValues ??= new Map();
+      let x = setup.fixedValues.get(c);
+      if (!x) { x = columnValues(m, c); setup.fixedValues.set(c, x); }
       for (let i = 0; i < n; i++) off[i] += v * x[i];
     }
 
+  const cs = compiledOf(m, setup);
   const eta = new Float64Array(n);
   const mu = new Float64Array(n);
   let betaS: Float64Array = new Float64Array(q);
@@ -300,7 +367,7 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
     haveBeta = ok;
   }
   if (haveBeta) {
-    linearPredictor(m, setup, betaS, off, eta);
+    linearPredictor(cs, inFit, betaS, off, eta);
     for (let i = 0; i < n; i++) mu[i] = inFit[i] ? Math.exp(eta[i]) : 0;
   } else {
     for (let i = 0; i < n; i++) {
@@ -320,7 +387,6 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
   let converged = false;
   let iter = 0;
   let dev = devOld;
-  const lay = { inFit, active, q, center: setup.center, scale: setup.scale };
   const newEta = new Float64Array(n);
   const newMu = new Float64Array(n);
 
@@ -333,11 +399,22 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
       w[i] = (pw ? pw[i] : 1) * m_ / (1 + alpha * m_);
       z[i] = eta[i] - off[i] + (y[i] - m_) / m_;
     }
-    const { a, b } = crossProducts(m, lay, w, z);
+    const { a, b } = crossProductsCompiled(cs, n, q, w, z);
     const l = cholesky(a);
     if (l === null) throw new FitError(`the weighted cross-product matrix is not positive definite at IRLS iteration ${iter}; the model cannot be fitted on these rows.`);
     let cand: Float64Array = choleskySolve(l, q, b);
-    linearPredictor(m, setup, cand, off, newEta);
+    // Newton decrement: the deviance change this step predicts, Δᵀ(X'WX)Δ.
+    let predicted = NaN;
+    if (options.stopOnPredicted && haveBeta) {
+      predicted = 0;
+      const ad = a.data;
+      for (let r = 0; r < q; r++) {
+        let sr = 0;
+        for (let c = 0; c < q; c++) sr += ad[r * q + c] * (cand[c] - betaS[c]);
+        predicted += (cand[r] - betaS[r]) * sr;
+      }
+    }
+    linearPredictor(cs, inFit, cand, off, newEta);
     for (let i = 0; i < n; i++) newMu[i] = inFit[i] ? Math.exp(newEta[i]) : 0;
     dev = totalDeviance(y, newMu, pw, inFit, alpha);
     let halvings = 0;
@@ -347,7 +424,7 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
       const half = new Float64Array(q);
       for (let k = 0; k < q; k++) half[k] = 0.5 * (cand[k] + betaS[k]);
       cand = half;
-      linearPredictor(m, setup, cand, off, newEta);
+      linearPredictor(cs, inFit, cand, off, newEta);
       for (let i = 0; i < n; i++) newMu[i] = inFit[i] ? Math.exp(newEta[i]) : 0;
       dev = totalDeviance(y, newMu, pw, inFit, alpha);
     }
@@ -360,16 +437,22 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
     const change = Math.abs(dev - devOld) / (Math.abs(dev) + 0.1);
     devOld = dev;
     if (change < control.tolerance) { converged = true; break; }
+    // The next step would change the deviance by about predicted²: stop when that is below tolerance.
+    if (halvings === 0 && predicted >= 0 && (predicted / (Math.abs(dev) + 0.1)) ** 2 < control.tolerance) { converged = true; break; }
   }
 
   // Information at the estimate.
-  for (let i = 0; i < n; i++) w[i] = inFit[i] ? (pw ? pw[i] : 1) * mu[i] / (1 + alpha * mu[i]) : 0;
-  const { a } = crossProducts(m, lay, w, null);
-  const l = cholesky(a);
-  if (l === null) throw new FitError("the information matrix at the estimate is singular; the model cannot be fitted on these rows.");
-  const covS = choleskyInverse(l, q);
+  let covS: SymMatrix = { p: q, data: new Float64Array(q * q).fill(NaN) };
   const t = transformMatrix(m, setup);
-  const covariance = congruence(t, covS);
+  let covariance = covS;
+  if (!options.skipCovariance) {
+    for (let i = 0; i < n; i++) w[i] = inFit[i] ? (pw ? pw[i] : 1) * mu[i] / (1 + alpha * mu[i]) : 0;
+    const { a } = crossProductsCompiled(cs, n, q, w, null);
+    const l = cholesky(a);
+    if (l === null) throw new FitError("the information matrix at the estimate is singular; the model cannot be fitted on these rows.");
+    covS = choleskyInverse(l, q);
+    covariance = congruence(t, covS);
+  }
   const beta = new Float64Array(m.p);
   for (let c = 0; c < m.p; c++) {
     const st = setup.status[c];

@@ -91,7 +91,7 @@ export function fitModel(design: Design, options: FitModelOptions): ModelFit {
 export function constrainedStatistic(design: Design, mf: ModelFit, col: number): (b: number) => number {
   let setup: FitSetup | null = null;
   let start: Float64Array = new Float64Array(mf.fit.beta);
-  const control = { maxIter: 100, tolerance: Math.min(mf.control.tolerance, 1e-12) };
+  const control = { maxIter: 100, tolerance: mf.control.tolerance };
   if (mf.family === "negbin" && mf.negbin && !mf.negbin.boundary) {
     const llHat = mf.negbin.logLik;
     let alpha = mf.negbin.alpha;
@@ -105,7 +105,7 @@ export function constrainedStatistic(design: Design, mf: ModelFit, col: number):
   return (b: number) => {
     const fixed = new Map([[col, b]]);
     if (setup === null) setup = prepareFit(design.matrix, design, fixed);
-    const f = fitGlm(design.matrix, design, { fixed, setup, start, control, alpha: 0 });
+    const f = fitGlm(design.matrix, design, { fixed, setup, start, control, alpha: 0, skipCovariance: true, stopOnPredicted: true });
     if (f.warnings.length === 0) start = f.beta;
     return Math.max(0, f.deviance - mf.fit.deviance);
   };

@@ -9,6 +9,7 @@ import { logDensity, variance } from "../fit/family.js";
 import { chiSquareUpperTail, normalQuantile, normalTwoSidedP, studentQuantile, studentTwoSidedP } from "./distributions.js";
 import type { ProfileResult } from "./profile.js";
 import { sandwichCovariance } from "./robust.js";
+import type { TermTest } from "./terms.js";
 
 export type { FamilyName } from "../fit/model.js";
 
@@ -81,6 +82,8 @@ export interface FitSummary {
   test_distribution: "normal" | "t";
   standard_errors: "model" | "robust";
   profile_reference: string | null;
+  /** Tests for dropping each term (present when computed). */
+  term_tests?: TermTest[];
   warnings: string[];
   notices: string[];
 }
@@ -93,8 +96,11 @@ export interface SummaryOptions {
   familyChoice?: { requested: string; reason: string };
 }
 
-/** Goodness-of-fit figures that do not depend on how the standard errors are made. */
-export function fitStatistics(design: Design, fit: GlmFit) {
+/**
+ * Goodness-of-fit figures that do not depend on how the standard errors are
+ * made. `negbin` counts alpha as a parameter even when it is estimated at 0.
+ */
+export function fitStatistics(design: Design, fit: GlmFit, negbin = fit.alpha > 0) {
   const { y, weights } = design;
   let pearson = 0, ll = 0, nEff = 0;
   for (let i = 0; i < y.length; i++) {
@@ -106,7 +112,7 @@ export function fitStatistics(design: Design, fit: GlmFit) {
   }
   let k = 0;
   for (const s of fit.status) if (s === "estimated" || s === "no_events") k++;
-  const nPar = k + (fit.alpha > 0 ? 1 : 0);
+  const nPar = k + (negbin ? 1 : 0);
   const df = nEff - k;
   return { pearson, logLik: ll, nEff, nCoef: k, nPar, df, aic: -2 * ll + 2 * nPar, bic: -2 * ll + Math.log(nEff) * nPar };
 }
@@ -126,7 +132,7 @@ export function boundaryLrTest(llNegbin: number, llPoisson: number): { stat: num
 /** Build the report record for a fitted model. */
 export function summarizeFit(design: Design, mf: ModelFit, options: SummaryOptions): FitSummary {
   const fit = mf.fit;
-  const stats = fitStatistics(design, fit);
+  const stats = fitStatistics(design, fit, mf.family === "negbin");
   const df = stats.df;
   const pearsonRatio = df > 0 ? stats.pearson / df : NaN;
   const devRatio = df > 0 ? fit.deviance / df : NaN;

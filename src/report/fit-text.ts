@@ -115,6 +115,14 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
   if (s.profile_reference) out.push(`  profile limits: ${s.profile_reference}`);
   out.push("");
 
+  if (s.term_tests && s.term_tests.length) {
+    const kind = s.term_tests[0].test === "F" ? "F test (deviance change / df / φ)" : "likelihood-ratio test";
+    out.push(st.heading(`Dropping each term (${kind}, other terms kept, same rows)`));
+    const trows: string[][] = [["term", "df", s.term_tests[0].test === "F" ? "F" : "LR chi-square", "p-value", ""]];
+    for (const t of s.term_tests) trows.push([t.term, t.df ? String(t.df) : "", t.statistic === null ? "–" : fixed(t.statistic, 2), pValue(t.p_value), t.note ?? ""]);
+    out.push(...table(trows, ["l", "r", "r", "r", "l"]));
+    out.push("");
+  }
   out.push(st.heading("Fit"));
   const frows: string[][] = [
     ["deviance", fixed(s.deviance, 2), `on ${fixed(s.df_residual, 0)} residual df`],

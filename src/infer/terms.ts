@@ -1,0 +1,55 @@
+// Tests for dropping each model term as a whole: all of its columns held at
+// 0 (moved out of the model), every other parameter re-maximised on the same
+// rows. Likelihood-ratio tests for Poisson and negative binomial; F tests for
+// quasi-Poisson, F = (ΔD/df)/φ on (df, residual df) (McCullagh and Nelder
+// 1989, §4.5.2). A term that is part of a higher-order term in the model is
+// not tested on its own (marginality): with treatment coding such a test
+// would depend on the reference levels.
+import type { Design } from "../design/design.js";
+import { fitGlm } from "../fit/irls.js";
+import type { ModelFit } from "../fit/model.js";
+import { fitNegbin } from "../fit/negbin.js";
+import { chiSquareUpperTail, fUpperTail } from "./distributions.js";
+import { fitStatistics } from "./summary.js";
+
+export interface TermTest {
+  term: string;
+  df: number;
+  statistic: number | null;
+  p_value: number | null;
+  test: "LR chi-square" | "F";
+  note: string | null;
+}
+
+function contains(outer: string[], inner: string[]): boolean {
+  return inner.every((v) => outer.includes(v));
+}
+
+export function termTests(design: Design, mf: ModelFit): TermTest[] {
+  const terms = design.model.terms;
+  const quasi = mf.family === "quasipoisson";
+  const full = fitStatistics(design, mf.fit);
+  const phi = full.df > 0 ? full.pearson / full.df : NaN;
+  const llFull = mf.negbin && !mf.negbin.boundary ? mf.negbin.logLik : full.logLik;
+  return terms.map((t, ti) => {
+    const label = design.termLabels[ti];
+    const test = quasi ? ("F" as const) : ("LR chi-square" as const);
+    const higher = terms.find((u, ui) => ui !== ti && u.variables.length > t.variables.length && contains(u.variables, t.variables));
+    if (higher) return { term: label, df: 0, statistic: null, p_value: null, test, note: `part of ${higher.variables.join(":")}; test that term first` };
+    const cols = design.termColumns[ti].filter((c) => mf.fit.status[c] === "estimated" || mf.fit.status[c] === "no_events");
+    if (cols.length === 0) return { term: label, df: 0, statistic: null, p_value: null, test, note: "all its columns are aliased" };
+    const fixed = new Map(cols.map((c) => [c, 0]));
+    let stat: number, p: number;
+    if (mf.family === "negbin" && mf.negbin && !mf.negbin.boundary) {
+      const nb = fitNegbin(design.matrix, design, { control: mf.control, fixed, startAlpha: mf.negbin.alpha });
+      stat = Math.max(0, 2 * (llFull - nb.logLik));
+      p = chiSquareUpperTail(stat, cols.length);
+    } else {
+      const r = fitGlm(design.matrix, design, { control: mf.control, fixed, skipCovariance: true });
+      const dd = Math.max(0, r.deviance - mf.fit.deviance);
+      if (quasi) { stat = dd / cols.length / phi; p = fUpperTail(stat, cols.length, full.df); }
+      else { stat = dd; p = chiSquareUpperTail(stat, cols.length); }
+    }
+    return { term: label, df: cols.length, statistic: stat, p_value: p, test, note: null };
+  });
+}
