@@ -3,7 +3,7 @@
 // Scenario (invented for tallyfit): a network of six walk-in clinics records
 // visits per clinic-day with the hours it was open; a hospital records falls
 // per ward-month with occupied bed-days. Nothing here is real data.
-//   node examples/generate.mjs          rewrites clinic_visits.csv and ward_falls.csv
+//   node examples/generate.mjs          rewrites clinic_visits.csv, clinic_visits_week49.csv and ward_falls.csv
 import { writeFileSync } from "node:fs";
 import { dirname, join } from "node:path";
 import { fileURLToPath } from "node:url";
@@ -55,14 +55,14 @@ function negbin(u, mean, alpha) {
   return alpha > 0 ? poisson(u, mean * gamma(u, 1 / alpha) * alpha) : poisson(u, mean);
 }
 
-function clinicVisits() {
-  const u = rng(20261201);
+function clinicVisits(weeks = [1, 48], seed = 20261201, excess = null) {
+  const u = rng(seed);
   const clinics = { northgate: 0, harbour: 0.18, riverside: -0.12, hillcrest: 0.05, old_town: 0.3, westfield: -0.25 };
   const weekdays = ["mon", "tue", "wed", "thu", "fri", "sat"];
   const dayEffect = { mon: 0.22, tue: 0.05, wed: 0, thu: 0.02, fri: 0.1, sat: -0.15 };
   const lines = ["date,week,weekday,clinic,open_hours,staff_on_duty,flu_season,visits"];
   const start = Date.UTC(2026, 0, 5); // a Monday
-  for (let week = 1; week <= 48; week++) {
+  for (let week = weeks[0]; week <= weeks[1]; week++) {
     for (let d = 0; d < 6; d++) {
       const date = new Date(start + ((week - 1) * 7 + d) * 86400000).toISOString().slice(0, 10);
       const flu = week <= 10 || week >= 44 ? 1 : 0;
@@ -72,9 +72,10 @@ function clinicVisits() {
         if (u() < 0.008) hours = 0; // closed for the day
         const staff = Math.max(1, Math.round(3 + (clinic === "harbour" ? 1 : 0) + normal(u) * 0.8));
         const rate = Math.exp(Math.log(2.1) + eff + dayEffect[wd] + 0.25 * flu + 0.04 * (staff - 3));
-        let visits = hours === 0 ? 0 : negbin(u, rate * hours, 0.04);
+        const boost = excess && excess.clinic === clinic && excess.weekday === wd ? excess.factor : 1;
+        let visits = hours === 0 ? 0 : negbin(u, boost * rate * hours, 0.04);
         let staffText = String(staff);
-        if (u() < 0.004) staffText = "NA"; // staffing not recorded
+        if (!excess && u() < 0.004) staffText = "NA"; // staffing not recorded
         lines.push(`${date},${week},${wd},${clinic},${hours},${staffText},${flu},${visits}`);
       }
     }
@@ -99,5 +100,7 @@ function wardFalls() {
 }
 
 writeFileSync(join(here, "clinic_visits.csv"), clinicVisits());
+// The next week, for the weekly prediction run: Harbour on Wednesday sees three times its usual rate.
+writeFileSync(join(here, "clinic_visits_week49.csv"), clinicVisits([49, 49], 49, { clinic: "harbour", weekday: "wed", factor: 3 }));
 writeFileSync(join(here, "ward_falls.csv"), wardFalls());
-console.log("wrote examples/clinic_visits.csv and examples/ward_falls.csv");
+console.log("wrote examples/clinic_visits.csv, clinic_visits_week49.csv and ward_falls.csv");

@@ -1,8 +1,17 @@
 // Command-line wiring: options → stage functions → output. No statistics here.
 import { Command, CommanderError, Option } from "commander";
 import { readFileSync } from "node:fs";
+import { createHash } from "node:crypto";
+import type { Table } from "../io/table.js";
+import { loadSavedModel } from "../io/model-file.js";
+import { buildPredictionDesign } from "../design/predict-design.js";
+import { predictRows } from "../infer/predict.js";
+import { summarizeGroups, type GroupSummary } from "../infer/groups.js";
+import { naturalCompare } from "../design/naming.js";
+import { savedModelOf } from "../report/model-file.js";
+import { renderPredictCsv, renderPredictText } from "../report/predict.js";
 import { EXIT, FitError, InputError } from "../errors.js";
-import { DEFAULT_NA, parseTable, readSource } from "../io/csv.js";
+import { DEFAULT_NA, parseRecords, parseTable, readSource } from "../io/csv.js";
 import { parseModel, termVariables } from "../model/formula.js";
 import { buildDesign } from "../design/design.js";
 import type { Design } from "../design/design.js";
@@ -114,7 +123,7 @@ interface Loaded {
 }
 
 /** Read the input and build the designs: the load → design stages, shared by the fitting commands. */
-async function loadDesigns(file: string | undefined, opts: CommonOptions, modelTexts: string[]): Promise<{ designs: Design[]; control: Loaded["control"] }> {
+async function loadDesigns(file: string | undefined, opts: CommonOptions, modelTexts: string[], alsoRead: string[] = []): Promise<{ designs: Design[]; control: Loaded["control"]; table: Table; sha256: string }> {
   const control = { maxIter: parsePositiveInt("--max-iter", opts.maxIter), tolerance: parsePositive("--tolerance", opts.tolerance) };
   const specs = modelTexts.map((t) => parseModel(t, { intercept: opts.intercept }));
   const refs = parseRefs(opts.ref);
@@ -123,7 +132,7 @@ async function loadDesigns(file: string | undefined, opts: CommonOptions, modelT
   if (path === "-" && process.stdin.isTTY) throw new InputError("no input: give a CSV file, or pipe one in (a FILE of - reads standard input).");
   const { bytes, name } = await readSource(path);
   const vars = [...new Set(specs.flatMap((spec) => [spec.response, ...termVariables(spec)]))];
-  const select = [...vars, ...[opts.exposure, opts.offset, opts.weights].filter((x): x is string => !!x), ...Object.keys(refs)];
+  const select = [...vars, ...[opts.exposure, opts.offset, opts.weights].filter((x): x is string => !!x), ...Object.keys(refs), ...alsoRead];
   const table = parseTable(bytes, { source: name, delimiter: opts.delimiter, na: parseNa(opts.na), factors, select });
   for (const f of factors)
     if (!table.header.includes(f)) throw new InputError(`${name}: --factor column '${f}' is not in the file. The columns are ${table.header.map((h) => `'${h}'`).join(", ")}.`);
@@ -132,12 +141,25 @@ async function loadDesigns(file: string | undefined, opts: CommonOptions, modelT
     return buildDesign(table, spec, { exposure: opts.exposure, offset: opts.offset, weights: opts.weights, refs: ownRefs, complete: specs.length > 1 ? vars : undefined });
   });
   for (const n of designs[0].notices) notice(opts, n);
-  return { designs, control };
+  for (const c of alsoRead) if (!table.columns.has(c)) throw new InputError(`${name}: --summary-by column '${c}' is not in the file. The columns are ${table.header.map((h) => `'${h}'`).join(", ")}.`);
+  return { designs, control, table, sha256: createHash("sha256").update(bytes).digest("hex") };
 }
 
-async function loadDesign(file: string | undefined, opts: CommonOptions, modelText: string): Promise<Loaded> {
-  const { designs, control } = await loadDesigns(file, opts, [modelText]);
-  return { design: designs[0], control };
+async function loadDesign(file: string | undefined, opts: CommonOptions, modelText: string, alsoRead: string[] = []): Promise<Loaded & { table: Table; sha256: string }> {
+  const { designs, control, table, sha256 } = await loadDesigns(file, opts, [modelText], alsoRead);
+  return { design: designs[0], control, table, sha256 };
+}
+
+/** Group labels of some data rows: factor levels, or numbers as written by String(). */
+function groupLabels(table: Table, column: string, rows: ArrayLike<number>): string[] {
+  const c = table.columns.get(column)!;
+  const out: string[] = new Array(rows.length);
+  for (let k = 0; k < rows.length; k++) {
+    const i = rows[k];
+    if (c.kind === "factor") out[k] = c.codes[i] < 0 ? "(missing)" : c.levels[c.codes[i]];
+    else out[k] = Number.isNaN(c.values[i]) ? "(missing)" : String(c.values[i]);
+  }
+  return out;
 }
 
 function oneOf(name: string, value: string, allowed: string[]): string {
@@ -164,15 +186,24 @@ function parseTestLevel(v: string): number {
   return x;
 }
 
-async function runFit(file: string | undefined, opts: CommonOptions & { alpha: string }): Promise<number> {
+type FitCliOptions = CommonOptions & { alpha: string; saveModel?: string; summaryBy?: string; per: string };
+
+async function runFit(file: string | undefined, opts: FitCliOptions): Promise<number> {
   if (opts.model.length !== 1) throw new InputError(opts.model.length === 0 ? 'fit needs --model "COUNT ~ TERMS".' : "fit takes one --model; use `tallyfit compare` for several.");
   const level = parseLevel(opts.level);
   oneOf("--format", opts.format, ["text", "json", "csv", "markdown"]);
   const family = oneOf("--family", opts.family, ["poisson", "quasipoisson", "negbin", "auto"]) as FamilyChoice;
   const intervals = oneOf("--intervals", opts.intervals, ["wald", "profile", "both"]) as "wald" | "profile" | "both";
   const testLevel = parseTestLevel(opts.alpha);
-  const { design, control } = await loadDesign(file, opts, opts.model[0]);
-  const { summary } = analyzeFit(design, { family, control, level, intervals, robust: !!opts.robust, testLevel });
+  const per = parsePositive("--per", opts.per);
+  const { design, control, table, sha256 } = await loadDesign(file, opts, opts.model[0], opts.summaryBy ? [opts.summaryBy] : []);
+  const { summary, modelFit } = analyzeFit(design, { family, control, level, intervals, robust: !!opts.robust, testLevel });
+  if (opts.summaryBy)
+    summary.summary_by = summarizeGroups(opts.summaryBy, groupLabels(table, opts.summaryBy, design.rowIndex), design.y, modelFit.fit.mu, design.exposure, per, level, naturalCompare);
+  if (opts.saveModel) {
+    await writeAtomic(opts.saveModel, renderJson(savedModelOf(design, modelFit, { version: VERSION, sha256 })));
+    notice(opts, `model saved to ${opts.saveModel}`);
+  }
   let content: string;
   if (opts.format === "json") content = renderJson(summary);
   else if (opts.format === "csv") content = renderFitCsv(summary);
@@ -192,6 +223,48 @@ async function runCheck(file: string | undefined, opts: CommonOptions & { alpha:
   const content = opts.format === "json" ? renderJson({ schema: check.schema, check }) : renderCheckText(check, textLayout(opts));
   await emit(opts, content);
   return check.flagged ? EXIT.flagged : EXIT.ok;
+}
+
+interface PredictCliOptions {
+  modelFile: string; level: string; flagLevel: string; draws: string; seed: string; failOnFlag?: boolean;
+  summaryBy?: string; per: string; format: string; output?: string; delimiter?: string; na?: string; quiet?: boolean; color: boolean;
+}
+
+async function runPredict(file: string | undefined, opts: PredictCliOptions): Promise<number> {
+  oneOf("--format", opts.format, ["csv", "json", "text"]);
+  const level = parseLevel(opts.level);
+  const flagLevel = Number(opts.flagLevel);
+  if (!(flagLevel > 0 && flagLevel < 1)) throw new InputError(`--flag-level must be between 0 and 1, such as 0.99 (got '${opts.flagLevel}').`);
+  const draws = parsePositiveInt("--draws", opts.draws);
+  const seed = Number(opts.seed);
+  if (!Number.isInteger(seed) || seed < 0) throw new InputError(`--seed must be a whole number ≥ 0 (got '${opts.seed}').`);
+  const per = parsePositive("--per", opts.per);
+  const saved = await loadSavedModel(opts.modelFile);
+  const path = file ?? "-";
+  if (path === "-" && process.stdin.isTTY) throw new InputError("no input: give a CSV file of new rows, or pipe one in.");
+  const { bytes, name } = await readSource(path);
+  const factors = saved.factors.map((f) => f.name);
+  const table = parseTable(bytes, { source: name, delimiter: opts.delimiter, na: parseNa(opts.na), factors });
+  if (opts.summaryBy && !table.columns.has(opts.summaryBy)) throw new InputError(`${name}: --summary-by column '${opts.summaryBy}' is not in the file.`);
+  const pd = buildPredictionDesign(table, saved);
+  const result = predictRows(pd, saved, { level, flagLevel, draws, seed });
+  let groups: GroupSummary | undefined;
+  if (opts.summaryBy) {
+    const idx = Int32Array.from({ length: pd.n }, (_, i) => i);
+    groups = summarizeGroups(opts.summaryBy, groupLabels(table, opts.summaryBy, idx), pd.observed, result.rows.map((r) => r.expected), pd.exposure, per, level, naturalCompare);
+  }
+  let content: string;
+  if (opts.format === "json") content = renderJson(groups ? { ...result, summary_by: groups } : result);
+  else if (opts.format === "csv") content = renderPredictCsv(parseRecords(bytes, { source: name, delimiter: table.delimiter }), result);
+  else {
+    const idx = Int32Array.from({ length: pd.n }, (_, i) => i);
+    const cols = saved.factors.map((f) => groupLabels(table, f.name, idx));
+    const labels = Array.from({ length: pd.n }, (_, i) => cols.map((c) => c[i]).join(" "));
+    content = renderPredictText(result, groups, { ...textLayout(opts as unknown as CommonOptions), labels, labelHeading: saved.factors.map((f) => f.name).join(" ") });
+  }
+  await emit(opts as unknown as CommonOptions, content);
+  if (result.n_flagged > 0) notice(opts as unknown as CommonOptions, `${result.n_flagged} row${result.n_flagged === 1 ? "" : "s"} flagged above the ${flagLevel} limit`);
+  return opts.failOnFlag && result.n_flagged > 0 ? EXIT.flagged : EXIT.ok;
 }
 
 async function runCompare(file: string | undefined, opts: Omit<CommonOptions, "family"> & { family: string[] }): Promise<number> {
@@ -220,7 +293,30 @@ export function buildProgram(onResult: (code: number) => void): Command {
     .showHelpAfterError("(run tallyfit --help for the commands and options)");
   addCommonOptions(program.command("fit").description("fit one model and print the report").argument("[file]", "CSV file, or - for standard input"))
     .option("--alpha <p>", "test level of the dispersion check used by --family auto", "0.05")
-    .action(async (file: string | undefined, opts: CommonOptions & { alpha: string }) => onResult(await runFit(file, opts)));
+    .option("--save-model <file>", "write everything predict needs to FILE (JSON, schema tallyfit.model/1)")
+    .option("--summary-by <col>", "observed and expected totals by group, with exact O/E limits")
+    .option("--per <n>", "units of exposure for the crude rates of --summary-by", "1")
+    .action(async (file: string | undefined, opts: FitCliOptions) => onResult(await runFit(file, opts)));
+  program
+    .command("predict")
+    .description("expected counts, limits and excess-count flags for new rows under a saved model")
+    .argument("[file]", "CSV file of new rows, or - for standard input")
+    .requiredOption("--model-file <file>", "a model saved by tallyfit fit --save-model")
+    .option("--level <p>", "level of the mean and prediction intervals", "0.95")
+    .option("--flag-level <p>", "flag a row whose count is above this quantile of its predictive distribution", "0.99")
+    .option("--draws <n>", "draws of the estimates for the prediction interval", "2000")
+    .option("--seed <n>", "seed of those draws", "1")
+    .option("--fail-on-flag", "exit code 4 when any row is flagged")
+    .option("--summary-by <col>", "observed and expected totals by group, with exact O/E limits")
+    .option("--per <n>", "units of exposure for the crude rates of --summary-by", "1")
+    .addOption(new Option("--format <fmt>", "csv, json or text").default("csv"))
+    .option("--output <file>", "write to FILE (atomically) instead of stdout")
+    .option("--delimiter <c>", "field delimiter (default ',' and tab for .tsv)")
+    .option("--na <tokens>", "comma-separated missing-value tokens")
+    .option("--quiet", "no notices on stderr")
+    .option("--no-color", "no colour")
+    .option("--debug", "show a stack trace on internal errors")
+    .action(async (file: string | undefined, opts: PredictCliOptions) => onResult(await runPredict(file, opts)));
   addCommonOptions(
     program
       .command("check")

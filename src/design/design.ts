@@ -206,6 +206,10 @@ export function buildDesign(table: Table, model: ModelSpec, options: DesignOptio
       `${table.source}: no rows are left to fit (${N} read; ${missing} with missing values, ${zeroExp} with zero exposure and zero count, ${zeroW} with weight 0).`,
     );
   }
+  let anyEvent = false;
+  for (let i = 0; i < N && !anyEvent; i++) if (usable[i] && yAll[i] > 0) anyEvent = true;
+  if (!anyEvent)
+    throw new InputError(`${table.source}: the count column '${model.response}' is 0 in every row used (${n} rows); with no events there is no rate to model.`);
   const rowIndex = new Int32Array(n);
   for (let i = 0, k = 0; i < N; i++) if (usable[i]) rowIndex[k++] = i;
   const pick = (a: Float64Array) => { const out = new Float64Array(n); for (let k = 0; k < n; k++) out[k] = a[rowIndex[k]]; return out; };
@@ -224,7 +228,51 @@ export function buildDesign(table: Table, model: ModelSpec, options: DesignOptio
     factors.set(v, codeFactor(table, c, rowIndex, options.refs?.[v]));
   });
 
-  // Terms → columns.
+  const { columns, slots, termColumns, interceptCol } = layoutColumns(model, factors, (v) => pick((table.columns.get(v) as { values: Float64Array }).values), n);
+  const p = columns.length;
+  if (p === 0) throw new InputError("--model: the model has no terms and no intercept; add a term or drop --no-intercept.");
+  const nEff = weights ? weights.reduce((a, b) => a + b, 0) : n;
+  if (p > nEff) {
+    throw new InputError(
+      `${table.source}: the model has ${p} coefficients but only ${n} rows are used; a model needs fewer coefficients than rows. Drop terms or interactions.`,
+    );
+  }
+  return {
+    source: table.source,
+    model,
+    nRows: N,
+    n,
+    rowIndex,
+    y,
+    offset,
+    weights,
+    exposure,
+    exposureName: options.exposure ?? null,
+    offsetName: options.offset ?? null,
+    weightsName: options.weights ?? null,
+    matrix: { n, p, slots, interceptCol },
+    columns,
+    termLabels: model.terms.map((t) => t.variables.join(":")),
+    termColumns,
+    factors: [...factors.values()].map((f) => f.coding),
+    dropped: { missing, zeroExposureZeroCount: zeroExp, zeroWeight: zeroW },
+    notices,
+  };
+}
+
+/**
+ * Terms → columns and slots under treatment coding. For each factor in a term:
+ * contrasts (the reference level has no column) when the term without that
+ * factor is also in the model (its margin, the intercept counting as the
+ * empty term), otherwise an indicator for every level. Shared by fitting and
+ * prediction so both lay out columns identically.
+ */
+export function layoutColumns(
+  model: ModelSpec,
+  factors: Map<string, { coding: FactorCoding; codes: Int32Array }>,
+  numeric: (name: string) => Float64Array,
+  n: number,
+): { columns: DesignColumn[]; slots: Slot[]; termColumns: number[][]; interceptCol: number } {
   const columns: DesignColumn[] = [];
   const slots: Slot[] = [];
   const termColumns: number[][] = [];
@@ -239,7 +287,7 @@ export function buildDesign(table: Table, model: ModelSpec, options: DesignOptio
   model.terms.forEach((term, ti) => {
     const parts = term.variables.map((v) => {
       const f = factors.get(v);
-      if (!f) return { kind: "numeric" as const, name: v, values: pick((table.columns.get(v) as { values: Float64Array }).values) };
+      if (!f) return { kind: "numeric" as const, name: v, values: numeric(v) };
       // Contrasts when the term without this factor is in the model (its margin), else full indicators.
       const rest = term.variables.filter((u) => u !== v).sort().join("\u0000");
       const contrast = termKeys.has(rest);
@@ -294,35 +342,7 @@ export function buildDesign(table: Table, model: ModelSpec, options: DesignOptio
       slots.push({ term: ti, colStart: base, colCount: total, cols: rowCols, values });
     }
   });
-  const p = columns.length;
-  if (p === 0) throw new InputError("--model: the model has no terms and no intercept; add a term or drop --no-intercept.");
-  const nEff = weights ? weights.reduce((a, b) => a + b, 0) : n;
-  if (p > nEff) {
-    throw new InputError(
-      `${table.source}: the model has ${p} coefficients but only ${n} rows are used; a model needs fewer coefficients than rows. Drop terms or interactions.`,
-    );
-  }
-  return {
-    source: table.source,
-    model,
-    nRows: N,
-    n,
-    rowIndex,
-    y,
-    offset,
-    weights,
-    exposure,
-    exposureName: options.exposure ?? null,
-    offsetName: options.offset ?? null,
-    weightsName: options.weights ?? null,
-    matrix: { n, p, slots, interceptCol },
-    columns,
-    termLabels: model.terms.map((t) => t.variables.join(":")),
-    termColumns,
-    factors: [...factors.values()].map((f) => f.coding),
-    dropped: { missing, zeroExposureZeroCount: zeroExp, zeroWeight: zeroW },
-    notices,
-  };
+  return { columns, slots, termColumns, interceptCol };
 }
 
 function codeFactor(table: Table, c: FactorColumn, rowIndex: Int32Array, ref: string | undefined): { coding: FactorCoding; codes: Int32Array } {

@@ -10,6 +10,7 @@ import { chiSquareUpperTail, normalQuantile, normalTwoSidedP, studentQuantile, s
 import type { ProfileResult } from "./profile.js";
 import { sandwichCovariance } from "./robust.js";
 import type { TermTest } from "./terms.js";
+import type { GroupSummary } from "./groups.js";
 
 export type { FamilyName } from "../fit/model.js";
 
@@ -84,6 +85,8 @@ export interface FitSummary {
   profile_reference: string | null;
   /** Tests for dropping each term (present when computed). */
   term_tests?: TermTest[];
+  /** Observed against expected by group (--summary-by). */
+  summary_by?: GroupSummary;
   warnings: string[];
   notices: string[];
 }

@@ -259,3 +259,10 @@ export async function loadTable(path: string, options: Omit<LoadOptions, "source
   const { bytes, name } = await readSource(path);
   return parseTable(bytes, { ...options, source: name });
 }
+
+/** All records as text (header first), for outputs that repeat the input columns. */
+export function parseRecords(input: Uint8Array | string, options: { source: string; delimiter?: string }): string[][] {
+  let text = typeof input === "string" ? input : decodeUtf8(input, options.source);
+  if (text.charCodeAt(0) === 0xfeff) text = text.slice(1);
+  return parse(text, { delimiter: options.delimiter ?? defaultDelimiter(options.source), bom: true, relax_column_count: true, skip_empty_lines: true }) as string[][];
+}

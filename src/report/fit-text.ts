@@ -1,7 +1,7 @@
 // The text report of one fitted model, in tallyfit's own layout:
 // rate ratios first, then the coefficients, fit figures, dispersion, warnings.
 import type { CoefficientRow, FitSummary } from "../infer/summary.js";
-import { fixed, interval, pEquals, pValue, sig, table, wrap } from "./format.js";
+import { fixed, groupTable, interval, pEquals, pValue, sig, table, wrap } from "./format.js";
 import type { Style } from "./style.js";
 
 const FAMILY_TITLE = { poisson: "Poisson", negbin: "Negative-binomial (NB2)", quasipoisson: "Quasi-Poisson" } as const;
@@ -154,6 +154,11 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
   out.push(...dispersionBlock(s, o));
   out.push("");
 
+  if (s.summary_by) {
+    out.push(st.heading(`Observed and expected by ${s.summary_by.column} (O/E limits: exact Poisson limits of the observed count, divided by the expected)`));
+    out.push(...groupTable(s.summary_by));
+    out.push("");
+  }
   const warns = s.warnings.filter((w) => !s.notices.includes(w));
   if (warns.length) {
     out.push(st.caution("Warnings"));

@@ -77,3 +77,14 @@ export function pEquals(p: number | null | undefined): string {
   const t = pValue(p);
   return t.startsWith("<") ? `p < ${t.slice(1)}` : `p = ${t}`;
 }
+
+import type { GroupSummary } from "../infer/groups.js";
+
+/** The --summary-by table: observed, expected, O/E with exact limits, exposure and crude rate. */
+export function groupTable(g: GroupSummary): string[] {
+  const lv = `${+(g.level * 100).toFixed(2)}%`;
+  const rows: string[][] = [[g.column, "rows", "observed", "expected", "O/E", `exact ${lv}`, "exposure", `rate per ${group(String(g.per))}`]];
+  for (const r of g.groups)
+    rows.push([r.group, String(r.rows), fixed(r.observed, 0), fixed(r.expected, 1), r.ratio === null ? "–" : fixed(r.ratio, 3), r.ratio_ci ? interval(r.ratio_ci) : "–", r.exposure === null ? "–" : fixed(r.exposure, 1), r.crude_rate === null ? "–" : sig(r.crude_rate)]);
+  return table(rows, ["l", "r", "r", "r", "r", "r", "r", "r"]);
+}

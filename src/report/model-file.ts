@@ -1,0 +1,41 @@
+// Writing the saved-model record from a fit.
+import type { Design } from "../design/design.js";
+import type { ModelFit } from "../fit/model.js";
+import { quasiPhi } from "../infer/summary.js";
+import { MODEL_SCHEMA, type SavedModel } from "../model/saved.js";
+
+export function savedModelOf(design: Design, mf: ModelFit, meta: { version: string; sha256: string }): SavedModel {
+  const fit = mf.fit;
+  const est = fit.estimable;
+  const q = fit.covariance.p;
+  const factorNames = new Set(design.factors.map((f) => f.name));
+  const numeric: string[] = [];
+  for (const t of design.model.terms) for (const v of t.variables) if (!factorNames.has(v) && !numeric.includes(v)) numeric.push(v);
+  return {
+    schema: MODEL_SCHEMA,
+    tool: { name: "tallyfit", version: meta.version },
+    data: { source: design.source, sha256: meta.sha256, n_rows: design.nRows, n_used: design.n },
+    family: mf.family,
+    link: "log",
+    model: design.model.text,
+    response: design.model.response,
+    intercept: design.model.intercept,
+    terms: design.model.terms.map((t) => [...t.variables]),
+    exposure: design.exposureName,
+    offset: design.offsetName,
+    factors: design.factors.map((f) => ({ name: f.name, levels: [...f.levels], reference: f.reference })),
+    numeric,
+    coefficients: design.columns.map((c, j) => {
+      const st = fit.status[j];
+      const status = st === "estimated" ? "estimated" : st === "no_events" ? "no_events" : "aliased";
+      return { term: c.name, status, estimate: st === "estimated" ? fit.beta[j] : null };
+    }),
+    covariance: {
+      terms: est.map((c) => design.columns[c].name),
+      matrix: Array.from({ length: q }, (_, r) => Array.from({ length: q }, (_, c) => fit.covariance.data[r * q + c])),
+    },
+    dispersion_phi: mf.family === "quasipoisson" ? quasiPhi(design, fit) : 1,
+    alpha: mf.negbin ? mf.negbin.alpha : null,
+    alpha_std_error: mf.negbin ? mf.negbin.alphaStdError : null,
+  };
+}
