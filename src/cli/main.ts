@@ -352,6 +352,8 @@ export async function main(argv: string[]): Promise<void> {
       process.exitCode = EXIT.input;
       return;
     }
+    // A deliberate fault, so the tests can check how internal errors are reported.
+    if (process.env.TALLYFIT_TEST_CRASH === "1") throw new TypeError("deliberate test fault");
     await program.parseAsync(argv);
   } catch (e) {
     if (e instanceof CommanderError) {

@@ -107,6 +107,11 @@ function firstRows(rows: number[]): string {
   return rows.length > 3 ? `${shown} and ${rows.length - 3} more` : shown;
 }
 
+/** " (n rows: 3, 9, 12 and 4 more)" when more than one row has the problem, else "". */
+function alsoRows(rows: number[]): string {
+  return rows.length > 1 ? ` (${rows.length} rows: ${firstRows(rows)})` : "";
+}
+
 function numericValues(table: Table, col: Column, role: string): Float64Array {
   if (col.kind === "numeric") return col.values;
   const why = col.reason.forced
@@ -150,7 +155,12 @@ export function buildDesign(table: Table, model: ModelSpec, options: DesignOptio
   const extra = (options.complete ?? []).filter((c) => !vars.includes(c)).map((c) => get(c, "model"));
   for (const c of [response, ...varCols, exposureCol, offsetCol, weightsCol, ...extra]) if (c) missingIn(c);
   let missing = 0;
-  for (let i = 0; i < N; i++) if (!usable[i]) missing++;
+  const missingRows: number[] = [];
+  for (let i = 0; i < N; i++) if (!usable[i]) { missing++; if (missingRows.length < 3) missingRows.push(i); }
+  const missingCols = [response, ...varCols, exposureCol, offsetCol, weightsCol, ...extra]
+    .filter((c): c is Column => !!c)
+    .filter((c) => (c.kind === "numeric" ? c.values.some((v) => Number.isNaN(v)) : c.codes.some((v) => v < 0)))
+    .map((c) => c.name);
 
   // Count, exposure and weight checks on complete rows.
   const badCount: number[] = [];
@@ -176,8 +186,7 @@ export function buildDesign(table: Table, model: ModelSpec, options: DesignOptio
   if (badCount.length > 0) {
     const i = badCount[0];
     throw new InputError(
-      `${table.source}, row ${fileRow(i)}, column '${model.response}': the count is ${yAll[i]}; counts must be whole numbers ≥ 0 ` +
-        `(rows ${firstRows(badCount.map(fileRow))}).`,
+      `${table.source}, row ${fileRow(i)}, column '${model.response}': the count is ${yAll[i]}; counts must be whole numbers ≥ 0${alsoRows(badCount.map(fileRow))}.`,
     );
   }
   if (badExposure.length > 0) {
@@ -185,20 +194,23 @@ export function buildDesign(table: Table, model: ModelSpec, options: DesignOptio
     const e = expAll![i];
     throw new InputError(
       `${table.source}, row ${fileRow(i)}, column '${options.exposure}': exposure ${e} with a count of ${yAll[i]}; ` +
-        `${e < 0 ? "exposure cannot be negative" : "a positive count needs positive exposure"} (rows ${firstRows(badExposure.map(fileRow))}). Correct the extract or leave those rows out.`,
+        `${e < 0 ? "exposure cannot be negative" : "a positive count needs positive exposure"}${alsoRows(badExposure.map(fileRow))}. Correct the extract or leave those rows out.`,
     );
   }
   if (negWeight.length > 0) {
     const i = negWeight[0];
     throw new InputError(
-      `${table.source}, row ${fileRow(i)}, column '${options.weights}': weight ${wAll![i]}; frequency weights cannot be negative (rows ${firstRows(negWeight.map(fileRow))}).`,
+      `${table.source}, row ${fileRow(i)}, column '${options.weights}': weight ${wAll![i]}; frequency weights cannot be negative${alsoRows(negWeight.map(fileRow))}.`,
     );
   }
 
   let n = 0;
   for (let i = 0; i < N; i++) if (usable[i]) n++;
   const notices: string[] = [];
-  if (missing > 0) notices.push(`${missing} row${missing === 1 ? " has" : "s have"} a missing value in a column the model uses and ${missing === 1 ? "was" : "were"} left out`);
+  if (missing > 0)
+    notices.push(
+      `${missing} row${missing === 1 ? " has" : "s have"} a missing value in a column the model uses (${[...new Set(missingCols)].join(", ")}; rows ${firstRows(missingRows.map(fileRow))}${missing > 3 ? ", …" : ""}) and ${missing === 1 ? "was" : "were"} left out`,
+    );
   if (zeroExp > 0) notices.push(`${zeroExp} row${zeroExp === 1 ? " has" : "s have"} zero exposure and a zero count; ${zeroExp === 1 ? "it carries" : "they carry"} no information and ${zeroExp === 1 ? "was" : "were"} left out`);
   if (zeroW > 0) notices.push(`${zeroW} row${zeroW === 1 ? " has" : "s have"} weight 0 and ${zeroW === 1 ? "was" : "were"} left out`);
   if (n === 0) {

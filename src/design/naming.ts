@@ -51,7 +51,7 @@ export function closestName(name: string, candidates: string[]): string | null {
     if (d < bestD) { bestD = d; best = c; }
   }
   if (best === null) return null;
-  return bestD <= Math.max(2, Math.floor(name.length / 3)) ? best : null;
+  return bestD <= Math.max(1, Math.floor(name.length / 3)) && bestD < name.length ? best : null;
 }
 
 /** "a, b and c" with quoted names, cut after `max`. */

@@ -172,7 +172,10 @@ export function parseTable(input: Uint8Array | string, options: LoadOptions): Ta
       header = record.map((h) => h.trim());
       const seen = new Map<string, number>();
       header.forEach((h, j) => {
-        if (h === "") return;
+        if (h === "")
+          throw new InputError(
+            `${source}, row 1: column ${j + 1} of ${header!.length} has no name${j === header!.length - 1 ? " (a delimiter at the end of the header line?)" : ""}; give every column a name in the header.`,
+          );
         if (seen.has(h))
           throw new InputError(`${source}, row 1: column name '${h}' appears twice (columns ${seen.get(h)! + 1} and ${j + 1}); give every column its own name.`);
         seen.set(h, j);
