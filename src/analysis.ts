@@ -7,6 +7,7 @@ import { dispersionFlagged, runChecks, type CheckResult } from "./infer/check.js
 import { profileAll } from "./infer/intervals.js";
 import { summarizeFit, type FitSummary } from "./infer/summary.js";
 import { termTests } from "./infer/terms.js";
+import { quantileResiduals, rootogram } from "./infer/diagnostics.js";
 
 export interface AnalysisOptions {
   family: FamilyChoice;
@@ -52,7 +53,22 @@ export function analyzeFit(design: Design, o: AnalysisOptions): FitAnalysis {
 
 /** The dispersion and zero-count check of a model. */
 export function analyzeCheck(design: Design, o: { control?: Partial<FitControl>; testLevel: number }): CheckResult {
-  const pois = fitModel(design, { family: "poisson", control: o.control });
-  const nb = fitModel(design, { family: "negbin", control: o.control });
-  return runChecks(design, pois, nb, o.testLevel);
+  return analyzeCheckWithFits(design, o).check;
+}
+
+/** The check together with the Poisson and negative-binomial fits it used. */
+export function analyzeCheckWithFits(design: Design, o: { control?: Partial<FitControl>; testLevel: number }): { check: CheckResult; poisson: ModelFit; negbin: ModelFit } {
+  const poisson = fitModel(design, { family: "poisson", control: o.control });
+  const negbin = fitModel(design, { family: "negbin", control: o.control });
+  return { check: runChecks(design, poisson, negbin, o.testLevel), poisson, negbin };
+}
+
+/** What the diagnostic picture shows, for a fit: rootogram, residuals, fitted means. */
+export function diagnosticsOf(design: Design, mf: ModelFit, seed = 1) {
+  const alpha = mf.family === "negbin" ? mf.fit.alpha : 0;
+  return {
+    rootogram: rootogram(design.y, mf.fit.mu, alpha, design.weights),
+    residuals: quantileResiduals(design.y, mf.fit.mu, alpha, seed),
+    fitted: mf.fit.mu,
+  };
 }

@@ -49,6 +49,7 @@ export const CASES: ErrorCase[] = [
   { mistake: "transformation in the model", content: ok, args: ["--model", "falls ~ log(x)"], code: 2, message: /transformations such as log\(\.\.\.\) are not part of the model string/ },
   { mistake: "missing file", content: ok, file: "__absent__.csv", args: M, code: 2, message: /__absent__\.csv: cannot read the file \(no such file\)/ },
   { mistake: "bad option value", content: ok, args: [...M, "--level", "1.5"], code: 2, message: /--level must be a number between 0 and 1/ },
+  { mistake: "reference level with no events", content: "ward,beds,falls,x\na,100,0,1\nb,100,3,2\na,100,0,3\nb,90,5,1\n", args: M, code: 3, message: /the reference level 'a' of 'ward' has no events in its 2 rows.*--ref ward=b/ },
   { mistake: "IRLS cannot converge", content: ok, args: [...M, "--max-iter", "1"], code: 3, message: /the model could not be fitted: IRLS did not converge in 1 iterations/ },
 ];
 

@@ -18,7 +18,10 @@ import type { Design } from "../design/design.js";
 import { fitModel, type FamilyChoice, type FamilyName } from "../fit/model.js";
 import { compareModels } from "../infer/compare.js";
 import { renderCompareText } from "../report/compare-text.js";
-import { analyzeCheck, analyzeFit } from "../analysis.js";
+import { analyzeCheckWithFits, analyzeFit, diagnosticsOf } from "../analysis.js";
+import { summarizeFit, type FitSummary } from "../infer/summary.js";
+import { renderSvg } from "../report/svg.js";
+import { svgToPng } from "../report/png.js";
 import { renderFitText } from "../report/fit-text.js";
 import { renderCheckText } from "../report/check-text.js";
 import { renderFitCsv, renderFitMarkdown, renderJson } from "../report/fit-tabular.js";
@@ -78,6 +81,7 @@ interface CommonOptions {
   robust?: boolean;
   format: string;
   output?: string;
+  plot?: string;
   delimiter?: string;
   na?: string;
   maxIter: string;
@@ -104,6 +108,7 @@ function addCommonOptions(cmd: Command, multiModel = false): Command {
     .option("--robust", "sandwich (Huber-White) standard errors")
     .addOption(new Option("--format <fmt>", "text, json, csv or markdown").default("text"))
     .option("--output <file>", "write the report to FILE (atomically) instead of stdout")
+    .option("--plot <file>", "diagnostic picture: FILE.svg or FILE.png")
     .option("--delimiter <c>", "field delimiter (default ',' and tab for .tsv)")
     .option("--na <tokens>", "comma-separated missing-value tokens (default: empty, NA, NaN, null, .)")
     .option("--max-iter <n>", "IRLS iteration limit", "50")
@@ -180,6 +185,18 @@ async function emit(opts: CommonOptions, content: string): Promise<void> {
   } else await writeStdout(content);
 }
 
+function plotKind(path: string): "svg" | "png" {
+  if (/\.svg$/i.test(path)) return "svg";
+  if (/\.png$/i.test(path)) return "png";
+  throw new InputError(`--plot takes a file name ending in .svg or .png (got '${path}').`);
+}
+
+async function writePlot(opts: CommonOptions, path: string, title: string, d: ReturnType<typeof diagnosticsOf>, summary: FitSummary): Promise<void> {
+  const svg = renderSvg({ title, rootogram: d.rootogram, fitted: d.fitted, residuals: d.residuals, summary });
+  await writeAtomic(path, plotKind(path) === "svg" ? svg : svgToPng(svg));
+  notice(opts, `picture written to ${path}`);
+}
+
 function parseTestLevel(v: string): number {
   const x = Number(v);
   if (!(x > 0 && x < 1)) throw new InputError(`--alpha is the test level, a number between 0 and 1 such as 0.05 (got '${v}').`);
@@ -197,7 +214,11 @@ async function runFit(file: string | undefined, opts: FitCliOptions): Promise<nu
   const testLevel = parseTestLevel(opts.alpha);
   const per = parsePositive("--per", opts.per);
   const { design, control, table, sha256 } = await loadDesign(file, opts, opts.model[0], opts.summaryBy ? [opts.summaryBy] : []);
+  if (opts.plot) plotKind(opts.plot);
   const { summary, modelFit } = analyzeFit(design, { family, control, level, intervals, robust: !!opts.robust, testLevel });
+  const wide = opts.format === "text" && !opts.output && process.stdout.isTTY && (process.stdout.columns ?? 0) >= 60;
+  const diag = opts.plot || wide ? diagnosticsOf(design, modelFit) : null;
+  if (opts.plot && diag) await writePlot(opts, opts.plot, `${summary.family} fit of ${summary.model}`, diag, summary);
   if (opts.summaryBy)
     summary.summary_by = summarizeGroups(opts.summaryBy, groupLabels(table, opts.summaryBy, design.rowIndex), design.y, modelFit.fit.mu, design.exposure, per, level, naturalCompare);
   if (opts.saveModel) {
@@ -208,7 +229,7 @@ async function runFit(file: string | undefined, opts: FitCliOptions): Promise<nu
   if (opts.format === "json") content = renderJson(summary);
   else if (opts.format === "csv") content = renderFitCsv(summary);
   else if (opts.format === "markdown") content = renderFitMarkdown(summary);
-  else content = renderFitText(summary, { ...textLayout(opts), intervals });
+  else content = renderFitText(summary, { ...textLayout(opts), intervals, rootogram: wide && diag ? diag.rootogram : undefined });
   await emit(opts, content);
   return EXIT.ok;
 }
@@ -219,7 +240,12 @@ async function runCheck(file: string | undefined, opts: CommonOptions & { alpha:
   if (opts.family !== "poisson") throw new InputError("check always tests the Poisson model; leave out --family.");
   const testLevel = parseTestLevel(opts.alpha);
   const { design, control } = await loadDesign(file, opts, opts.model[0]);
-  const check = analyzeCheck(design, { control, testLevel });
+  if (opts.plot) plotKind(opts.plot);
+  const { check, poisson } = analyzeCheckWithFits(design, { control, testLevel });
+  if (opts.plot) {
+    const summary = summarizeFit(design, poisson, { level: parseLevel(opts.level) });
+    await writePlot(opts, opts.plot, `Poisson fit of ${summary.model} (check)`, diagnosticsOf(design, poisson), summary);
+  }
   const content = opts.format === "json" ? renderJson({ schema: check.schema, check }) : renderCheckText(check, textLayout(opts));
   await emit(opts, content);
   return check.flagged ? EXIT.flagged : EXIT.ok;

@@ -5,7 +5,7 @@ import { rename, unlink, writeFile } from "node:fs/promises";
 import { basename, dirname, join } from "node:path";
 import { InputError } from "../errors.js";
 
-export async function writeAtomic(path: string, content: string): Promise<void> {
+export async function writeAtomic(path: string, content: string | Uint8Array): Promise<void> {
   const tmp = join(dirname(path), `.${basename(path)}.tmp-${process.pid}-${randomBytes(4).toString("hex")}`);
   try {
     await writeFile(tmp, content, { flag: "wx" });

@@ -60,9 +60,33 @@ function requireConverged(f: GlmFit): void {
     throw new FitError(`IRLS did not converge in ${f.iterations} iterations (deviance ${f.deviance}); raise --max-iter or --tolerance, or simplify the model.`);
 }
 
+/**
+ * A factor whose reference level has no events makes every rate ratio against
+ * it infinite (the intercept drifts to −∞): say so and name the remedy.
+ */
+function checkReferenceEvents(design: Design): void {
+  if (design.matrix.interceptCol < 0) return;
+  design.model.terms.forEach((t, ti) => {
+    if (t.variables.length !== 1) return;
+    const f = design.factors.find((x) => x.name === t.variables[0]);
+    const slot = design.matrix.slots.find((s) => s.term === ti);
+    if (!f || !slot || slot.cols === null || slot.values !== null) return;
+    let rows = 0, events = 0;
+    for (let i = 0; i < design.n; i++) if (slot.cols[i] < 0) { rows++; events += design.y[i]; }
+    if (rows > 0 && events === 0) {
+      const withEvents = f.levels.filter((l) => l !== f.reference);
+      throw new FitError(
+        `the reference level '${f.reference}' of '${f.name}' has no events in its ${rows} rows, so every rate ratio against it is infinite. ` +
+          `Choose a reference level with events, for example --ref ${f.name}=${withEvents[0]}.`,
+      );
+    }
+  });
+}
+
 /** Fit the model; a fit that does not meet the convergence rule is a FitError (exit 3). */
 export function fitModel(design: Design, options: FitModelOptions): ModelFit {
   const control = { ...DEFAULTS, ...options.control };
+  checkReferenceEvents(design);
   if (options.family === "negbin") {
     const nb = fitNegbin(design.matrix, design, { control });
     requireConverged(nb.fit);

@@ -3,6 +3,8 @@
 import type { CoefficientRow, FitSummary } from "../infer/summary.js";
 import { fixed, groupTable, interval, pEquals, pValue, sig, table, wrap } from "./format.js";
 import type { Style } from "./style.js";
+import type { Rootogram } from "../infer/diagnostics.js";
+import { textRootogram } from "./text-rootogram.js";
 
 const FAMILY_TITLE = { poisson: "Poisson", negbin: "Negative-binomial (NB2)", quasipoisson: "Quasi-Poisson" } as const;
 
@@ -15,6 +17,8 @@ export interface TextOptions {
   style: Style;
   width: number;
   intervals: "wald" | "profile" | "both";
+  /** When given (a wide terminal), a text rootogram follows the dispersion block. */
+  rootogram?: Rootogram;
 }
 
 function pct(level: number): string {
@@ -153,6 +157,11 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
   out.push(st.heading("Dispersion"));
   out.push(...dispersionBlock(s, o));
   out.push("");
+  if (o.rootogram && o.width >= 60) {
+    out.push(st.heading("Counts: observed against the fitted model"));
+    out.push(...textRootogram(o.rootogram, o.width));
+    out.push("");
+  }
 
   if (s.summary_by) {
     out.push(st.heading(`Observed and expected by ${s.summary_by.column} (O/E limits: exact Poisson limits of the observed count, divided by the expected)`));

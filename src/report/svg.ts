@@ -1,0 +1,183 @@
+// A one-page diagnostic picture as SVG, drawn by our own small module: a
+// hanging rootogram, randomized quantile residuals against fitted values (log
+// axis), their normal quantile plot, and a forest plot of rate ratios.
+// Palette: a dark slate for data marks and a burnt orange for model marks,
+// distinct for the common colour-vision deficiencies and apart in lightness,
+// so the page also reads in greyscale.
+import type { FitSummary } from "../infer/summary.js";
+import type { Rootogram } from "../infer/diagnostics.js";
+import { normalQuantile } from "../infer/distributions.js";
+
+const INK = "#22313f";
+const DATA = "#3f6e8c";
+const DATA_LIGHT = "#bcd0dd";
+const MODEL = "#c0591e";
+const GRID = "#e3e6e8";
+const FONT = "DejaVu Sans, Verdana, sans-serif";
+
+export interface PlotInput {
+  title: string;
+  rootogram: Rootogram;
+  fitted: Float64Array;
+  residuals: Float64Array;
+  summary: FitSummary;
+}
+
+function esc(s: string): string {
+  return s.replace(/&/g, "&amp;").replace(/</g, "&lt;").replace(/>/g, "&gt;").replace(/"/g, "&quot;");
+}
+
+const f2 = (x: number) => (Math.round(x * 100) / 100).toString();
+
+interface Box { x: number; y: number; w: number; h: number }
+
+function niceTicks(lo: number, hi: number, n = 5): number[] {
+  if (!Number.isFinite(lo) || !Number.isFinite(hi)) return [];
+  const span = hi - lo || 1;
+  const step0 = Math.pow(10, Math.floor(Math.log10(span / n)));
+  const step = [1, 2, 5, 10].map((m) => m * step0).find((s) => span / s <= n) ?? step0 * 10;
+  const out: number[] = [];
+  for (let t = Math.ceil(lo / step) * step; t <= hi + 1e-9 * span; t += step) out.push(+t.toPrecision(12));
+  return out;
+}
+
+function logTicks(lo: number, hi: number): number[] {
+  if (!(lo > 0) || !Number.isFinite(hi)) return [];
+  for (const ms of [[1, 2, 5], [1, 1.5, 2, 3, 5, 7], [1, 1.2, 1.5, 2, 2.5, 3, 4, 5, 6, 7, 8, 9]]) {
+    const out: number[] = [];
+    for (let e = Math.floor(Math.log10(lo)); e <= Math.ceil(Math.log10(hi)); e++)
+      for (const m of ms) { const v = +(m * Math.pow(10, e)).toPrecision(6); if (v >= lo * 0.999 && v <= hi * 1.001) out.push(v); }
+    if (out.length >= 3) return out;
+  }
+  return niceTicks(lo, hi, 4).filter((v) => v > 0);
+}
+
+function fmtTick(v: number): string {
+  if (v === 0) return "0";
+  const a = Math.abs(v);
+  return a >= 1e4 || a < 1e-3 ? v.toExponential(0) : +v.toPrecision(3) + "";
+}
+
+function panel(b: Box, title: string, xlabel: string, ylabel: string, inner: string): string {
+  return (
+    `<g>` +
+    `<text x="${b.x}" y="${b.y - 14}" font-size="15" font-weight="bold" fill="${INK}">${esc(title)}</text>` +
+    inner +
+    `<rect x="${b.x}" y="${b.y}" width="${b.w}" height="${b.h}" fill="none" stroke="${INK}" stroke-width="1"/>` +
+    `<text x="${b.x + b.w / 2}" y="${b.y + b.h + 38}" font-size="12" text-anchor="middle" fill="${INK}">${esc(xlabel)}</text>` +
+    `<text transform="translate(${b.x - 46},${b.y + b.h / 2}) rotate(-90)" font-size="12" text-anchor="middle" fill="${INK}">${esc(ylabel)}</text>` +
+    `</g>`
+  );
+}
+
+function axisX(b: Box, ticks: number[], sx: (v: number) => number, labels?: (v: number) => string): string {
+  return ticks.map((t) => `<line x1="${f2(sx(t))}" y1="${b.y}" x2="${f2(sx(t))}" y2="${b.y + b.h}" stroke="${GRID}"/><text x="${f2(sx(t))}" y="${b.y + b.h + 16}" font-size="11" text-anchor="middle" fill="${INK}">${esc((labels ?? fmtTick)(t))}</text>`).join("");
+}
+
+function axisY(b: Box, ticks: number[], sy: (v: number) => number): string {
+  return ticks.map((t) => `<line x1="${b.x}" y1="${f2(sy(t))}" x2="${b.x + b.w}" y2="${f2(sy(t))}" stroke="${GRID}"/><text x="${b.x - 6}" y="${f2(sy(t) + 4)}" font-size="11" text-anchor="end" fill="${INK}">${esc(fmtTick(t))}</text>`).join("");
+}
+
+function rootogramPanel(b: Box, r: Rootogram): string {
+  const K = r.counts.length - 1;
+  const se = r.expected.map(Math.sqrt), so = r.observed.map(Math.sqrt);
+  let ymax = 0, ymin = 0;
+  se.forEach((e, k) => { ymax = Math.max(ymax, e, so[k]); ymin = Math.min(ymin, e - so[k]); });
+  ymin = Math.min(ymin, -0.05 * ymax);
+  const pad = 0.05 * (ymax - ymin);
+  const sx = (k: number) => b.x + ((k + 0.5) / (K + 1)) * b.w;
+  const sy = (v: number) => b.y + b.h - ((v - (ymin - pad)) / (ymax + pad - (ymin - pad))) * b.h;
+  const bw = Math.max(1, (b.w / (K + 1)) * 0.8);
+  let s = axisY(b, niceTicks(ymin, ymax), sy) + axisX(b, niceTicks(0, K, 8).filter((t) => Number.isInteger(t)), sx);
+  s += `<line x1="${b.x}" y1="${f2(sy(0))}" x2="${b.x + b.w}" y2="${f2(sy(0))}" stroke="${INK}" stroke-width="1.2"/>`;
+  r.counts.forEach((k) => {
+    const top = se[k], bottom = se[k] - so[k];
+    s += `<rect class="bar" x="${f2(sx(k) - bw / 2)}" y="${f2(sy(top))}" width="${f2(bw)}" height="${f2(Math.max(0, sy(bottom) - sy(top)))}" fill="${DATA_LIGHT}" stroke="${DATA}" stroke-width="0.8"/>`;
+  });
+  s += `<polyline class="curve" fill="none" stroke="${MODEL}" stroke-width="2.2" points="${r.counts.map((k) => `${f2(sx(k))},${f2(sy(se[k]))}`).join(" ")}"/>`;
+  return panel(b, "Hanging rootogram: observed bars hung from the expected curve", "count", "√frequency", s);
+}
+
+function residualPanel(b: Box, fitted: Float64Array, res: Float64Array): string {
+  const pos = [...fitted].filter((v) => v > 0);
+  const lo = Math.min(...pos), hi = Math.max(...pos);
+  const xl = Math.log10(lo) - 0.05, xh = Math.log10(hi) + 0.05;
+  const rmax = Math.max(3.5, ...[...res].map((r) => Math.abs(r)));
+  const sx = (v: number) => b.x + ((Math.log10(v) - xl) / (xh - xl)) * b.w;
+  const sy = (v: number) => b.y + b.h / 2 - (v / (rmax * 1.05)) * (b.h / 2);
+  let s = axisY(b, niceTicks(-rmax, rmax, 6), sy) + axisX(b, logTicks(Math.pow(10, xl), Math.pow(10, xh)), sx);
+  s += `<line x1="${b.x}" y1="${f2(sy(0))}" x2="${b.x + b.w}" y2="${f2(sy(0))}" stroke="${MODEL}" stroke-width="1.5"/>`;
+  for (let i = 0; i < res.length; i++) if (fitted[i] > 0) s += `<circle class="pt" cx="${f2(sx(fitted[i]))}" cy="${f2(sy(res[i]))}" r="2.2" fill="${DATA}" fill-opacity="0.55"/>`;
+  return panel(b, "Randomized quantile residuals", "fitted mean (log scale)", "residual", s);
+}
+
+function qqPanel(b: Box, res: Float64Array): string {
+  const r = [...res].sort((a, c) => a - c);
+  const n = r.length;
+  const th = r.map((_, i) => normalQuantile((i + 0.5) / n));
+  const m = Math.max(3.5, Math.abs(r[0] ?? 0), Math.abs(r[n - 1] ?? 0), Math.abs(th[0] ?? 0));
+  const sx = (v: number) => b.x + ((v + m) / (2 * m)) * b.w;
+  const sy = (v: number) => b.y + b.h - ((v + m) / (2 * m)) * b.h;
+  let s = axisY(b, niceTicks(-m, m), sy) + axisX(b, niceTicks(-m, m), sx);
+  s += `<line x1="${f2(sx(-m))}" y1="${f2(sy(-m))}" x2="${f2(sx(m))}" y2="${f2(sy(m))}" stroke="${MODEL}" stroke-width="1.5"/>`;
+  for (let i = 0; i < n; i++) s += `<circle class="qq" cx="${f2(sx(th[i]))}" cy="${f2(sy(r[i]))}" r="2.2" fill="${DATA}" fill-opacity="0.55"/>`;
+  return panel(b, "Normal quantiles of the residuals", "standard normal quantile", "residual quantile", s);
+}
+
+function forestPanel(b: Box, summary: FitSummary): string {
+  const rows = summary.coefficients.filter((c) => c.kind !== "intercept" && (c.status === "estimated" || c.status === "no_events"));
+  const iv = (c: (typeof rows)[number]) => c.profile ?? c.wald;
+  const vals: number[] = [1];
+  const usable = (v: number | null | undefined): v is number => typeof v === "number" && v > 0 && Number.isFinite(v);
+  for (const c of rows) {
+    if (usable(c.rate_ratio)) vals.push(c.rate_ratio);
+    const i = iv(c);
+    if (usable(i?.[0])) vals.push(i![0]!);
+    if (usable(i?.[1])) vals.push(i![1]!);
+  }
+  const lo = Math.min(...vals) / 1.15, hi = Math.max(...vals) * 1.15;
+  const labelW = 190;
+  const plot: Box = { x: b.x + labelW, y: b.y, w: b.w - labelW, h: b.h };
+  const sx = (v: number) => plot.x + ((Math.log(v) - Math.log(lo)) / (Math.log(hi) - Math.log(lo))) * plot.w;
+  const step = b.h / Math.max(1, rows.length + 1);
+  let s = axisX(plot, logTicks(lo, hi), sx);
+  s += `<line x1="${f2(sx(1))}" y1="${b.y}" x2="${f2(sx(1))}" y2="${b.y + b.h}" stroke="${INK}" stroke-dasharray="4 3"/>`;
+  rows.forEach((c, k) => {
+    const y = b.y + step * (k + 1);
+    s += `<text x="${b.x + labelW - 8}" y="${f2(y + 4)}" font-size="11" text-anchor="end" fill="${INK}">${esc(c.term)}</text>`;
+    const i = iv(c);
+    const l = usable(i?.[0]) ? sx(i![0]!) : plot.x;
+    const h = usable(i?.[1]) ? sx(i![1]!) : plot.x + plot.w;
+    s += `<line class="ci" x1="${f2(l)}" y1="${f2(y)}" x2="${f2(h)}" y2="${f2(y)}" stroke="${DATA}" stroke-width="2"/>`;
+    if (c.status === "estimated" && usable(c.rate_ratio)) s += `<rect class="est" x="${f2(sx(c.rate_ratio) - 4)}" y="${f2(y - 4)}" width="8" height="8" fill="${MODEL}"/>`;
+    else s += `<text x="${f2(l + 4)}" y="${f2(y - 5)}" font-size="10" fill="${INK}">no events</text>`;
+  });
+  const which = summary.coefficients.some((c) => c.profile) ? "profile" : "Wald";
+  const lv = `${+(summary.level * 100).toFixed(2)}%`;
+  return panel(b, `Rate ratios with ${lv} ${which} intervals`, "rate ratio (log scale; dashed line: no difference)", "", s);
+}
+
+export function renderSvg(p: PlotInput): string {
+  const W = 1200, H = 880;
+  const boxes: Box[] = [
+    { x: 80, y: 90, w: 460, h: 300 },
+    { x: 690, y: 90, w: 460, h: 300 },
+    { x: 80, y: 500, w: 460, h: 300 },
+    { x: 690, y: 500, w: 460, h: 300 },
+  ];
+  boxes[3] = { x: 640, y: 500, w: 510, h: 300 };
+  const body =
+    rootogramPanel(boxes[0], p.rootogram) +
+    residualPanel(boxes[1], p.fitted, p.residuals) +
+    qqPanel(boxes[2], p.residuals) +
+    forestPanel(boxes[3], p.summary);
+  return (
+    `<?xml version="1.0" encoding="UTF-8"?>\n` +
+    `<svg xmlns="http://www.w3.org/2000/svg" width="${W}" height="${H}" viewBox="0 0 ${W} ${H}" font-family="${FONT}">` +
+    `<rect width="${W}" height="${H}" fill="#ffffff"/>` +
+    `<text x="80" y="40" font-size="19" font-weight="bold" fill="${INK}">${esc(p.title)}</text>` +
+    body +
+    `<text x="80" y="${H - 18}" font-size="11" fill="${INK}">Observational associations; small counts give wide intervals; local protocols and qualified review decide what is done.</text>` +
+    `</svg>\n`
+  );
+}
