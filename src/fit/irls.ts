@@ -83,13 +83,48 @@ export interface FitSetup {
   rowsAtZero: number;
   /** Slots resolved against this setup, built on first use. */
   compiled?: CompiledSlot[];
-  /** Raw values of fixed columns, built on first use. */
-  fixedValues?: Map<number, Float64Array>;
+  /** Rows grouped by column pattern (null: too many patterns to help). */
+  cells?: CellLayout | null;
+  /** The grouping of a setup this one was derived from: still valid, only positions change. */
+  parentCells?: CellLayout | null;
 }
 
 function compiledOf(m: ModelMatrix, setup: FitSetup): CompiledSlot[] {
   if (!setup.compiled) setup.compiled = compileSlots(m, { inFit: setup.inFit, active: setup.active, q: setup.order.length, center: setup.center, scale: setup.scale });
   return setup.compiled;
+}
+
+/** off += Σ_c value_c · x_c over the fixed columns, one pass per slot that holds any of them. */
+export function addFixedOffset(m: ModelMatrix, fixed: Map<number, number>, off: Float64Array): void {
+  for (const s of m.slots) {
+    let any = false;
+    for (const c of fixed.keys()) if (c >= s.colStart && c < s.colStart + s.colCount) any = true;
+    if (!any) continue;
+    const vals = new Float64Array(s.colCount);
+    for (let j = 0; j < s.colCount; j++) vals[j] = fixed.get(s.colStart + j) ?? 0;
+    for (let i = 0; i < m.n; i++) {
+      const c = s.cols === null ? s.colStart : s.cols[i];
+      if (c < 0) continue;
+      const v = vals[c - s.colStart];
+      if (v !== 0) off[i] += v * (s.values === null ? 1 : s.values[i]);
+    }
+  }
+}
+
+/** Column sums Σ_i x_ic of the given columns, one pass per slot. */
+export function columnSums(m: ModelMatrix, cols: number[]): Map<number, number> {
+  const want = new Set(cols);
+  const out = new Map<number, number>(cols.map((c) => [c, 0]));
+  for (const s of m.slots) {
+    if (![...want].some((c) => c >= s.colStart && c < s.colStart + s.colCount)) continue;
+    const acc = new Float64Array(s.colCount);
+    for (let i = 0; i < m.n; i++) {
+      const c = s.cols === null ? s.colStart : s.cols[i];
+      if (c >= 0) acc[c - s.colStart] += s.values === null ? 1 : s.values[i];
+    }
+    for (let j = 0; j < s.colCount; j++) if (want.has(s.colStart + j)) out.set(s.colStart + j, acc[j]);
+  }
+  return out;
 }
 
 /** Raw values of design column c in every row (0 where the column is absent). */
@@ -193,6 +228,19 @@ export function prepareFit(m: ModelMatrix, data: FitData, fixed?: Map<number, nu
   return { status, inFit, active, order, center, scale, rowsAtZero };
 }
 
+/**
+ * The setup of the same model with more columns held fixed: removing columns
+ * cannot create new aliasing or no-events columns, so only the positions change.
+ */
+export function deriveSetup(setup: FitSetup, fixedCols: number[]): FitSetup {
+  const status = [...setup.status];
+  for (const c of fixedCols) status[c] = "fixed";
+  const active = new Int32Array(status.length).fill(-1);
+  const order: number[] = [];
+  status.forEach((st, c) => { if (st === "estimated") { active[c] = order.length; order.push(c); } });
+  return { status, inFit: setup.inFit, active, order, center: setup.center, scale: setup.scale, rowsAtZero: setup.rowsAtZero, parentCells: setup.cells ?? null };
+}
+
 export interface Layout {
   inFit: Uint8Array;
   active: Int32Array;
@@ -209,6 +257,8 @@ export interface Layout {
 export interface CompiledSlot {
   pos: Int32Array;
   val: Float64Array | null;
+  /** The position when it is the same in every row in the fit (−1 otherwise). */
+  fixed: number;
 }
 
 export function compileSlots(m: ModelMatrix, lay: Layout): CompiledSlot[] {
@@ -230,7 +280,14 @@ export function compileSlots(m: ModelMatrix, lay: Layout): CompiledSlot[] {
       const v = slot.values;
       for (let i = 0; i < n; i++) val[i] = (v[i] - c0) / s0;
     }
-    return { pos, val };
+    // Fixed: one active position in every row in the fit.
+    let fixedPos = slot.cols === null ? fixed : -1;
+    if (fixedPos < 0 && slot.cols !== null) {
+      let f = -2;
+      for (let i = 0; i < n && f !== -1; i++) { if (!lay.inFit[i]) continue; const p = pos[i]; if (f === -2) f = p; else if (p !== f) f = -1; }
+      fixedPos = f >= 0 ? f : -1;
+    }
+    return { pos, val, fixed: fixedPos };
   });
 }
 
@@ -245,55 +302,167 @@ export function crossProducts(m: ModelMatrix, lay: Layout | CompiledSlot[], w: F
   return crossProductsCompiled(cs, m.n, dim, w, z);
 }
 
+/**
+ * Rows grouped by which columns they touch: within a group ("cell") every row
+ * has the same active columns, so X'WX and X'Wz follow from a few weighted sums
+ * per cell (Σw, Σw·v, Σw·v·v' over the numeric slots) accumulated in one pass.
+ * This is the covariate-pattern idea applied to the column pattern only, so it
+ * is exact for any offset and weights.
+ */
+export interface CellLayout {
+  nCells: number;
+  cell: Int32Array;
+  /** nCells × k: the active position of each slot in the cell (−1: none). */
+  cellPos: Int32Array;
+  /** Slots that carry values (numeric, slopes), and their order among them. */
+  numeric: number[];
+  numericIndex: Int32Array;
+  /** A row of each cell. */
+  reps: Int32Array;
+}
+
+export function buildCells(cs: CompiledSlot[], n: number, maxCells: number): CellLayout | null {
+  const k = cs.length;
+  const varying = cs.map((c, s) => (c.fixed < 0 ? s : -1)).filter((s) => s >= 0);
+  let radix = 1;
+  const mult: number[] = [];
+  for (const s of varying) {
+    mult.push(radix);
+    let mx = 0;
+    const p = cs[s].pos;
+    for (let i = 0; i < n; i++) if (p[i] > mx) mx = p[i];
+    radix *= mx + 2;
+    if (radix > 2 ** 52) return null;
+  }
+  const ids = new Map<number, number>();
+  const cell = new Int32Array(n);
+  const reps: number[] = [];
+  const anchor = cs.findIndex((c) => c.fixed >= 0);
+  for (let i = 0; i < n; i++) {
+    if (anchor >= 0 && cs[anchor].pos[i] < 0) { cell[i] = -1; continue; }
+    let key = 0;
+    for (let v = 0; v < varying.length; v++) key += (cs[varying[v]].pos[i] + 1) * mult[v];
+    let id = ids.get(key);
+    if (id === undefined) {
+      id = reps.length;
+      if (id >= maxCells) return null;
+      ids.set(key, id);
+      reps.push(i);
+    }
+    cell[i] = id;
+  }
+  const nCells = reps.length;
+  const cellPos = new Int32Array(nCells * k);
+  reps.forEach((i, c) => { for (let s = 0; s < k; s++) cellPos[c * k + s] = cs[s].pos[i]; });
+  const numeric = cs.map((c, s) => (c.val !== null ? s : -1)).filter((s) => s >= 0);
+  const numericIndex = new Int32Array(k).fill(-1);
+  numeric.forEach((s, m) => (numericIndex[s] = m));
+  return { nCells, cell, cellPos, numeric, numericIndex, reps: Int32Array.from(reps) };
+}
+
+/** A parent's grouping with the positions of a derived setup (same rows per cell). */
+function recellPositions(parent: CellLayout, cs: CompiledSlot[]): CellLayout {
+  const k = cs.length;
+  const cellPos = new Int32Array(parent.nCells * k);
+  for (let c = 0; c < parent.nCells; c++) { const i = parent.reps[c]; for (let s = 0; s < k; s++) cellPos[c * k + s] = cs[s].pos[i]; }
+  return { ...parent, cellPos };
+}
+
+/** X'WX and X'Wz from the cell sums (see CellLayout). */
+export function crossProductsCells(cs: CompiledSlot[], L: CellLayout, n: number, q: number, w: Float64Array, z: Float64Array | null): { a: SymMatrix; b: Float64Array } {
+  const M = L.numeric.length;
+  const MM = (M * (M + 1)) / 2;
+  const C = L.nCells;
+  const s0 = new Float64Array(C), s1 = new Float64Array(C * M), s2 = new Float64Array(C * MM);
+  const z0 = new Float64Array(C), z1 = new Float64Array(C * M);
+  const vals = L.numeric.map((s) => cs[s].val!);
+  const cell = L.cell;
+  const vi = new Float64Array(M);
+  for (let i = 0; i < n; i++) {
+    const c = cell[i];
+    if (c < 0) continue;
+    const wi = w[i];
+    if (wi === 0) continue;
+    s0[c] += wi;
+    const zi = z === null ? 0 : z[i];
+    z0[c] += wi * zi;
+    let t = c * MM;
+    for (let m = 0; m < M; m++) {
+      const v = vals[m][i];
+      vi[m] = v;
+      const wv = wi * v;
+      s1[c * M + m] += wv;
+      z1[c * M + m] += wv * zi;
+      for (let r = 0; r <= m; r++) s2[t++] += wv * vi[r];
+    }
+  }
+  const k = cs.length;
+  const a = new Float64Array(q * q);
+  const b = new Float64Array(q);
+  const pos = new Int32Array(k), num = new Int32Array(k);
+  for (let c = 0; c < C; c++) {
+    let na = 0;
+    for (let s = 0; s < k; s++) {
+      const p = L.cellPos[c * k + s];
+      if (p < 0) continue;
+      pos[na] = p; num[na] = L.numericIndex[s]; na++;
+    }
+    for (let u = 0; u < na; u++) {
+      const mu_ = num[u];
+      b[pos[u]] += mu_ < 0 ? z0[c] : z1[c * M + mu_];
+      for (let v = 0; v <= u; v++) {
+        const mv = num[v];
+        let val: number;
+        if (mu_ < 0 && mv < 0) val = s0[c];
+        else if (mu_ < 0) val = s1[c * M + mv];
+        else if (mv < 0) val = s1[c * M + mu_];
+        else { const hi = Math.max(mu_, mv), lo = Math.min(mu_, mv); val = s2[c * MM + (hi * (hi + 1)) / 2 + lo]; }
+        const r = pos[u], cc = pos[v];
+        if (r >= cc) a[r * q + cc] += val; else a[cc * q + r] += val;
+      }
+    }
+  }
+  for (let r = 0; r < q; r++) for (let c = 0; c < r; c++) a[c * q + r] = a[r * q + c];
+  return { a: { p: q, data: a }, b };
+}
+
+let onesCache = new Float64Array(0);
+function onesOf(n: number): Float64Array {
+  if (onesCache.length !== n) onesCache = new Float64Array(n).fill(1);
+  return onesCache;
+}
+
 export function crossProductsCompiled(cs: CompiledSlot[], n: number, q: number, w: Float64Array, z: Float64Array | null): { a: SymMatrix; b: Float64Array } {
   const a = new Float64Array(q * q);
   const b = new Float64Array(q);
   const k = cs.length;
-  for (let s = 0; s < k; s++) {
-    const ps = cs[s].pos, vs = cs[s].val;
-    if (z !== null) {
-      for (let i = 0; i < n; i++) {
-        const p = ps[i];
-        if (p < 0) continue;
-        b[p] += w[i] * (vs === null ? 1 : vs[i]) * z[i];
-      }
+  const P = cs.map((c) => c.pos);
+  const V = cs.map((c) => c.val ?? onesOf(n));
+  const idx = new Int32Array(k);
+  const val = new Float64Array(k);
+  // Row by row: each array is read once per call, which matters more than
+  // anything else once the rows no longer fit in cache.
+  for (let i = 0; i < n; i++) {
+    const wi = w[i];
+    if (wi === 0) continue;
+    let m = 0;
+    for (let s = 0; s < k; s++) {
+      const p = P[s][i];
+      if (p < 0) continue;
+      idx[m] = p;
+      val[m] = V[s][i];
+      m++;
     }
-    for (let t = 0; t <= s; t++) {
-      const pt = cs[t].pos, vt = cs[t].val;
-      if (vs === null && vt === null) {
-        for (let i = 0; i < n; i++) {
-          const p = ps[i], r = pt[i];
-          if (p < 0 || r < 0) continue;
-          a[p >= r ? p * q + r : r * q + p] += w[i];
-        }
-      } else if (vt === null) {
-        for (let i = 0; i < n; i++) {
-          const p = ps[i], r = pt[i];
-          if (p < 0 || r < 0) continue;
-          a[p >= r ? p * q + r : r * q + p] += w[i] * vs![i];
-        }
-      } else if (vs === null) {
-        for (let i = 0; i < n; i++) {
-          const p = ps[i], r = pt[i];
-          if (p < 0 || r < 0) continue;
-          a[p >= r ? p * q + r : r * q + p] += w[i] * vt[i];
-        }
-      } else {
-        for (let i = 0; i < n; i++) {
-          const p = ps[i], r = pt[i];
-          if (p < 0 || r < 0) continue;
-          a[p >= r ? p * q + r : r * q + p] += w[i] * vs[i] * vt[i];
-        }
-      }
+    const zi = z === null ? 0 : z[i];
+    for (let u = 0; u < m; u++) {
+      const iu = idx[u];
+      const wu = wi * val[u];
+      b[iu] += wu * zi;
+      // Slots are in column order, so idx is increasing: (iu, iv) is in the lower triangle.
+      const row = iu * q;
+      for (let v = 0; v <= u; v++) a[row + idx[v]] += wu * val[v];
     }
   }
-  // Pairs within one slot put a row's value on the diagonal only (one column per row);
-  // pairs across slots may land in either triangle: fold everything to the lower one.
-  for (let r = 0; r < q; r++)
-    for (let c = r + 1; c < q; c++) {
-      a[c * q + r] += a[r * q + c];
-      a[r * q + c] = 0;
-    }
   for (let r = 0; r < q; r++) for (let c = 0; c < r; c++) a[c * q + r] = a[r * q + c];
   return { a: { p: q, data: a }, b };
 }
@@ -308,7 +477,31 @@ function linearPredictor(cs: CompiledSlot[], inFit: Uint8Array, betaS: Float64Ar
   }
 }
 
+function workingValues(n: number, inFit: Uint8Array, mu: Float64Array, eta: Float64Array, off: Float64Array, y: Float64Array, pw: Float64Array | null, alpha: number, w: Float64Array, z: Float64Array): void {
+  for (let i = 0; i < n; i++) {
+    if (!inFit[i]) { w[i] = 0; z[i] = 0; continue; }
+    const m = mu[i];
+    const wi = alpha === 0 ? m : m / (1 + alpha * m);
+    w[i] = pw === null ? wi : pw[i] * wi;
+    z[i] = eta[i] - off[i] + (y[i] - m) / m;
+  }
+}
+
+function expInto(eta: Float64Array, inFit: Uint8Array, mu: Float64Array): void {
+  for (let i = 0; i < eta.length; i++) mu[i] = inFit[i] ? Math.exp(eta[i]) : 0;
+}
+
 function totalDeviance(y: Float64Array, mu: Float64Array, pw: Float64Array | null, inFit: Uint8Array, alpha: number): number {
+  if (alpha === 0 && pw === null) {
+    // Poisson unit deviance 2[y log(y/mu) − (y − mu)], inlined.
+    let d = 0;
+    for (let i = 0; i < y.length; i++) {
+      if (!inFit[i]) continue;
+      const yi = y[i], m = mu[i];
+      d += (yi > 0 ? yi * Math.log(yi / m) : 0) - (yi - m);
+    }
+    return 2 * d;
+  }
   let d = 0;
   for (let i = 0; i < y.length; i++) if (inFit[i]) d += (pw ? pw[i] : 1) * unitDeviance(y[i], mu[i], alpha);
   return d;
@@ -338,15 +531,13 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
   const n = m.n;
 
   const off = new Float64Array(data.offset);
-  if (options.fixed)
-    for (const [c, v] of options.fixed) {
-      setup.fixedValues ??= new Map();
-      let x = setup.fixedValues.get(c);
-      if (!x) { x = columnValues(m, c); setup.fixedValues.set(c, x); }
-      for (let i = 0; i < n; i++) off[i] += v * x[i];
-    }
+  if (options.fixed) addFixedOffset(m, options.fixed, off);
 
   const cs = compiledOf(m, setup);
+  if (setup.cells === undefined)
+    setup.cells = setup.parentCells ? recellPositions(setup.parentCells, cs) : setup.parentCells === null ? null : buildCells(cs, n, Math.max(64, Math.floor(n / 8)));
+  const cells = setup.cells;
+  const xprod = (w_: Float64Array, z_: Float64Array | null) => (cells ? crossProductsCells(cs, cells, n, q, w_, z_) : crossProductsCompiled(cs, n, q, w_, z_));
   const eta = new Float64Array(n);
   const mu = new Float64Array(n);
   let betaS: Float64Array = new Float64Array(q);
@@ -392,17 +583,22 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
 
   while (iter < control.maxIter) {
     iter++;
-    for (let i = 0; i < n; i++) {
-      if (!inFit[i]) { w[i] = 0; continue; }
-      const m_ = mu[i];
-      // Working weight mu/V(mu) (log link: dmu/deta = mu) and working response.
-      w[i] = (pw ? pw[i] : 1) * m_ / (1 + alpha * m_);
-      z[i] = eta[i] - off[i] + (y[i] - m_) / m_;
-    }
-    const { a, b } = crossProductsCompiled(cs, n, q, w, z);
+    // Working weight mu/V(mu) (log link: dmu/deta = mu) and working response.
+    workingValues(n, inFit, mu, eta, off, y, pw, alpha, w, z);
+    const { a, b } = xprod(w, z);
     const l = cholesky(a);
     if (l === null) throw new FitError(`the weighted cross-product matrix is not positive definite at IRLS iteration ${iter}; the model cannot be fitted on these rows.`);
     let cand: Float64Array = choleskySolve(l, q, b);
+    if (!cand.every(Number.isFinite)) {
+      // A start so far off that the working response overflows: begin again from the data.
+      if (options.start && iter <= 2) {
+        haveBeta = false;
+        for (let i = 0; i < n; i++) if (inFit[i]) { mu[i] = y[i] + 0.1; eta[i] = Math.log(mu[i]); }
+        devOld = totalDeviance(y, mu, pw, inFit, alpha);
+        continue;
+      }
+      throw new FitError(`the IRLS step is not finite at iteration ${iter}; the fitted means overflow. Check for extreme exposures or covariate values.`);
+    }
     // Newton decrement: the deviance change this step predicts, Δᵀ(X'WX)Δ.
     let predicted = NaN;
     if (options.stopOnPredicted && haveBeta) {
@@ -415,7 +611,7 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
       }
     }
     linearPredictor(cs, inFit, cand, off, newEta);
-    for (let i = 0; i < n; i++) newMu[i] = inFit[i] ? Math.exp(newEta[i]) : 0;
+    expInto(newEta, inFit, newMu);
     dev = totalDeviance(y, newMu, pw, inFit, alpha);
     let halvings = 0;
     while ((!Number.isFinite(dev) || (haveBeta && dev > devOld * (1 + 1e-12) + 1e-12)) && halvings < 40) {
@@ -425,7 +621,7 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
       for (let k = 0; k < q; k++) half[k] = 0.5 * (cand[k] + betaS[k]);
       cand = half;
       linearPredictor(cs, inFit, cand, off, newEta);
-      for (let i = 0; i < n; i++) newMu[i] = inFit[i] ? Math.exp(newEta[i]) : 0;
+      expInto(newEta, inFit, newMu);
       dev = totalDeviance(y, newMu, pw, inFit, alpha);
     }
     if (!Number.isFinite(dev))
@@ -447,7 +643,7 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
   let covariance = covS;
   if (!options.skipCovariance) {
     for (let i = 0; i < n; i++) w[i] = inFit[i] ? (pw ? pw[i] : 1) * mu[i] / (1 + alpha * mu[i]) : 0;
-    const { a } = crossProductsCompiled(cs, n, q, w, null);
+    const { a } = xprod(w, null);
     const l = cholesky(a);
     if (l === null) throw new FitError("the information matrix at the estimate is singular; the model cannot be fitted on these rows.");
     covS = choleskyInverse(l, q);

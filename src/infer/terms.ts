@@ -6,7 +6,7 @@
 // not tested on its own (marginality): with treatment coding such a test
 // would depend on the reference levels.
 import type { Design } from "../design/design.js";
-import { fitGlm } from "../fit/irls.js";
+import { columnSums, deriveSetup, fitGlm } from "../fit/irls.js";
 import type { ModelFit } from "../fit/model.js";
 import { fitNegbin } from "../fit/negbin.js";
 import { chiSquareUpperTail, fUpperTail } from "./distributions.js";
@@ -31,6 +31,8 @@ export function termTests(design: Design, mf: ModelFit): TermTest[] {
   const full = fitStatistics(design, mf.fit);
   const phi = full.df > 0 ? full.pearson / full.df : NaN;
   const llFull = mf.negbin && !mf.negbin.boundary ? mf.negbin.logLik : full.logLik;
+  // Centring stays valid while the intercept is free, which term tests never change.
+  const canDerive = true;
   return terms.map((t, ti) => {
     const label = design.termLabels[ti];
     const test = quasi ? ("F" as const) : ("LR chi-square" as const);
@@ -41,15 +43,35 @@ export function termTests(design: Design, mf: ModelFit): TermTest[] {
     const fixed = new Map(cols.map((c) => [c, 0]));
     let stat: number, p: number;
     if (mf.family === "negbin" && mf.negbin && !mf.negbin.boundary) {
-      const nb = fitNegbin(design.matrix, design, { control: mf.control, fixed, startAlpha: mf.negbin.alpha });
+      const start = warmStart(design, mf, cols);
+      const nb = fitNegbin(design.matrix, design, { control: mf.control, fixed, startAlpha: mf.negbin.alpha, start });
       stat = Math.max(0, 2 * (llFull - nb.logLik));
       p = chiSquareUpperTail(stat, cols.length);
     } else {
-      const r = fitGlm(design.matrix, design, { control: mf.control, fixed, skipCovariance: true });
+      const start = warmStart(design, mf, cols);
+      const setup = canDerive ? deriveSetup(mf.fit.setup, cols) : undefined;
+      const r = fitGlm(design.matrix, design, { control: mf.control, fixed, skipCovariance: true, start, stopOnPredicted: true, setup });
       const dd = Math.max(0, r.deviance - mf.fit.deviance);
       if (quasi) { stat = dd / cols.length / phi; p = fUpperTail(stat, cols.length, full.df); }
       else { stat = dd; p = chiSquareUpperTail(stat, cols.length); }
     }
     return { term: label, df: cols.length, statistic: stat, p_value: p, test, note: null };
   });
+}
+
+/**
+ * Warm start for a model without some columns: the full estimates with those
+ * columns at 0 and the intercept moved by Σ β_c·mean(x_c), so the fitted means
+ * keep their overall level (an uncentred covariate would otherwise shift them by
+ * orders of magnitude).
+ */
+function warmStart(design: Design, mf: ModelFit, cols: number[]): Float64Array {
+  const start = new Float64Array(mf.fit.beta);
+  const ic = design.matrix.interceptCol;
+  const sums = columnSums(design.matrix, cols);
+  for (const c of cols) {
+    if (ic >= 0 && Number.isFinite(start[c])) start[ic] += start[c] * (sums.get(c)! / design.n);
+    start[c] = 0;
+  }
+  return start;
 }

@@ -1,0 +1,306 @@
+// A byte-level RFC 4180 reader that builds typed columns as it goes, chunk by
+// chunk, without creating a string per field: numbers are parsed from the
+// bytes (exactly: digits/10^k is correctly rounded while both fit in 2^53,
+// otherwise the field falls back to Number()), factor levels are looked up by
+// a hash of their bytes. csv-parse remains the reference implementation in the
+// tests (test/io-tokenizer.test.ts compares the two on awkward files).
+import { InputError } from "../errors.js";
+import type { Column, Table } from "./table.js";
+import { firstInvalidUtf8, parseDecimal, showDelimiter } from "./csv.js";
+
+const QUOTE = 0x22, LF = 0x0a, CR = 0x0d;
+const POW10 = Array.from({ length: 23 }, (_, k) => Math.pow(10, k));
+
+interface Builder {
+  name: string;
+  keep: boolean;
+  forced: boolean;
+  numeric: boolean;
+  values: Float64Array;
+  codes: Int32Array;
+  levels: string[];
+  /** Level lookup: hash of the bytes → codes with that hash. */
+  byHash: Map<number, number[]>;
+  levelBytes: Uint8Array[];
+  firstText: { row: number; value: string } | null;
+}
+
+export interface StreamOptions {
+  source: string;
+  delimiter: number;
+  na: Set<string>;
+  factors: Set<string>;
+  select: Set<string> | null;
+}
+
+function grow<T extends Float64Array | Int32Array>(a: T, need: number): T {
+  if (need <= a.length) return a;
+  const next = new (a.constructor as { new (n: number): T })(Math.max(need, a.length * 2));
+  next.set(a);
+  return next;
+}
+
+/** Incremental reader: feed() chunks of bytes, then finish(). */
+export class ColumnReader {
+  private header: string[] | null = null;
+  private builders: Builder[] = [];
+  private nRows = 0;
+  private line = 1;
+  private carry: Uint8Array | null = null;
+  private naBytes: Uint8Array[];
+  private fieldStart: number[] = [];
+  private fieldEnd: number[] = [];
+  private fieldQuoted: boolean[] = [];
+  private decoder = new TextDecoder("utf-8");
+  /** Bytes at the start of the carried tail already checked as UTF-8. */
+  private validated = 0;
+  bytesRead = 0;
+
+  constructor(private o: StreamOptions) {
+    this.naBytes = [...o.na].map((s) => new TextEncoder().encode(s));
+  }
+
+  get rows(): number {
+    return this.nRows;
+  }
+
+  /** Process every complete record in chunk (plus any carried bytes); keep the incomplete tail. */
+  feed(chunk: Uint8Array, last = false): void {
+    this.bytesRead += chunk.length;
+    let buf: Uint8Array;
+    if (this.carry && this.carry.length) {
+      buf = new Uint8Array(this.carry.length + chunk.length);
+      buf.set(this.carry);
+      buf.set(chunk, this.carry.length);
+    } else buf = chunk;
+    if (this.header === null && this.bytesRead === chunk.length && buf[0] === 0xef && buf[1] === 0xbb && buf[2] === 0xbf) buf = buf.subarray(3);
+    // Validate UTF-8 up to the last line break (a multi-byte character never spans one).
+    let upto = buf.length;
+    if (!last) { upto = buf.lastIndexOf(LF) + 1; }
+    const bad = firstInvalidUtf8(buf.subarray(this.validated, upto));
+    if (bad >= 0) {
+      const at = this.validated + bad;
+      let line = this.line;
+      for (let k = 0; k < at; k++) if (buf[k] === LF) line++;
+      throw new InputError(
+        `${this.o.source}, line ${line}: the file is not valid UTF-8 (byte 0x${buf[at].toString(16).padStart(2, "0")} at offset ${this.bytesRead - chunk.length - (this.carry?.length ?? 0) + at}). Save it as UTF-8 (for example with iconv -f latin1 -t utf-8) and run again.`,
+      );
+    }
+    const consumed = this.records(buf, last);
+    this.validated = Math.max(0, upto - consumed);
+    this.carry = consumed < buf.length ? buf.slice(consumed) : null;
+  }
+
+  /** Tokenize records in buf; returns the offset after the last complete record. */
+  private records(b: Uint8Array, last: boolean): number {
+    const d = this.o.delimiter;
+    const n = b.length;
+    let pos = 0;
+    const fs = this.fieldStart, fe = this.fieldEnd, fq = this.fieldQuoted;
+    while (pos < n) {
+      const recStart = pos;
+      const recLine = this.line;
+      let nf = 0;
+      let p = pos;
+      let complete = false;
+      for (;;) {
+        // One field.
+        if (p < n && b[p] === QUOTE) {
+          let q = p + 1;
+          let closed = false;
+          while (q < n) {
+            if (b[q] === QUOTE) {
+              if (q + 1 < n && b[q + 1] === QUOTE) { q += 2; continue; }
+              if (q + 1 >= n && !last) break; // need more bytes to know
+              closed = true;
+              break;
+            }
+            if (b[q] === LF) this.line++;
+            q++;
+          }
+          if (!closed) {
+            if (!last) { this.line = recLine; return recStart; }
+            throw new InputError(`${this.o.source}, line ${recLine}: a quoted field is never closed (an opening " without its closing "). Close the quote or remove it.`);
+          }
+          fs[nf] = p + 1; fe[nf] = q; fq[nf] = true; nf++;
+          p = q + 1;
+          if (p < n && b[p] !== d && b[p] !== LF && b[p] !== CR)
+            throw new InputError(`${this.o.source}, line ${this.line}: text follows a closing quote. Double any quote inside a quoted field ("").`);
+        } else {
+          let q = p;
+          while (q < n) {
+            const c = b[q];
+            if (c === d || c === LF || c === CR) break;
+            if (c === QUOTE) throw new InputError(`${this.o.source}, line ${this.line}: a quote sits inside an unquoted field. Quote the whole field and double the quote ("").`);
+            q++;
+          }
+          fs[nf] = p; fe[nf] = q; fq[nf] = false; nf++;
+          p = q;
+        }
+        if (p >= n) {
+          if (!last) { this.line = recLine; return recStart; }
+          complete = true;
+          break;
+        }
+        const c = b[p];
+        if (c === d) { p++; continue; }
+        if (c === CR) { if (p + 1 >= n && !last) { this.line = recLine; return recStart; } p++; if (p < n && b[p] === LF) p++; }
+        else p++; // LF
+        complete = true;
+        break;
+      }
+      if (!complete) break;
+      const blank = nf === 1 && fe[0] === fs[0] && !fq[0];
+      if (!blank) this.record(b, nf, recLine);
+      this.line = recLine + 1 + (this.line - recLine);
+      pos = p;
+      if (p >= n) break;
+    }
+    return n;
+  }
+
+  private text(b: Uint8Array, s: number, e: number, quoted: boolean): string {
+    const t = this.decoder.decode(b.subarray(s, e));
+    return quoted ? t.replace(/""/g, '"') : t;
+  }
+
+  private record(b: Uint8Array, nf: number, line: number): void {
+    const fs = this.fieldStart, fe = this.fieldEnd, fq = this.fieldQuoted;
+    if (this.header === null) {
+      const header: string[] = [];
+      for (let j = 0; j < nf; j++) header.push(this.text(b, fs[j], fe[j], fq[j]).trim());
+      this.header = header;
+      const seen = new Map<string, number>();
+      header.forEach((h, j) => {
+        if (h === "") throw new InputError(`${this.o.source}, row 1: column ${j + 1} of ${header.length} has no name${j === header.length - 1 ? " (a delimiter at the end of the header line?)" : ""}; give every column a name in the header.`);
+        if (seen.has(h)) throw new InputError(`${this.o.source}, row 1: column name '${h}' appears twice (columns ${seen.get(h)! + 1} and ${j + 1}); give every column its own name.`);
+        seen.set(h, j);
+      });
+      this.builders = header.map((h) => {
+        const keep = this.o.select === null || this.o.select.has(h);
+        const forced = this.o.factors.has(h);
+        return { name: h, keep, forced, numeric: !forced, values: new Float64Array(keep ? 1024 : 0), codes: new Int32Array(keep && forced ? 1024 : 0), levels: [], byHash: new Map(), levelBytes: [], firstText: null };
+      });
+      return;
+    }
+    const hdr = this.header;
+    const row = this.nRows + 2;
+    if (nf !== hdr.length)
+      throw new InputError(`${this.o.source}, row ${row} (line ${line}): ${nf} fields where the header has ${hdr.length}. Check for an unquoted ${showDelimiter(String.fromCharCode(this.o.delimiter))} inside a value, or a missing field.`);
+    const i = this.nRows;
+    for (let j = 0; j < nf; j++) {
+      const bd = this.builders[j];
+      if (!bd.keep) continue;
+      let s = fs[j], e = fe[j];
+      // Trim spaces and tabs.
+      while (s < e && (b[s] === 0x20 || b[s] === 0x09)) s++;
+      while (e > s && (b[e - 1] === 0x20 || b[e - 1] === 0x09)) e--;
+      const missing = this.isNa(b, s, e);
+      if (bd.numeric) {
+        if (bd.values.length <= i) bd.values = grow(bd.values, i + 1);
+        if (missing) { bd.values[i] = NaN; continue; }
+        const v = fq[j] ? parseDecimal(this.text(b, s, e, true).trim()) : this.number(b, s, e);
+        if (!Number.isNaN(v)) { bd.values[i] = v; continue; }
+        bd.firstText = { row, value: this.text(b, s, e, fq[j]) };
+        this.demote(bd, i);
+      }
+      if (bd.codes.length <= i) bd.codes = grow(bd.codes, i + 1);
+      bd.codes[i] = missing ? -1 : fq[j] ? this.codeOfString(bd, this.text(b, s, e, true).trim()) : this.codeOfBytes(bd, b, s, e);
+    }
+    this.nRows++;
+  }
+
+  private isNa(b: Uint8Array, s: number, e: number): boolean {
+    const len = e - s;
+    for (const t of this.naBytes) {
+      if (t.length !== len) continue;
+      let k = 0;
+      while (k < len && t[k] === b[s + k]) k++;
+      if (k === len) return true;
+    }
+    return false;
+  }
+
+  /** A finite decimal from bytes, or NaN. Plain digits with an optional fraction are parsed exactly here. */
+  private number(b: Uint8Array, s: number, e: number): number {
+    if (s >= e) return NaN;
+    let p = s, neg = false;
+    if (b[p] === 0x2d || b[p] === 0x2b) { neg = b[p] === 0x2d; p++; }
+    let m = 0, digits = 0, frac = 0, seenDot = false, any = false;
+    for (; p < e; p++) {
+      const c = b[p];
+      if (c >= 0x30 && c <= 0x39) {
+        any = true;
+        if (m === 0 && c === 0x30 && !seenDot) continue;
+        m = m * 10 + (c - 0x30); digits++;
+        if (seenDot) frac++;
+      } else if (c === 0x2e && !seenDot) seenDot = true;
+      else break;
+    }
+    if (p === e && any && digits <= 15 && frac <= 22) {
+      const v = frac ? m / POW10[frac] : m;
+      return neg ? -v : v;
+    }
+    // Exponents, long mantissas and anything unusual: the general (exact) path.
+    let str = "";
+    for (let k = s; k < e; k++) str += String.fromCharCode(b[k]);
+    return parseDecimal(str);
+  }
+
+  private codeOfBytes(bd: Builder, b: Uint8Array, s: number, e: number): number {
+    let h = 0x811c9dc5;
+    for (let k = s; k < e; k++) h = Math.imul(h ^ b[k], 0x01000193);
+    const list = bd.byHash.get(h);
+    if (list)
+      for (const code of list) {
+        const lb = bd.levelBytes[code];
+        if (lb.length !== e - s) continue;
+        let k = 0;
+        while (k < lb.length && lb[k] === b[s + k]) k++;
+        if (k === lb.length) return code;
+      }
+    const code = bd.levels.length;
+    bd.levels.push(this.decoder.decode(b.subarray(s, e)));
+    bd.levelBytes.push(b.slice(s, e));
+    if (list) list.push(code); else bd.byHash.set(h, [code]);
+    return code;
+  }
+
+  private codeOfString(bd: Builder, t: string): number {
+    const bytes = new TextEncoder().encode(t);
+    return this.codeOfBytes(bd, bytes, 0, bytes.length);
+  }
+
+  private demote(bd: Builder, upto: number): void {
+    bd.numeric = false;
+    bd.codes = new Int32Array(Math.max(16, bd.values.length));
+    for (let i = 0; i < upto; i++) {
+      const v = bd.values[i];
+      bd.codes[i] = Number.isNaN(v) ? -1 : this.codeOfString(bd, String(v));
+    }
+  }
+
+  finish(): Table {
+    if (this.carry && this.carry.length) {
+      const rest = this.carry;
+      this.carry = null;
+      this.bytesRead -= rest.length;
+      this.feed(rest, true);
+    }
+    const source = this.o.source;
+    if (this.header === null) throw new InputError(`${source}: the file is empty; expected a header row and at least one data row.`);
+    if (this.nRows === 0) throw new InputError(`${source}: the file has a header row but no data rows.`);
+    const n = this.nRows;
+    const columns = new Map<string, Column>();
+    for (const bd of this.builders) {
+      if (!bd.keep) continue;
+      if (bd.numeric) columns.set(bd.name, { kind: "numeric", name: bd.name, values: bd.values.length === n ? bd.values : bd.values.slice(0, n) });
+      else
+        columns.set(bd.name, {
+          kind: "factor", name: bd.name, codes: bd.codes.slice(0, n), levels: bd.levels,
+          reason: bd.forced ? { forced: true } : { forced: false, row: bd.firstText!.row, value: bd.firstText!.value },
+        });
+    }
+    return { source, header: this.header, nRows: n, columns, delimiter: String.fromCharCode(this.o.delimiter) };
+  }
+}
