@@ -87,6 +87,8 @@ export interface FitSetup {
   cells?: CellLayout | null;
   /** The grouping of a setup this one was derived from: still valid, only positions change. */
   parentCells?: CellLayout | null;
+  /** Scaled values of each slot (null: an indicator), shared by derived setups. */
+  slotValues?: (Float64Array | null)[];
 }
 
 function compiledOf(m: ModelMatrix, setup: FitSetup): CompiledSlot[] {
@@ -218,14 +220,17 @@ export function prepareFit(m: ModelMatrix, data: FitData, fixed?: Map<number, nu
   const candPos = new Int32Array(p).fill(-1);
   cand.forEach((c, k) => (candPos[c] = k));
   const ones = new Float64Array(n).fill(1);
-  const gram = crossProducts(m, { inFit, active: candPos, q: cand.length, center, scale }, pw ?? ones, null);
+  const csCand = compileSlots(m, { inFit, active: candPos, q: cand.length, center, scale });
+  const cellsCand = buildCells(csCand, n, Math.max(64, Math.floor(n / 8)), inFit);
+  const slotValues = csCand.map((c) => c.val);
+  const gram = cellsCand ? crossProductsCells(slotValues, cellsCand, n, cand.length, pw ?? ones, null) : crossProductsCompiled(csCand, n, cand.length, pw ?? ones, null);
   const keep = screenRank(gram.a);
   cand.forEach((c, k) => { if (!keep[k]) status[c] = "aliased"; });
 
   const active = new Int32Array(p).fill(-1);
   const order: number[] = [];
   for (let c = 0; c < p; c++) if (status[c] === "estimated") { active[c] = order.length; order.push(c); }
-  return { status, inFit, active, order, center, scale, rowsAtZero };
+  return { status, inFit, active, order, center, scale, rowsAtZero, parentCells: cellsCand, slotValues };
 }
 
 /**
@@ -238,7 +243,7 @@ export function deriveSetup(setup: FitSetup, fixedCols: number[]): FitSetup {
   const active = new Int32Array(status.length).fill(-1);
   const order: number[] = [];
   status.forEach((st, c) => { if (st === "estimated") { active[c] = order.length; order.push(c); } });
-  return { status, inFit: setup.inFit, active, order, center: setup.center, scale: setup.scale, rowsAtZero: setup.rowsAtZero, parentCells: setup.cells ?? null };
+  return { status, inFit: setup.inFit, active, order, center: setup.center, scale: setup.scale, rowsAtZero: setup.rowsAtZero, parentCells: setup.cells ?? setup.parentCells ?? null, slotValues: setup.slotValues };
 }
 
 export interface Layout {
@@ -321,7 +326,7 @@ export interface CellLayout {
   reps: Int32Array;
 }
 
-export function buildCells(cs: CompiledSlot[], n: number, maxCells: number): CellLayout | null {
+export function buildCells(cs: CompiledSlot[], n: number, maxCells: number, inFit: Uint8Array): CellLayout | null {
   const k = cs.length;
   const varying = cs.map((c, s) => (c.fixed < 0 ? s : -1)).filter((s) => s >= 0);
   let radix = 1;
@@ -337,9 +342,8 @@ export function buildCells(cs: CompiledSlot[], n: number, maxCells: number): Cel
   const ids = new Map<number, number>();
   const cell = new Int32Array(n);
   const reps: number[] = [];
-  const anchor = cs.findIndex((c) => c.fixed >= 0);
   for (let i = 0; i < n; i++) {
-    if (anchor >= 0 && cs[anchor].pos[i] < 0) { cell[i] = -1; continue; }
+    if (!inFit[i]) { cell[i] = -1; continue; }
     let key = 0;
     for (let v = 0; v < varying.length; v++) key += (cs[varying[v]].pos[i] + 1) * mult[v];
     let id = ids.get(key);
@@ -361,21 +365,44 @@ export function buildCells(cs: CompiledSlot[], n: number, maxCells: number): Cel
 }
 
 /** A parent's grouping with the positions of a derived setup (same rows per cell). */
-function recellPositions(parent: CellLayout, cs: CompiledSlot[]): CellLayout {
-  const k = cs.length;
+function recellPositions(m: ModelMatrix, parent: CellLayout, active: Int32Array): CellLayout {
+  const k = m.slots.length;
   const cellPos = new Int32Array(parent.nCells * k);
-  for (let c = 0; c < parent.nCells; c++) { const i = parent.reps[c]; for (let s = 0; s < k; s++) cellPos[c * k + s] = cs[s].pos[i]; }
+  for (let c = 0; c < parent.nCells; c++) {
+    const i = parent.reps[c];
+    m.slots.forEach((slot, s) => {
+      const col = slot.cols === null ? slot.colStart : slot.cols[i];
+      cellPos[c * k + s] = col < 0 ? -1 : active[col];
+    });
+  }
   return { ...parent, cellPos };
 }
 
+/** eta = offset + X·beta' from the cells: a constant per cell plus the numeric slots. */
+function linearPredictorCells(L: CellLayout, slotVals: (Float64Array | null)[], betaS: Float64Array, off: Float64Array, eta: Float64Array): void {
+  const k = slotVals.length;
+  const cst = new Float64Array(L.nCells);
+  for (let c = 0; c < L.nCells; c++)
+    for (let s = 0; s < k; s++) { const p = L.cellPos[c * k + s]; if (p >= 0 && slotVals[s] === null) cst[c] += betaS[p]; }
+  for (let i = 0; i < off.length; i++) { const c = L.cell[i]; eta[i] = c < 0 ? -Infinity : off[i] + cst[c]; }
+  for (const s of L.numeric) {
+    const v = slotVals[s]!;
+    const coef = new Float64Array(L.nCells);
+    let any = false;
+    for (let c = 0; c < L.nCells; c++) { const p = L.cellPos[c * k + s]; coef[c] = p >= 0 ? betaS[p] : 0; if (p >= 0) any = true; }
+    if (!any) continue;
+    for (let i = 0; i < off.length; i++) { const c = L.cell[i]; if (c >= 0) eta[i] += coef[c] * v[i]; }
+  }
+}
+
 /** X'WX and X'Wz from the cell sums (see CellLayout). */
-export function crossProductsCells(cs: CompiledSlot[], L: CellLayout, n: number, q: number, w: Float64Array, z: Float64Array | null): { a: SymMatrix; b: Float64Array } {
+export function crossProductsCells(slotVals: (Float64Array | null)[], L: CellLayout, n: number, q: number, w: Float64Array, z: Float64Array | null): { a: SymMatrix; b: Float64Array } {
   const M = L.numeric.length;
   const MM = (M * (M + 1)) / 2;
   const C = L.nCells;
   const s0 = new Float64Array(C), s1 = new Float64Array(C * M), s2 = new Float64Array(C * MM);
   const z0 = new Float64Array(C), z1 = new Float64Array(C * M);
-  const vals = L.numeric.map((s) => cs[s].val!);
+  const vals = L.numeric.map((s) => slotVals[s]!);
   const cell = L.cell;
   const vi = new Float64Array(M);
   for (let i = 0; i < n; i++) {
@@ -396,7 +423,7 @@ export function crossProductsCells(cs: CompiledSlot[], L: CellLayout, n: number,
       for (let r = 0; r <= m; r++) s2[t++] += wv * vi[r];
     }
   }
-  const k = cs.length;
+  const k = slotVals.length;
   const a = new Float64Array(q * q);
   const b = new Float64Array(q);
   const pos = new Int32Array(k), num = new Int32Array(k);
@@ -491,18 +518,50 @@ function expInto(eta: Float64Array, inFit: Uint8Array, mu: Float64Array): void {
   for (let i = 0; i < eta.length; i++) mu[i] = inFit[i] ? Math.exp(eta[i]) : 0;
 }
 
-function totalDeviance(y: Float64Array, mu: Float64Array, pw: Float64Array | null, inFit: Uint8Array, alpha: number): number {
-  if (alpha === 0 && pw === null) {
-    // Poisson unit deviance 2[y log(y/mu) − (y − mu)], inlined.
-    let d = 0;
-    for (let i = 0; i < y.length; i++) {
-      if (!inFit[i]) continue;
-      const yi = y[i], m = mu[i];
-      d += (yi > 0 ? yi * Math.log(yi / m) : 0) - (yi - m);
+/** y-only parts of the unit deviance, tabulated by count (null when counts are too large to tabulate). */
+interface DevianceTable { ylogy: Float64Array; nb: Float64Array | null; alpha: number }
+
+function devianceTable(y: Float64Array, alpha: number): DevianceTable | null {
+  let top = 0;
+  for (let i = 0; i < y.length; i++) if (y[i] > top) top = y[i];
+  if (top > 1 << 20) return null;
+  const ylogy = new Float64Array(top + 1);
+  for (let k = 1; k <= top; k++) ylogy[k] = k * Math.log(k);
+  let nb: Float64Array | null = null;
+  if (alpha > 0) {
+    const r = 1 / alpha;
+    nb = new Float64Array(top + 1);
+    for (let k = 0; k <= top; k++) nb[k] = (k + r) * Math.log1p(alpha * k);
+  }
+  return { ylogy, nb, alpha };
+}
+
+/**
+ * Total deviance Σ w·d(y, mu), using log mu = eta: Poisson 2[y log y − y·eta − (y − mu)],
+ * NB2 2[y log y − y·eta − (y + r){log(1 + alpha·y) − log(1 + alpha·mu)}].
+ */
+function totalDeviance(y: Float64Array, mu: Float64Array, eta: Float64Array, pw: Float64Array | null, inFit: Uint8Array, alpha: number, tab: DevianceTable | null): number {
+  let d = 0;
+  if (tab) {
+    const yl = tab.ylogy;
+    if (alpha === 0) {
+      for (let i = 0; i < y.length; i++) {
+        if (!inFit[i]) continue;
+        const yi = y[i], m = mu[i];
+        const u = yl[yi] - (yi > 0 ? yi * eta[i] : 0) - (yi - m);
+        d += pw === null ? u : pw[i] * u;
+      }
+    } else {
+      const nb = tab.nb!, r = 1 / alpha;
+      for (let i = 0; i < y.length; i++) {
+        if (!inFit[i]) continue;
+        const yi = y[i], m = mu[i];
+        const u = yl[yi] - (yi > 0 ? yi * eta[i] : 0) - nb[yi] + (yi + r) * Math.log1p(alpha * m);
+        d += pw === null ? u : pw[i] * u;
+      }
     }
     return 2 * d;
   }
-  let d = 0;
   for (let i = 0; i < y.length; i++) if (inFit[i]) d += (pw ? pw[i] : 1) * unitDeviance(y[i], mu[i], alpha);
   return d;
 }
@@ -533,11 +592,13 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
   const off = new Float64Array(data.offset);
   if (options.fixed) addFixedOffset(m, options.fixed, off);
 
-  const cs = compiledOf(m, setup);
   if (setup.cells === undefined)
-    setup.cells = setup.parentCells ? recellPositions(setup.parentCells, cs) : setup.parentCells === null ? null : buildCells(cs, n, Math.max(64, Math.floor(n / 8)));
+    setup.cells = setup.parentCells ? recellPositions(m, setup.parentCells, active) : setup.parentCells === null ? null : buildCells(compiledOf(m, setup), n, Math.max(64, Math.floor(n / 8)), inFit);
   const cells = setup.cells;
-  const xprod = (w_: Float64Array, z_: Float64Array | null) => (cells ? crossProductsCells(cs, cells, n, q, w_, z_) : crossProductsCompiled(cs, n, q, w_, z_));
+  const vals = setup.slotValues ?? compiledOf(m, setup).map((c) => c.val);
+  const cs = cells ? null : compiledOf(m, setup);
+  const xprod = (w_: Float64Array, z_: Float64Array | null) => (cells ? crossProductsCells(vals, cells, n, q, w_, z_) : crossProductsCompiled(cs!, n, q, w_, z_));
+  const linpred = (b_: Float64Array, e_: Float64Array) => (cells ? linearPredictorCells(cells, vals, b_, off, e_) : linearPredictor(cs!, inFit, b_, off, e_));
   const eta = new Float64Array(n);
   const mu = new Float64Array(n);
   let betaS: Float64Array = new Float64Array(q);
@@ -558,7 +619,7 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
     haveBeta = ok;
   }
   if (haveBeta) {
-    linearPredictor(cs, inFit, betaS, off, eta);
+    linpred(betaS, eta);
     for (let i = 0; i < n; i++) mu[i] = inFit[i] ? Math.exp(eta[i]) : 0;
   } else {
     for (let i = 0; i < n; i++) {
@@ -567,11 +628,12 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
       eta[i] = Math.log(mu[i]);
     }
   }
-  let devOld = totalDeviance(y, mu, pw, inFit, alpha);
+  const dtab = devianceTable(y, alpha);
+  let devOld = totalDeviance(y, mu, eta, pw, inFit, alpha, dtab);
   if (!Number.isFinite(devOld) && haveBeta) {
     haveBeta = false;
     for (let i = 0; i < n; i++) if (inFit[i]) { mu[i] = y[i] + 0.1; eta[i] = Math.log(mu[i]); }
-    devOld = totalDeviance(y, mu, pw, inFit, alpha);
+    devOld = totalDeviance(y, mu, eta, pw, inFit, alpha, dtab);
   }
   const w = new Float64Array(n);
   const z = new Float64Array(n);
@@ -594,7 +656,7 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
       if (options.start && iter <= 2) {
         haveBeta = false;
         for (let i = 0; i < n; i++) if (inFit[i]) { mu[i] = y[i] + 0.1; eta[i] = Math.log(mu[i]); }
-        devOld = totalDeviance(y, mu, pw, inFit, alpha);
+        devOld = totalDeviance(y, mu, eta, pw, inFit, alpha, dtab);
         continue;
       }
       throw new FitError(`the IRLS step is not finite at iteration ${iter}; the fitted means overflow. Check for extreme exposures or covariate values.`);
@@ -610,9 +672,9 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
         predicted += (cand[r] - betaS[r]) * sr;
       }
     }
-    linearPredictor(cs, inFit, cand, off, newEta);
+    linpred(cand, newEta);
     expInto(newEta, inFit, newMu);
-    dev = totalDeviance(y, newMu, pw, inFit, alpha);
+    dev = totalDeviance(y, newMu, newEta, pw, inFit, alpha, dtab);
     let halvings = 0;
     while ((!Number.isFinite(dev) || (haveBeta && dev > devOld * (1 + 1e-12) + 1e-12)) && halvings < 40) {
       if (!haveBeta) break;
@@ -620,9 +682,9 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
       const half = new Float64Array(q);
       for (let k = 0; k < q; k++) half[k] = 0.5 * (cand[k] + betaS[k]);
       cand = half;
-      linearPredictor(cs, inFit, cand, off, newEta);
+      linpred(cand, newEta);
       expInto(newEta, inFit, newMu);
-      dev = totalDeviance(y, newMu, pw, inFit, alpha);
+      dev = totalDeviance(y, newMu, newEta, pw, inFit, alpha, dtab);
     }
     if (!Number.isFinite(dev))
       throw new FitError(`the deviance is not finite at IRLS iteration ${iter} even after step-halving; the fitted means overflow. Check for extreme exposures or covariate values.`);

@@ -4,7 +4,7 @@
 import type { Design, ModelMatrix } from "../design/design.js";
 import { FitError } from "../errors.js";
 import { unitDeviance } from "./family.js";
-import { fitGlm, linearPredictorFrom, prepareFit, type FitControl, type FitSetup, type GlmFit } from "./irls.js";
+import { deriveSetup, fitGlm, linearPredictorFrom, prepareFit, type FitControl, type FitSetup, type GlmFit } from "./irls.js";
 import { fitNegbin, negbinLogLik } from "./negbin.js";
 
 export type FamilyName = "poisson" | "negbin" | "quasipoisson";
@@ -119,9 +119,11 @@ export function constrainedStatistic(design: Design, mf: ModelFit, col: number):
   if (mf.family === "negbin" && mf.negbin && !mf.negbin.boundary) {
     const llHat = mf.negbin.logLik;
     let alpha = mf.negbin.alpha;
+    // Centring is valid only while the intercept is free.
+    const nbSetup = col === design.matrix.interceptCol ? prepareFit(design.matrix, design, new Map([[col, 0]])) : deriveSetup(mf.fit.setup, [col]);
     return (b: number) => {
       const fixed = new Map([[col, b]]);
-      const nb = fitNegbin(design.matrix, design, { control, fixed, start, startAlpha: alpha });
+      const nb = fitNegbin(design.matrix, design, { control, fixed, start, startAlpha: alpha, warm: true, likelihoodOnly: true, setup: nbSetup });
       if (nb.fit.warnings.length === 0) { start = nb.fit.beta; if (nb.alpha > 0) alpha = nb.alpha; }
       return Math.max(0, 2 * (llHat - nb.logLik));
     };

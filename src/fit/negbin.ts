@@ -4,8 +4,9 @@
 import type { ModelMatrix } from "../design/design.js";
 import { FitError } from "../errors.js";
 import { digamma, trigamma } from "../infer/distributions.js";
-import { logDensity } from "./family.js";
-import { fitGlm, prepareFit, type FitControl, type FitData, type GlmFit } from "./irls.js";
+import { lgammaRatio, logDensity } from "./family.js";
+import { lgamma } from "../infer/distributions.js";
+import { fitGlm, prepareFit, type FitControl, type FitData, type FitSetup, type GlmFit } from "./irls.js";
 
 export interface NegbinFit {
   fit: GlmFit;
@@ -33,21 +34,59 @@ function harmonic(y: number, r: number): [number, number] {
 
 /** NB2 log-likelihood at the given means (rows with mu = 0 and y = 0 contribute 0). */
 export function negbinLogLik(y: Float64Array, mu: Float64Array, pw: Float64Array | null, alpha: number): number {
+  const top = maxCount(y);
+  if (alpha === 0 || top > TABLE_LIMIT) {
+    let ll = 0;
+    for (let i = 0; i < y.length; i++) if (mu[i] > 0) ll += (pw ? pw[i] : 1) * logDensity(y[i], mu[i], alpha);
+    return ll;
+  }
+  // The y-only terms log Γ(y + r) − log Γ(r) − log y! depend on y alone at fixed alpha: tabulate them.
+  const r = 1 / alpha;
+  const tab = new Float64Array(top + 1);
+  for (let k = 0; k <= top; k++) tab[k] = lgammaRatio(k, r) - lgamma(k + 1);
   let ll = 0;
-  for (let i = 0; i < y.length; i++) if (mu[i] > 0) ll += (pw ? pw[i] : 1) * logDensity(y[i], mu[i], alpha);
+  for (let i = 0; i < y.length; i++) {
+    const m = mu[i];
+    if (!(m > 0)) continue;
+    const yi = y[i];
+    const l1 = Math.log1p(alpha * m);
+    ll += (pw ? pw[i] : 1) * (tab[yi] - r * l1 + yi * (Math.log(alpha * m) - l1));
+  }
   return ll;
+}
+
+const TABLE_LIMIT = 1 << 20;
+
+function maxCount(y: Float64Array): number {
+  let t = 0;
+  for (let i = 0; i < y.length; i++) if (y[i] > t) t = y[i];
+  return t;
 }
 
 /** Score g = ∂ℓ/∂α and its derivative h = ∂²ℓ/∂α² at fixed means (Cameron and Trivedi 2013, §3.3). */
 export function alphaDerivatives(y: Float64Array, mu: Float64Array, pw: Float64Array | null, alpha: number): { g: number; h: number } {
   const r = 1 / alpha;
   let g = 0, h = 0;
+  // The harmonic sums depend on y alone at fixed alpha: tabulate them when the counts allow.
+  const top = maxCount(y);
+  const tabD = top <= TABLE_LIMIT ? new Float64Array(top + 1) : null;
+  const tabE = tabD ? new Float64Array(top + 1) : null;
+  if (tabD && tabE) {
+    let d = 0, e = 0;
+    for (let k = 0; k <= top; k++) {
+      if (k > 0) { const t = 1 / (r + k - 1); d += t; e += t * t; }
+      tabD[k] = d; tabE[k] = e;
+    }
+    // Long running sums drift by rounding: refresh the tail from digamma/trigamma.
+    for (let k = 64; k <= top; k += 64) { const [dd, ee] = harmonic(k, r); tabD[k] = dd; tabE[k] = ee; for (let j = k + 1; j < Math.min(top + 1, k + 64); j++) { const t = 1 / (r + j - 1); tabD[j] = tabD[j - 1] + t; tabE[j] = tabE[j - 1] + t * t; } }
+  }
   for (let i = 0; i < y.length; i++) {
     const m = mu[i];
     if (!(m > 0)) continue;
     const w = pw ? pw[i] : 1;
     const yi = y[i];
-    const [d, e] = harmonic(yi, r);
+    let d: number, e: number;
+    if (tabD && tabE) { d = tabD[yi]; e = tabE[yi]; } else [d, e] = harmonic(yi, r);
     const l = Math.log1p(alpha * m);
     const q = 1 + alpha * m;
     g += w * ((l - d) / (alpha * alpha) + (yi - m) / (alpha * q));
@@ -97,6 +136,16 @@ export interface NegbinOptions {
   fixed?: Map<number, number>;
   start?: Float64Array | null;
   startAlpha?: number;
+  /** A screening setup to reuse (same fixed columns). */
+  setup?: FitSetup;
+  /**
+   * Start the alpha search at startAlpha from `start` without fitting the
+   * Poisson model first (for the many nearby fits of term tests and
+   * profiles); the Poisson fit is still made if alpha reaches the boundary.
+   */
+  warm?: boolean;
+  /** Skip the information matrix (term tests and profiles need only the maximised likelihood). */
+  likelihoodOnly?: boolean;
 }
 
 /**
@@ -110,20 +159,28 @@ export interface NegbinOptions {
  * 3rd ed., §9.4).
  */
 export function fitNegbin(m: ModelMatrix, data: FitData, o: NegbinOptions): NegbinFit {
-  const setup = prepareFit(m, data, o.fixed);
-  const pois = fitGlm(m, data, { control: o.control, fixed: o.fixed, start: o.start, setup, alpha: 0 });
+  const setup = o.setup ?? prepareFit(m, data, o.fixed);
   const pw = data.weights;
-  const poisLL = negbinLogLik(data.y, pois.mu, pw, 0);
-  const atBoundary = (evals: number): NegbinFit => ({ fit: pois, alpha: 0, alphaStdError: null, logLik: poisLL, boundary: true, outerIterations: evals, poisson: pois, poissonLogLik: poisLL });
-  if (scoreAtZero(data.y, pois.mu, pw) <= 0) return atBoundary(0);
+  const warm = !!(o.warm && o.start && o.startAlpha && o.startAlpha > 0);
+  let pois: GlmFit | null = null;
+  let poisLL = NaN;
+  const poissonFit = () => {
+    if (!pois) { pois = fitGlm(m, data, { control: o.control, fixed: o.fixed, start: o.start, setup, alpha: 0 }); poisLL = negbinLogLik(data.y, pois.mu, pw, 0); }
+    return pois;
+  };
+  const atBoundary = (evals: number): NegbinFit => {
+    const p = poissonFit();
+    return { fit: p, alpha: 0, alphaStdError: null, logLik: poisLL, boundary: true, outerIterations: evals, poisson: p, poissonLogLik: poisLL };
+  };
+  if (!warm && scoreAtZero(data.y, poissonFit().mu, pw) <= 0) return atBoundary(0);
 
-  let beta = pois.beta;
-  let last: GlmFit = pois;
+  let beta = warm ? o.start! : poissonFit().beta;
+  let last: GlmFit = warm ? (null as unknown as GlmFit) : poissonFit();
   let evals = 0;
   // Profile score in θ = log alpha and its approximate derivative.
   const score = (theta: number): { f: number; df: number; fit: GlmFit } => {
     const a = Math.exp(theta);
-    const fit = fitGlm(m, data, { control: o.control, fixed: o.fixed, start: beta, setup, alpha: a });
+    const fit = fitGlm(m, data, { control: o.control, fixed: o.fixed, start: beta, setup, alpha: a, skipCovariance: true, stopOnPredicted: true });
     evals++;
     if (fit.converged) beta = fit.beta;
     last = fit;
@@ -132,7 +189,7 @@ export function fitNegbin(m: ModelMatrix, data: FitData, o: NegbinOptions): Negb
   };
 
   // Bracket the root: the score is positive below the maximum and negative above it.
-  let theta = Math.log(Math.min(Math.max(o.startAlpha && o.startAlpha > 0 ? o.startAlpha : momentAlpha(data.y, pois.mu, pw), 1e-4), 1e2));
+  let theta = Math.log(Math.min(Math.max(o.startAlpha && o.startAlpha > 0 ? o.startAlpha : momentAlpha(data.y, poissonFit().mu, pw), 1e-4), 1e2));
   let cur = score(theta);
   let lo = -Infinity, hi = Infinity;
   if (cur.f > 0) lo = theta; else hi = theta;
@@ -164,13 +221,14 @@ export function fitNegbin(m: ModelMatrix, data: FitData, o: NegbinOptions): Negb
     theta = next;
     cur = score(theta);
     if (cur.f > 0) lo = theta; else hi = theta;
-    if (moved < 1e-10 || hi - lo < 1e-12) break;
+    if (moved < 1e-9 || hi - lo < 1e-12) break;
   }
   const alpha = Math.exp(theta);
-  const fit = last;
+  // The information matrix at the estimate (a last IRLS fit from the converged point), unless only the likelihood is wanted.
+  const fit = o.likelihoodOnly ? last : fitGlm(m, data, { control: o.control, fixed: o.fixed, start: beta, setup, alpha });
   const { h } = alphaDerivatives(data.y, fit.mu, pw, alpha);
   const se = h < 0 ? 1 / Math.sqrt(-h) : null;
-  return { fit, alpha, alphaStdError: se, logLik: negbinLogLik(data.y, fit.mu, pw, alpha), boundary: false, outerIterations: evals, poisson: pois, poissonLogLik: poisLL };
+  return { fit, alpha, alphaStdError: se, logLik: negbinLogLik(data.y, fit.mu, pw, alpha), boundary: false, outerIterations: evals, poisson: pois ?? fit, poissonLogLik: pois ? poisLL : NaN };
 }
 
 /** Moment starting value: Σw[(y − mu)² − y] / Σw·mu², floored. */

@@ -44,7 +44,7 @@ export function termTests(design: Design, mf: ModelFit): TermTest[] {
     let stat: number, p: number;
     if (mf.family === "negbin" && mf.negbin && !mf.negbin.boundary) {
       const start = warmStart(design, mf, cols);
-      const nb = fitNegbin(design.matrix, design, { control: mf.control, fixed, startAlpha: mf.negbin.alpha, start });
+      const nb = fitNegbin(design.matrix, design, { control: mf.control, fixed, startAlpha: mf.negbin.alpha, start, warm: true, likelihoodOnly: true, setup: deriveSetup(mf.fit.setup, cols) });
       stat = Math.max(0, 2 * (llFull - nb.logLik));
       p = chiSquareUpperTail(stat, cols.length);
     } else {
