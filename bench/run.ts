@@ -1,10 +1,14 @@
-// npm run bench: end-to-end timings of the CLI on seeded files.
-//   npm run bench                   100,000 rows: Poisson, negative binomial, profile limits
-//   npm run bench -- --rows 200000 --reps 5
-// Each case runs the built CLI as a user would and reports the median wall
-// time and peak resident memory (from /usr/bin/time when present).
+// npm run bench: end-to-end timings of the CLI on seeded files, side by side
+// with the yardstick (pandas' C CSV reader + a numpy IRLS loop, bench/yardstick.py).
+//   npm run bench                          100,000 rows (NB and profile limits against the Poisson fit), then
+//                                          1,000,000 rows (about 22 MB) against the yardstick; 3 alternating runs each
+//   npm run bench -- --rows 100000 --reps 5
+//   npm run bench -- --big                 also 10,000,000 rows (about 220 MB), one run
+//   npm run bench -- --smoke               10,000 rows, one run each, no yardstick (used by the tests)
+// Wall time is measured around each process; peak resident memory comes from
+// /usr/bin/time when present. Medians are printed with the ratios.
 import { spawnSync } from "node:child_process";
-import { existsSync, mkdirSync, statSync } from "node:fs";
+import { existsSync, mkdirSync, openSync, readSync, closeSync, statSync } from "node:fs";
 import { dirname, join, resolve } from "node:path";
 import { fileURLToPath } from "node:url";
 import { writeBenchFile } from "./generate.js";
@@ -12,67 +16,97 @@ import { writeBenchFile } from "./generate.js";
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), "..", "..");
 const BIN = join(ROOT, "bin", "tallyfit.js");
 const DATA = join(ROOT, "bench", "data");
+const YARDSTICK = join(ROOT, "bench", "yardstick.py");
+const MODEL = "visits ~ region + agegrp + sex + insured + score";
 
 function arg(name: string, dflt: number): number {
   const k = process.argv.indexOf(name);
   return k >= 0 ? Number(process.argv[k + 1]) : dflt;
 }
 
-interface Timing { seconds: number; rssMB: number | null }
+interface Timing { seconds: number; rssMB: number | null; stdout: string }
 
-function runOnce(args: string[]): Timing {
+function run(cmd: string, args: string[]): Timing {
   const useTime = existsSync("/usr/bin/time");
-  const cmd = useTime ? "/usr/bin/time" : process.execPath;
-  const full = useTime ? ["-f", "%M", process.execPath, BIN, ...args] : [BIN, ...args];
   const t0 = process.hrtime.bigint();
-  const r = spawnSync(cmd, full, { encoding: "utf8", maxBuffer: 1 << 28 });
+  const r = useTime ? spawnSync("/usr/bin/time", ["-f", "%M", cmd, ...args], { encoding: "utf8", maxBuffer: 1 << 28 }) : spawnSync(cmd, args, { encoding: "utf8", maxBuffer: 1 << 28 });
   const seconds = Number(process.hrtime.bigint() - t0) / 1e9;
-  if (r.status !== 0) throw new Error(`tallyfit ${args.join(" ")} exited ${r.status}: ${r.stderr}`);
+  if (r.status !== 0) throw new Error(`${cmd} ${args.join(" ")} exited ${r.status}: ${r.stderr}`);
   const kb = useTime ? Number(r.stderr.trim().split("\n").pop()) : NaN;
-  return { seconds, rssMB: Number.isFinite(kb) ? kb / 1024 : null };
+  return { seconds, rssMB: Number.isFinite(kb) ? kb / 1024 : null, stdout: r.stdout };
 }
 
-function median(xs: number[]): number {
-  const s = [...xs].sort((a, b) => a - b);
-  return s[Math.floor(s.length / 2)];
+const median = (xs: number[]) => [...xs].sort((a, b) => a - b)[Math.floor(xs.length / 2)];
+
+/** Debian's python3 (with python3-numpy and python3-pandas) when present, else whatever python3 is on the PATH. */
+function yardstickPython(): string | null {
+  for (const py of ["/usr/bin/python3", "python3"]) {
+    const r = spawnSync(py, ["-c", "import numpy, pandas"], { encoding: "utf8" });
+    if (r.status === 0) return py;
+  }
+  return null;
+}
+let PYTHON = "python3";
+
+/** The floor for any CSV reader in Node: read the file and count newlines. */
+function byteScan(file: string): number {
+  const t0 = process.hrtime.bigint();
+  const fd = openSync(file, "r");
+  const buf = Buffer.allocUnsafe(1 << 22);
+  let lines = 0, n: number;
+  while ((n = readSync(fd, buf, 0, buf.length, null)) > 0) for (let i = 0; i < n; i++) if (buf[i] === 10) lines++;
+  closeSync(fd);
+  void lines;
+  return Number(process.hrtime.bigint() - t0) / 1e9;
 }
 
-async function main(): Promise<void> {
-  const rows = arg("--rows", 100000);
-  const reps = arg("--reps", 3);
+async function bench(rows: number, reps: number, withYardstick: boolean): Promise<void> {
   mkdirSync(DATA, { recursive: true });
   const file = join(DATA, `bench_${rows}.csv`);
   if (!existsSync(file)) await writeBenchFile(file, rows, 1);
   const mb = statSync(file).size / 1e6;
-  console.log(`bench file ${file}: ${rows.toLocaleString("en")} rows, ${mb.toFixed(1)} MB; ${reps} runs each, medians`);
-  const model = "visits ~ region + agegrp + sex + insured + score";
-  const base = ["fit", file, "--model", model, "--exposure", "exposure", "--format", "json", "--quiet"];
-  const cases: [string, string[]][] = [
-    ["poisson, Wald only", [...base, "--intervals", "wald"]],
-    ["negbin, Wald only", [...base, "--family", "negbin", "--intervals", "wald"]],
-    ["poisson, profile limits for 30 coefficients", ["fit", file, "--model", model + " + sex:insured + sex:score", "--exposure", "exposure", "--format", "json", "--quiet", "--intervals", "both"]],
+  console.log(`\n${rows.toLocaleString("en")} rows, ${mb.toFixed(1)} MB (${file}); ${reps} alternating run${reps === 1 ? "" : "s"} each, medians`);
+  const base = ["fit", file, "--model", MODEL, "--exposure", "exposure", "--format", "json", "--quiet"];
+  const cases: [string, string, string[]][] = [
+    ["tallyfit poisson (Wald)", process.execPath, [BIN, ...base, "--intervals", "wald"]],
+    ["tallyfit negbin (Wald)", process.execPath, [BIN, ...base, "--family", "negbin", "--intervals", "wald"]],
   ];
+  if (rows <= 100000)
+    cases.push(["tallyfit poisson, profile limits, 30 coef.", process.execPath, [BIN, "fit", file, "--model", MODEL + " + sex:insured + sex:score", "--exposure", "exposure", "--format", "json", "--quiet", "--intervals", "both"]]);
+  if (withYardstick) cases.unshift(["yardstick pandas+numpy poisson", PYTHON, [YARDSTICK, file]]);
   const results = new Map<string, Timing[]>();
   for (let r = 0; r < reps; r++)
-    for (const [name, args] of cases) {
-      const t = runOnce(args);
-      results.set(name, [...(results.get(name) ?? []), t]);
-    }
-  const rowsOut: string[] = [];
-  let poisson = NaN;
+    for (const [name, cmd, args] of cases) results.set(name, [...(results.get(name) ?? []), run(cmd, args)]);
+  const med = (name: string) => median(results.get(name)!.map((t) => t.seconds));
+  const rss = (name: string) => { const t = results.get(name)!; return t[0].rssMB === null ? null : median(t.map((x) => x.rssMB!)); };
+  const ref = withYardstick ? "yardstick pandas+numpy poisson" : "tallyfit poisson (Wald)";
   for (const [name] of cases) {
-    const ts = results.get(name)!;
-    const sec = median(ts.map((t) => t.seconds));
-    const rss = ts[0].rssMB === null ? null : median(ts.map((t) => t.rssMB!));
-    if (name.startsWith("poisson, Wald")) poisson = sec;
-    rowsOut.push(
-      `${name.padEnd(46)} ${sec.toFixed(3).padStart(8)} s   ${(rows / sec / 1e3).toFixed(0).padStart(6)}k rows/s   ${(mb / sec).toFixed(1).padStart(6)} MB/s   ${rss === null ? "" : `${rss.toFixed(0)} MB peak RSS`}   ×${(sec / poisson).toFixed(2)} of Poisson`,
+    const sec = med(name), m = rss(name);
+    console.log(
+      `  ${name.padEnd(44)} ${sec.toFixed(2).padStart(7)} s  ${(rows / sec / 1e3).toFixed(0).padStart(6)}k rows/s  ${(mb / sec).toFixed(1).padStart(6)} MB/s  ` +
+        `${m === null ? "" : `${m.toFixed(0).padStart(6)} MB peak`}   time ×${(sec / med(ref)).toFixed(2)}${m !== null && rss(ref) !== null ? `, memory ×${(m / rss(ref)!).toFixed(2)}` : ""} of ${withYardstick ? "the yardstick" : "Poisson"}`,
     );
   }
-  for (const l of rowsOut) console.log(l);
+  if (withYardstick) {
+    // Both programs must agree on the fit they time.
+    const y = JSON.parse(results.get("yardstick pandas+numpy poisson")![0].stdout);
+    const t = JSON.parse(results.get("tallyfit poisson (Wald)")![0].stdout);
+    console.log(`  deviance: tallyfit ${t.deviance.toFixed(4)}, yardstick ${y.deviance.toFixed(4)} (relative difference ${(Math.abs(t.deviance - y.deviance) / y.deviance).toExponential(1)})`);
+  }
+  const scan = byteScan(file);
+  console.log(`  byte scan (read + count newlines): ${scan.toFixed(3)} s, ${(mb / scan).toFixed(0)} MB/s, the floor for any CSV reader here`);
 }
 
-main().catch((e) => {
-  console.error(e);
-  process.exitCode = 1;
-});
+async function main(): Promise<void> {
+  if (process.argv.includes("--smoke")) return bench(10000, 1, false);
+  const py = yardstickPython();
+  const withYardstick = py !== null;
+  if (py) PYTHON = py;
+  if (!withYardstick) console.log("python3 with numpy and pandas not found: the yardstick is skipped (on Debian: apt-get install python3-numpy python3-pandas)");
+  // 100,000 rows: negative binomial and profile limits against the Poisson fit; 1,000,000 rows: against the yardstick.
+  if (!process.argv.includes("--rows")) await bench(100000, arg("--reps", 3), false);
+  await bench(arg("--rows", 1000000), arg("--reps", 3), withYardstick);
+  if (process.argv.includes("--big")) await bench(10000000, 1, false);
+}
+
+main().catch((e) => { console.error(e); process.exitCode = 1; });

@@ -4,7 +4,8 @@ import assert from "node:assert/strict";
 import { mkdtempSync, readFileSync, writeFileSync, existsSync, readdirSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
-import { runCli } from "./helpers.js";
+import { ROOT, runCli } from "./helpers.js";
+import { spawnSync } from "node:child_process";
 
 const EXAMPLE = "examples/clinic_visits.csv";
 const MODEL = "visits ~ clinic + weekday + staff_on_duty + flu_season";
@@ -123,4 +124,12 @@ test("a file with another delimiter: the message says so and suggests it", () =>
   const r = runCli(["fit", f, "--model", "y ~ g"]);
   assert.equal(r.code, 2);
   assert.match(r.stderr, /uses ';' between fields.*--delimiter ';'/);
+});
+
+test("the benchmark runs end to end on a 10,000-row smoke file", () => {
+  const r = spawnSync(process.execPath, ["dist/bench/run.js", "--smoke"], { cwd: ROOT, encoding: "utf8" });
+  assert.equal(r.status, 0, r.stderr);
+  assert.match(r.stdout, /10,000 rows/);
+  assert.match(r.stdout, /tallyfit poisson \(Wald\) +[\d.]+ s/);
+  assert.match(r.stdout, /byte scan/);
 });

@@ -1,7 +1,6 @@
 // Command-line wiring: options → stage functions → output. No statistics here.
 import { Command, CommanderError, Option } from "commander";
 import { readFileSync } from "node:fs";
-import { createHash } from "node:crypto";
 import type { Table } from "../io/table.js";
 import { loadSavedModel } from "../io/model-file.js";
 import { buildPredictionDesign } from "../design/predict-design.js";
@@ -11,7 +10,7 @@ import { naturalCompare } from "../design/naming.js";
 import { savedModelOf } from "../report/model-file.js";
 import { renderPredictCsv, renderPredictText } from "../report/predict.js";
 import { EXIT, FitError, InputError } from "../errors.js";
-import { DEFAULT_NA, parseRecords, parseTable, readSource } from "../io/csv.js";
+import { DEFAULT_NA, loadTableStream, parseRecords, parseTable, readSource } from "../io/csv.js";
 import { parseModel, termVariables } from "../model/formula.js";
 import { buildDesign } from "../design/design.js";
 import type { Design } from "../design/design.js";
@@ -135,10 +134,12 @@ async function loadDesigns(file: string | undefined, opts: CommonOptions, modelT
   const factors = opts.factor.flatMap((f) => f.split(",").map((s) => s.trim()).filter(Boolean));
   const path = file ?? "-";
   if (path === "-" && process.stdin.isTTY) throw new InputError("no input: give a CSV file, or pipe one in (a FILE of - reads standard input).");
-  const { bytes, name } = await readSource(path);
   const vars = [...new Set(specs.flatMap((spec) => [spec.response, ...termVariables(spec)]))];
   const select = [...vars, ...[opts.exposure, opts.offset, opts.weights].filter((x): x is string => !!x), ...Object.keys(refs), ...alsoRead];
-  const table = parseTable(bytes, { source: name, delimiter: opts.delimiter, na: parseNa(opts.na), factors, select });
+  const name = path === "-" ? "<stdin>" : path;
+  const progress = opts.quiet || !process.stderr.isTTY ? undefined : readingProgress();
+  const { table, sha256 } = await loadTableStream(path, { delimiter: opts.delimiter, na: parseNa(opts.na), factors, select }, progress);
+  if (progress) process.stderr.write("\r\x1b[K");
   for (const f of factors)
     if (!table.header.includes(f)) throw new InputError(`${name}: --factor column '${f}' is not in the file. The columns are ${table.header.map((h) => `'${h}'`).join(", ")}.`);
   const designs = specs.map((spec) => {
@@ -147,7 +148,7 @@ async function loadDesigns(file: string | undefined, opts: CommonOptions, modelT
   });
   for (const n of designs[0].notices) notice(opts, n);
   for (const c of alsoRead) if (!table.columns.has(c)) throw new InputError(`${name}: --summary-by column '${c}' is not in the file. The columns are ${table.header.map((h) => `'${h}'`).join(", ")}.`);
-  return { designs, control, table, sha256: createHash("sha256").update(bytes).digest("hex") };
+  return { designs, control, table, sha256 };
 }
 
 async function loadDesign(file: string | undefined, opts: CommonOptions, modelText: string, alsoRead: string[] = []): Promise<Loaded & { table: Table; sha256: string }> {
@@ -165,6 +166,16 @@ function groupLabels(table: Table, column: string, rows: ArrayLike<number>): str
     else out[k] = Number.isNaN(c.values[i]) ? "(missing)" : String(c.values[i]);
   }
   return out;
+}
+
+/** Progress on stderr while reading a large input (only on a terminal, never with --quiet). */
+function readingProgress(): (bytes: number, rows: number) => void {
+  let last = 0;
+  return (bytes, rows) => {
+    if (bytes < 32e6 || Date.now() - last < 200) return;
+    last = Date.now();
+    process.stderr.write(`\rtallyfit: reading ${(bytes / 1e6).toFixed(0)} MB, ${rows.toLocaleString("en")} rows…`);
+  };
 }
 
 function oneOf(name: string, value: string, allowed: string[]): string {

@@ -2,19 +2,38 @@
 // packages (ports of the FreeBSD/Cephes/Boost routines) so that tiny tail
 // probabilities keep their relative accuracy; quantiles of the normal and
 // Student t come from jStat, which refines them by Newton steps.
-import erfc from "@stdlib/math-base-special-erfc";
-import gammainc from "@stdlib/math-base-special-gammainc";
-import gammaincinv from "@stdlib/math-base-special-gammaincinv";
-import gammalnStd from "@stdlib/math-base-special-gammaln";
-import digammaStd from "@stdlib/math-base-special-digamma";
-import trigammaStd from "@stdlib/math-base-special-trigamma";
-import jstatPkg from "jstat";
+import { createRequire } from "node:module";
 
-const { jStat } = jstatPkg;
+// Each package is loaded on first use, so a command pays only for what it needs.
+const require = createRequire(import.meta.url);
+function lazy<T>(name: string): () => T {
+  let f: T | null = null;
+  return () => (f ??= require(name) as T);
+}
+type F1 = (x: number) => number;
+const erfcFn = lazy<F1>("@stdlib/math-base-special-erfc");
+const gammaincFn = lazy<(x: number, a: number, regularized?: boolean, upper?: boolean) => number>("@stdlib/math-base-special-gammainc");
+const gammaincinvFn = lazy<(p: number, a: number, upper?: boolean) => number>("@stdlib/math-base-special-gammaincinv");
+const gammalnFn = lazy<F1>("@stdlib/math-base-special-gammaln");
+const digammaFn = lazy<F1>("@stdlib/math-base-special-digamma");
+const trigammaFn = lazy<F1>("@stdlib/math-base-special-trigamma");
+type Dist2 = { cdf(x: number, a: number, b: number): number; inv(p: number, a: number, b: number): number };
+type Dist1 = { cdf(x: number, a: number): number; inv(p: number, a: number): number };
+const jstatFn = lazy<{ jStat: { normal: Dist2; chisquare: Dist1; studentt: Dist1; centralF: Dist2 } }>("jstat");
 
-export const lgamma: (x: number) => number = gammalnStd;
-export const digamma: (x: number) => number = digammaStd;
-export const trigamma: (x: number) => number = trigammaStd;
+const erfc: F1 = (x) => erfcFn()(x);
+const gammainc = (x: number, a: number, regularized?: boolean, upper?: boolean) => gammaincFn()(x, a, regularized, upper);
+const gammaincinv = (p: number, a: number) => gammaincinvFn()(p, a);
+const jStat = {
+  get normal() { return jstatFn().jStat.normal; },
+  get studentt() { return jstatFn().jStat.studentt; },
+  get centralF() { return jstatFn().jStat.centralF; },
+};
+
+export const lgamma: F1 = (x) => gammalnFn()(x);
+export const digamma: F1 = (x) => digammaFn()(x);
+export const trigamma: F1 = (x) => trigammaFn()(x);
+export { gammainc as regularizedGammaInc };
 
 /** Two-sided p-value of a standard normal statistic, 2·Φ(−|z|) = erfc(|z|/√2). */
 export function normalTwoSidedP(z: number): number {

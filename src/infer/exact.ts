@@ -1,7 +1,10 @@
 // Exact intervals for a Poisson count and the predictive distributions of counts.
-import betainc from "@stdlib/math-base-special-betainc";
-import gammainc from "@stdlib/math-base-special-gammainc";
-import { chiSquareQuantile } from "./distributions.js";
+import { createRequire } from "node:module";
+import { chiSquareQuantile, regularizedGammaInc as gammainc } from "./distributions.js";
+
+const require = createRequire(import.meta.url);
+let betaincFn: ((x: number, a: number, b: number) => number) | null = null;
+const betainc = (x: number, a: number, b: number) => (betaincFn ??= require("@stdlib/math-base-special-betainc"))(x, a, b);
 
 /**
  * Exact (Garwood 1936) limits for the mean of a Poisson count y:

@@ -1,5 +1,5 @@
 // CSV loading: RFC 4180 records (via csv-parse) into typed columns.
-import { parse } from "csv-parse/sync";
+import { createRequire } from "node:module";
 import { readFile } from "node:fs/promises";
 import { createReadStream } from "node:fs";
 import { createHash } from "node:crypto";
@@ -8,6 +8,12 @@ import { InputError } from "../errors.js";
 import type { Column, Table } from "./table.js";
 
 export const DEFAULT_NA = ["", "NA", "NaN", "null", "."];
+
+// csv-parse is the reference reader: loaded only when a caller needs it.
+const require = createRequire(import.meta.url);
+type CsvParse = (input: string, options: Record<string, unknown>) => unknown;
+let csvParse: CsvParse | null = null;
+const parse: CsvParse = (input, options) => (csvParse ??= (require("csv-parse/sync") as { parse: CsvParse }).parse)(input, options);
 
 export interface LoadOptions {
   /** Display name used in messages. */
