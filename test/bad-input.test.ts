@@ -2,6 +2,8 @@
 import { test } from "node:test";
 import assert from "node:assert/strict";
 import { spawn } from "node:child_process";
+import { readFileSync } from "node:fs";
+import { join } from "node:path";
 import { BIN, ROOT, runCli } from "./helpers.js";
 import { CASES, firstLine, runCase } from "./error-cases.js";
 
@@ -50,4 +52,13 @@ test("an internal error says it is a bug and asks for a report; --debug adds the
   assert.doesNotMatch(r.stderr, /\n\s+at /);
   const d = runCli(["fit", "-", "--model", "y ~ g", "--debug"], "g,y\na,1\nb,2\n", { TALLYFIT_TEST_CRASH: "1" });
   assert.match(d.stderr, /\n\s+at /);
+});
+
+test("reading from a pipe that closes early (a truncated extract) gives a clear input error, not a crash", () => {
+  const whole = readFileSync(join(ROOT, "examples", "clinic_visits.csv"), "utf8");
+  const cut = whole.slice(0, 1000 + whole.slice(1000).indexOf(",") + 1); // ends in the middle of a row
+  const r = runCli(["fit", "-", "--model", "visits ~ clinic", "--exposure", "open_hours"], cut);
+  assert.equal(r.code, 2);
+  assert.match(r.stderr, /fields where the header has 8/);
+  assert.doesNotMatch(r.stderr, /\n\s+at /);
 });
