@@ -2,17 +2,9 @@
 // numeric covariate, an exposure and a count, written as CSV. Invented data.
 import { createWriteStream } from "node:fs";
 import { once } from "node:events";
+import { uniformGenerator } from "../src/infer/random.js";
 
-function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+const rng = uniformGenerator;
 
 function poisson(u: () => number, mean: number): number {
   let k = 0, p = Math.exp(-mean), s = p;

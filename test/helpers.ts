@@ -7,6 +7,7 @@ import { parseTable } from "../src/io/csv.js";
 import { parseModel } from "../src/model/formula.js";
 import type { FamilyChoice } from "../src/fit/model.js";
 import { analyzeFit } from "../src/analysis.js";
+import { uniformGenerator } from "../src/infer/random.js";
 
 export const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), "..", "..");
 export const FIXTURES = join(ROOT, "test", "fixtures");
@@ -34,17 +35,8 @@ export function assertRel(actual: number, expected: number, tol: number, what: s
     throw new Error(`${what}: ${actual} differs from ${expected} by ${(Math.abs(actual - expected) / Math.abs(expected)).toExponential(2)} relative (tolerance ${tol})`);
 }
 
-/** A seeded uniform generator (mulberry32) for simulated data in tests. */
-export function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+/** A seeded uniform generator for simulated data in tests (the project's own, src/infer/random.ts). */
+export const rng = uniformGenerator;
 
 /** Poisson draw by inversion (fine for the moderate means used in tests). */
 export function poissonDraw(u: () => number, mean: number): number {

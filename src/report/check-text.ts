@@ -1,6 +1,6 @@
 // The text report of `tallyfit check`.
 import type { CheckResult } from "../infer/check.js";
-import { CAUTION } from "./fit-text.js";
+import { closingBlock } from "./fit-text.js";
 import { fixed, pValue, table, wrap } from "./format.js";
 import type { Style } from "./style.js";
 
@@ -25,12 +25,6 @@ export function renderCheckText(r: CheckResult, o: { style: Style; width: number
   out.push(...wrap(paint(r.verdict.text), o.width - 2, "  ").map((l) => "  " + l));
   out.push(...wrap(`Next: ${r.verdict.next_step}`, o.width - 2, "  ").map((l) => "  " + l));
   out.push("");
-  const warns = r.warnings.filter((w) => !/left out$/.test(w));
-  if (warns.length) {
-    out.push(st.caution("Warnings"));
-    warns.forEach((w, i) => out.push(...wrap(`${i + 1}. ${w}`, o.width - 2, "   ").map((l) => "  " + l)));
-    out.push("");
-  }
-  out.push(...wrap(`Reading these results: ${CAUTION}`, o.width));
+  out.push(...closingBlock(r.warnings.filter((w) => !/left out$/.test(w)), st, o.width));
   return out.join("\n") + "\n";
 }

@@ -168,14 +168,20 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
     out.push(...groupTable(s.summary_by));
     out.push("");
   }
-  const warns = s.warnings.filter((w) => !s.notices.includes(w));
+  out.push(...closingBlock(s.warnings.filter((w) => !s.notices.includes(w)), st, o.width));
+  return out.join("\n") + "\n";
+}
+
+/** Numbered warnings (when there are any), then the short caution that ends every report. */
+export function closingBlock(warns: string[], st: Style, width: number): string[] {
+  const out: string[] = [];
   if (warns.length) {
     out.push(st.caution("Warnings"));
-    warns.forEach((w, i) => out.push(...wrap(`${i + 1}. ${w}`, o.width - 2, "   ").map((l) => "  " + l)));
+    warns.forEach((w, i) => out.push(...wrap(`${i + 1}. ${w}`, width - 2, "   ").map((l) => "  " + l)));
     out.push("");
   }
-  out.push(...wrap(`Reading these results: ${CAUTION}`, o.width));
-  return out.join("\n") + "\n";
+  out.push(...wrap(`Reading these results: ${CAUTION}`, width));
+  return out;
 }
 
 function dispersionBlock(s: FitSummary, o: TextOptions): string[] {
