@@ -86,7 +86,9 @@ test("flags: data with no excess are flagged near the nominal 1%; an injected ex
   const pr = predictCsv(saved, simulate(u, 1000, 0), 200);
   const [, hi] = binomialLimits(1000, 0.01);
   assert.ok(pr.n_flagged <= hi, `${pr.n_flagged} flagged of 1000 (at most ${hi} expected)`);
-  const excess = "unit,x,e,y\nu2,0.5,10,150\nu2,0.5,10,52\n"; // expected about 4·10·e^{0.3+0.2} ≈ 66
+  // A clinic-week at 3× its rate: the count is three times the row's expected count.
+  const base = predictCsv(saved, "unit,x,e\nu2,0.5,10\n", 200).rows[0].expected;
+  const excess = `unit,x,e,y\nu2,0.5,10,${Math.round(3 * base)}\nu2,0.5,10,${Math.round(base)}\n`;
   const ex = predictCsv(saved, excess, 200);
   assert.equal(ex.rows[0].flagged, true, `3× the expected count is flagged (limit ${ex.rows[0].flag_limit})`);
   assert.equal(ex.rows[1].flagged, false);
