@@ -69,6 +69,11 @@ export interface FitOptions {
    * below the tolerance. Used for the many constrained fits of a profile.
    */
   stopOnPredicted?: boolean;
+  /**
+   * Estimate the NB2 alpha jointly: after each IRLS step, this returns the next
+   * alpha at the new means (0: the boundary, which stops the fit unconverged).
+   */
+  alphaStep?: (mu: Float64Array, alpha: number) => number;
 }
 
 /** Screening results: which columns are estimated and how columns are conditioned. */
@@ -580,7 +585,7 @@ export function transformMatrix(m: ModelMatrix, setup: FitSetup): Float64Array {
 
 /** Fit a Poisson (alpha = 0) or NB2 model with known alpha by IRLS. */
 export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}): GlmFit {
-  const alpha = options.alpha ?? 0;
+  let alpha = options.alpha ?? 0;
   const control = { ...DEFAULT_CONTROL, ...options.control };
   const setup = options.setup ?? prepareFit(m, data, options.fixed);
   const { inFit, order, active } = setup;
@@ -628,7 +633,7 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
       eta[i] = Math.log(mu[i]);
     }
   }
-  const dtab = devianceTable(y, alpha);
+  let dtab = devianceTable(y, alpha);
   let devOld = totalDeviance(y, mu, eta, pw, inFit, alpha, dtab);
   if (!Number.isFinite(devOld) && haveBeta) {
     haveBeta = false;
@@ -694,9 +699,17 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
     mu.set(newMu);
     const change = Math.abs(dev - devOld) / (Math.abs(dev) + 0.1);
     devOld = dev;
-    if (change < control.tolerance) { converged = true; break; }
+    let alphaSettled = true;
+    if (options.alphaStep) {
+      // Joint estimation: one step for alpha at the new means, then the deviance at the new alpha.
+      const next = options.alphaStep(mu, alpha);
+      if (!(next > 0)) break; // alpha reached the boundary: the caller takes over
+      alphaSettled = Math.abs(Math.log(next / alpha)) < 1e-9;
+      if (next !== alpha) { alpha = next; dtab = devianceTable(y, alpha); dev = totalDeviance(y, mu, eta, pw, inFit, alpha, dtab); devOld = dev; }
+    }
+    if (change < control.tolerance && alphaSettled) { converged = true; break; }
     // The next step would change the deviance by about predicted²: stop when that is below tolerance.
-    if (halvings === 0 && predicted >= 0 && (predicted / (Math.abs(dev) + 0.1)) ** 2 < control.tolerance) { converged = true; break; }
+    if (alphaSettled && halvings === 0 && predicted >= 0 && (predicted / (Math.abs(dev) + 0.1)) ** 2 < control.tolerance) { converged = true; break; }
   }
 
   // Information at the estimate.

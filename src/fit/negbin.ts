@@ -174,6 +174,42 @@ export function fitNegbin(m: ModelMatrix, data: FitData, o: NegbinOptions): Negb
   };
   if (!warm && scoreAtZero(data.y, poissonFit().mu, pw) <= 0) return atBoundary(0);
 
+  // Fast path: one Newton step for alpha after each IRLS step, from a good start.
+  // When it does not settle (or alpha heads for the boundary) the safeguarded
+  // profile search below decides.
+  {
+    let hitBoundary = false;
+    const alphaStep = (mu: Float64Array, a: number): number => {
+      const { g, h } = alphaDerivatives(data.y, mu, pw, a);
+      const d1 = a * g, d2 = a * a * h + a * g;
+      let step = d2 < 0 ? -d1 / d2 : Math.sign(d1);
+      step = Math.max(-2, Math.min(2, step));
+      const next = a * Math.exp(step);
+      if (next < ALPHA_MIN) { hitBoundary = true; return 0; }
+      if (next > ALPHA_CEILING) { hitBoundary = true; return 0; }
+      return next;
+    };
+    const a0 = warm ? o.startAlpha! : Math.min(Math.max(momentAlpha(data.y, poissonFit().mu, pw), 1e-4), 1e2);
+    const start0 = warm ? o.start! : poissonFit().beta;
+    let joint: GlmFit | null = null;
+    try {
+      joint = fitGlm(m, data, { control: { ...o.control, maxIter: Math.max(o.control.maxIter, 100) }, fixed: o.fixed, start: start0, setup, alpha: a0, alphaStep, skipCovariance: !!o.likelihoodOnly });
+    } catch (e) {
+      if (!(e instanceof FitError)) throw e;
+    }
+    if (joint && joint.converged && !hitBoundary && joint.alpha > 0) {
+      const alpha = joint.alpha;
+      // The score for alpha must be ~0 at the estimate; otherwise use the safeguarded search.
+      const { g, h } = alphaDerivatives(data.y, joint.mu, pw, alpha);
+      if (Math.abs(alpha * g) <= 1e-6 * (1 + Math.abs(alpha * alpha * h))) {
+        return {
+          fit: joint, alpha, alphaStdError: h < 0 ? 1 / Math.sqrt(-h) : null, logLik: negbinLogLik(data.y, joint.mu, pw, alpha), boundary: false,
+          outerIterations: joint.iterations, poisson: pois ?? joint, poissonLogLik: pois ? poisLL : NaN,
+        };
+      }
+    }
+  }
+
   let beta = warm ? o.start! : poissonFit().beta;
   let last: GlmFit = warm ? (null as unknown as GlmFit) : poissonFit();
   let evals = 0;
