@@ -149,7 +149,10 @@ export interface NegbinOptions {
 }
 
 /**
- * Fit the NB2 model. alpha maximises the profile log-likelihood
+ * Fit the NB2 model. First, jointly: one Newton step for log alpha at the new
+ * means after each IRLS step, accepted when it converges with alpha's score
+ * at ~0. Otherwise (alpha near the boundary, or no convergence), alpha
+ * maximises the profile log-likelihood
  * ℓp(alpha) = max_beta ℓ(beta, alpha), each evaluation an IRLS fit warm-started
  * from the last; by the envelope theorem dℓp/dalpha is the alpha score at
  * betâ(alpha). The root of that score in θ = log alpha is found by Newton
