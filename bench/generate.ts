@@ -2,31 +2,11 @@
 // numeric covariate, an exposure and a count, written as CSV. Invented data.
 import { createWriteStream } from "node:fs";
 import { once } from "node:events";
-import { uniformGenerator } from "../src/infer/random.js";
-
-const rng = uniformGenerator;
-
-function poisson(u: () => number, mean: number): number {
-  let k = 0, p = Math.exp(-mean), s = p;
-  const x = u();
-  while (x > s && k < 1000) { k++; p *= mean / k; s += p; }
-  return k;
-}
-
-function gamma(u: () => number, shape: number): number {
-  const d = shape - 1 / 3, c = 1 / Math.sqrt(9 * d);
-  for (;;) {
-    let x: number, v: number;
-    do { x = Math.sqrt(-2 * Math.log(1 - u())) * Math.cos(2 * Math.PI * u()); v = 1 + c * x; } while (v <= 0);
-    v = v * v * v;
-    const w = u();
-    if (w < 1 - 0.0331 * x ** 4 || Math.log(w) < 0.5 * x * x + d * (1 - v + Math.log(v))) return d * v;
-  }
-}
+import { negbinDraw, uniformGenerator } from "../src/infer/random.js";
 
 /** Write `rows` rows to `path`; alpha > 0 makes the counts negative binomial. */
 export async function writeBenchFile(path: string, rows: number, seed = 1, alpha = 0.3): Promise<void> {
-  const u = rng(seed);
+  const u = uniformGenerator(seed);
   const out = createWriteStream(path);
   out.write("region,agegrp,sex,insured,score,exposure,visits\n");
   const reg = Array.from({ length: 20 }, (_, i) => Math.sin(i) * 0.4);
@@ -37,8 +17,7 @@ export async function writeBenchFile(path: string, rows: number, seed = 1, alpha
     const score = Math.round(u() * 1000) / 100;
     const e = Math.round((0.5 + u() * 4) * 100) / 100;
     const mu = e * Math.exp(-0.5 + reg[r] + age[a] + 0.15 * s - 0.2 * ins + 0.03 * score);
-    const m = alpha > 0 ? mu * alpha * gamma(u, 1 / alpha) : mu;
-    buf += `r${r + 1},a${a + 1},${s ? "f" : "m"},${ins},${score},${e},${poisson(u, m)}\n`;
+    buf += `r${r + 1},a${a + 1},${s ? "f" : "m"},${ins},${score},${e},${negbinDraw(u, mu, alpha)}\n`;
     if (buf.length > 1 << 16) { if (!out.write(buf)) await once(out, "drain"); buf = ""; }
   }
   out.write(buf);

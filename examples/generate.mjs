@@ -3,57 +3,14 @@
 // Scenario (invented for tallyfit): a network of six walk-in clinics records
 // visits per clinic-day with the hours it was open; a hospital records falls
 // per ward-month with occupied bed-days. Nothing here is real data.
-//   node examples/generate.mjs          rewrites clinic_visits.csv, clinic_visits_week49.csv and ward_falls.csv
+//   node examples/generate.mjs          (after npm ci, which builds dist/) rewrites clinic_visits.csv, clinic_visits_week49.csv and ward_falls.csv
 import { writeFileSync } from "node:fs";
 import { dirname, join } from "node:path";
 import { fileURLToPath } from "node:url";
+// The project's own seeded generator and samplers (built by npm ci / npm run build).
+import { negbinDraw as negbin, normalDraw as normal, poissonDraw as poisson, uniformGenerator as rng } from "../dist/src/infer/random.js";
 
 const here = dirname(fileURLToPath(import.meta.url));
-
-/** mulberry32: a small seeded 32-bit generator. */
-function rng(seed) {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
-
-function normal(u) {
-  return Math.sqrt(-2 * Math.log(1 - u())) * Math.cos(2 * Math.PI * u());
-}
-
-/** Gamma(shape, 1) by Marsaglia and Tsang (2000). */
-function gamma(u, shape) {
-  if (shape < 1) return gamma(u, shape + 1) * Math.pow(u(), 1 / shape);
-  const d = shape - 1 / 3, c = 1 / Math.sqrt(9 * d);
-  for (;;) {
-    let x, v;
-    do { x = normal(u); v = 1 + c * x; } while (v <= 0);
-    v = v * v * v;
-    const w = u();
-    if (w < 1 - 0.0331 * x ** 4 || Math.log(w) < 0.5 * x * x + d * (1 - v + Math.log(v))) return d * v;
-  }
-}
-
-/** Poisson by inversion for small means, normal-corrected chunks for large ones. */
-function poisson(u, mean) {
-  if (mean > 500) {
-    const half = poisson(u, mean / 2);
-    return half + poisson(u, mean / 2);
-  }
-  let k = 0, p = Math.exp(-mean), s = p;
-  const x = u();
-  while (x > s && k < 10000) { k++; p *= mean / k; s += p; }
-  return k;
-}
-
-function negbin(u, mean, alpha) {
-  return alpha > 0 ? poisson(u, mean * gamma(u, 1 / alpha) * alpha) : poisson(u, mean);
-}
 
 function clinicVisits(weeks = [1, 48], seed = 20261201, excess = null) {
   const u = rng(seed);

@@ -7,7 +7,7 @@ export { buildDesign, type Design, type DesignColumn, type DesignOptions, type F
 export { naturalCompare } from "./design/naming.js";
 export { fitGlm, prepareFit, columnValues, DEFAULT_CONTROL, type FitControl, type FitData, type GlmFit } from "./fit/irls.js";
 export { fitModel, constrainedStatistic, nullDeviance, type FamilyChoice, type FamilyName, type ModelFit } from "./fit/model.js";
-export { fitNegbin, negbinLogLik, maximizeAlpha, alphaDerivatives, type NegbinFit } from "./fit/negbin.js";
+export { fitNegbin, negbinLogLik, alphaDerivatives, type NegbinFit } from "./fit/negbin.js";
 export { logDensity, unitDeviance, variance } from "./fit/family.js";
 export { summarizeFit, fitStatistics, quasiPhi, boundaryLrTest, type CoefficientRow, type FitSummary, type NegbinSummary } from "./infer/summary.js";
 export { runChecks, dispersionFlagged, type CheckResult, type CheckTest } from "./infer/check.js";

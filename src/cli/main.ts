@@ -117,7 +117,14 @@ function addCommonOptions(cmd: Command, multiModel = false): Command {
     .option("--debug", "show a stack trace on internal errors");
 }
 
-function notice(opts: CommonOptions, msg: string): void {
+/** What output needs to know of the options, shared by every command. */
+interface OutputOptions {
+  output?: string;
+  quiet?: boolean;
+  color: boolean;
+}
+
+function notice(opts: { quiet?: boolean }, msg: string): void {
   if (!opts.quiet) process.stderr.write(`tallyfit: ${msg}\n`);
 }
 
@@ -183,13 +190,13 @@ function oneOf(name: string, value: string, allowed: string[]): string {
   return value;
 }
 
-function textLayout(opts: CommonOptions) {
+function textLayout(opts: OutputOptions) {
   const toTTY = !opts.output && process.stdout.isTTY;
   const color = !opts.output && wantColor(process.stdout.isTTY, process.env, opts.color);
   return { style: makeStyle(color), width: toTTY ? Math.max(60, Math.min(process.stdout.columns ?? 100, 120)) : 100 };
 }
 
-async function emit(opts: CommonOptions, content: string): Promise<void> {
+async function emit(opts: OutputOptions, content: string): Promise<void> {
   if (opts.output) {
     await writeAtomic(opts.output, content);
     notice(opts, `report written to ${opts.output}`);
@@ -297,10 +304,10 @@ async function runPredict(file: string | undefined, opts: PredictCliOptions): Pr
     const idx = Int32Array.from({ length: pd.n }, (_, i) => i);
     const cols = saved.factors.map((f) => groupLabels(table, f.name, idx));
     const labels = Array.from({ length: pd.n }, (_, i) => cols.map((c) => c[i]).join(" "));
-    content = renderPredictText(result, groups, { ...textLayout(opts as unknown as CommonOptions), labels, labelHeading: saved.factors.map((f) => f.name).join(" ") });
+    content = renderPredictText(result, groups, { ...textLayout(opts), labels, labelHeading: saved.factors.map((f) => f.name).join(" ") });
   }
-  await emit(opts as unknown as CommonOptions, content);
-  if (result.n_flagged > 0) notice(opts as unknown as CommonOptions, `${result.n_flagged} row${result.n_flagged === 1 ? "" : "s"} flagged above the ${flagLevel} limit`);
+  await emit(opts, content);
+  if (result.n_flagged > 0) notice(opts, `${result.n_flagged} row${result.n_flagged === 1 ? "" : "s"} flagged above the ${flagLevel} limit`);
   return opts.failOnFlag && result.n_flagged > 0 ? EXIT.flagged : EXIT.ok;
 }
 
@@ -314,8 +321,8 @@ async function runCompare(file: string | undefined, opts: Omit<CommonOptions, "f
   const { designs, control } = await loadDesigns(file, { ...opts, family: "poisson" }, opts.model);
   const entries = designs.map((design, i) => ({ design, mf: fitModel(design, { family: (fams.length === 1 ? fams[0] : fams[i]) as FamilyName, control }) }));
   const result = compareModels(entries);
-  const content = opts.format === "json" ? renderJson(result) : renderCompareText(result, textLayout(opts as unknown as CommonOptions));
-  await emit(opts as unknown as CommonOptions, content);
+  const content = opts.format === "json" ? renderJson(result) : renderCompareText(result, textLayout(opts));
+  await emit(opts, content);
   return EXIT.ok;
 }
 

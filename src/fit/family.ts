@@ -3,6 +3,19 @@
 // Regression Analysis of Count Data, 2nd ed., 2013, §3.3).
 import { lgamma } from "../infer/distributions.js";
 
+const maxCounts = new WeakMap<Float64Array, number>();
+
+/** The largest count, remembered per array (the response does not change between fits). */
+export function maxCount(y: Float64Array): number {
+  let t = maxCounts.get(y);
+  if (t === undefined) {
+    t = 0;
+    for (let i = 0; i < y.length; i++) if (y[i] > t) t = y[i];
+    maxCounts.set(y, t);
+  }
+  return t;
+}
+
 /** Variance function V(mu). */
 export function variance(mu: number, alpha: number): number {
   return mu + alpha * mu * mu;

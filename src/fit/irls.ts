@@ -6,7 +6,7 @@ import type { ModelMatrix } from "../design/design.js";
 import { FitError } from "../errors.js";
 import type { SymMatrix } from "../linalg/dense.js";
 import { cholesky, choleskyInverse, choleskySolve, congruence, screenRank } from "../linalg/dense.js";
-import { unitDeviance } from "./family.js";
+import { maxCount, unitDeviance } from "./family.js";
 
 export interface FitControl {
   maxIter: number;
@@ -302,14 +302,28 @@ export function compileSlots(m: ModelMatrix, lay: Layout): CompiledSlot[] {
 }
 
 /**
- * X'WX and X'Wz over the active columns in scaled coordinates, accumulated
- * slot pair by slot pair over the rows, so a row costs the square of its
- * non-zero columns and the dense design is never formed.
+ * X'WX and X'Wz over the estimated columns of a fit's setup, in its scaled
+ * coordinates: from the setup's cells when it has them, else row by row.
  */
-export function crossProducts(m: ModelMatrix, lay: Layout | CompiledSlot[], w: Float64Array, z: Float64Array | null, q?: number): { a: SymMatrix; b: Float64Array } {
-  const cs = Array.isArray(lay) ? lay : compileSlots(m, lay);
-  const dim = Array.isArray(lay) ? q! : lay.q;
-  return crossProductsCompiled(cs, m.n, dim, w, z);
+export function setupCrossProducts(m: ModelMatrix, setup: FitSetup, w: Float64Array, z: Float64Array | null): { a: SymMatrix; b: Float64Array } {
+  const q = setup.order.length;
+  const cells = cellsOf(m, setup);
+  return cells ? crossProductsCells(slotValuesOf(m, setup), cells, m.n, q, w, z) : crossProductsCompiled(compiledOf(m, setup), m.n, q, w, z);
+}
+
+/** The setup's cells, built or derived from its parent's on first use (null: too many to help). */
+function cellsOf(m: ModelMatrix, setup: FitSetup): CellLayout | null {
+  if (setup.cells === undefined)
+    setup.cells = setup.parentCells
+      ? recellPositions(m, setup.parentCells, setup.active)
+      : setup.parentCells === null
+        ? null
+        : buildCells(compiledOf(m, setup), m.n, Math.max(64, Math.floor(m.n / 8)), setup.inFit);
+  return setup.cells;
+}
+
+function slotValuesOf(m: ModelMatrix, setup: FitSetup): (Float64Array | null)[] {
+  return (setup.slotValues ??= compiledOf(m, setup).map((c) => c.val));
 }
 
 /**
@@ -527,8 +541,7 @@ function expInto(eta: Float64Array, inFit: Uint8Array, mu: Float64Array): void {
 interface DevianceTable { ylogy: Float64Array; nb: Float64Array | null; alpha: number }
 
 function devianceTable(y: Float64Array, alpha: number): DevianceTable | null {
-  let top = 0;
-  for (let i = 0; i < y.length; i++) if (y[i] > top) top = y[i];
+  const top = maxCount(y);
   if (top > 1 << 20) return null;
   const ylogy = new Float64Array(top + 1);
   for (let k = 1; k <= top; k++) ylogy[k] = k * Math.log(k);
@@ -594,13 +607,12 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
   const pw = data.weights;
   const n = m.n;
 
-  const off = new Float64Array(data.offset);
-  if (options.fixed) addFixedOffset(m, options.fixed, off);
+  // The offset is copied only when fixed coefficients are added to it.
+  let off = data.offset;
+  if (options.fixed) { off = new Float64Array(data.offset); addFixedOffset(m, options.fixed, off); }
 
-  if (setup.cells === undefined)
-    setup.cells = setup.parentCells ? recellPositions(m, setup.parentCells, active) : setup.parentCells === null ? null : buildCells(compiledOf(m, setup), n, Math.max(64, Math.floor(n / 8)), inFit);
-  const cells = setup.cells;
-  const vals = setup.slotValues ?? compiledOf(m, setup).map((c) => c.val);
+  const cells = cellsOf(m, setup);
+  const vals = slotValuesOf(m, setup);
   const cs = cells ? null : compiledOf(m, setup);
   const xprod = (w_: Float64Array, z_: Float64Array | null) => (cells ? crossProductsCells(vals, cells, n, q, w_, z_) : crossProductsCompiled(cs!, n, q, w_, z_));
   const linpred = (b_: Float64Array, e_: Float64Array) => (cells ? linearPredictorCells(cells, vals, b_, off, e_) : linearPredictor(cs!, inFit, b_, off, e_));

@@ -4,7 +4,7 @@
 import type { Design, ModelMatrix } from "../design/design.js";
 import { FitError } from "../errors.js";
 import { unitDeviance } from "./family.js";
-import { deriveSetup, fitGlm, linearPredictorFrom, prepareFit, type FitControl, type FitSetup, type GlmFit } from "./irls.js";
+import { DEFAULT_CONTROL, deriveSetup, fitGlm, linearPredictorFrom, prepareFit, type FitControl, type FitSetup, type GlmFit } from "./irls.js";
 import { fitNegbin, negbinLogLik } from "./negbin.js";
 
 export type FamilyName = "poisson" | "negbin" | "quasipoisson";
@@ -33,7 +33,6 @@ export interface FitModelOptions {
   control?: Partial<FitControl>;
 }
 
-const DEFAULTS: FitControl = { maxIter: 50, tolerance: 1e-10 };
 
 /** Null deviance: the intercept-only model with the same offset, weights and alpha. */
 export function nullDeviance(design: Design, alpha: number, control: FitControl): number {
@@ -85,7 +84,7 @@ function checkReferenceEvents(design: Design): void {
 
 /** Fit the model; a fit that does not meet the convergence rule is a FitError (exit 3). */
 export function fitModel(design: Design, options: FitModelOptions): ModelFit {
-  const control = { ...DEFAULTS, ...options.control };
+  const control = { ...DEFAULT_CONTROL, ...options.control };
   checkReferenceEvents(design);
   if (options.family === "negbin") {
     const nb = fitNegbin(design.matrix, design, { control });

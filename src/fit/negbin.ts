@@ -4,7 +4,7 @@
 import type { ModelMatrix } from "../design/design.js";
 import { FitError } from "../errors.js";
 import { digamma, trigamma } from "../infer/distributions.js";
-import { lgammaRatio, logDensity } from "./family.js";
+import { lgammaRatio, logDensity, maxCount } from "./family.js";
 import { lgamma } from "../infer/distributions.js";
 import { fitGlm, prepareFit, type FitControl, type FitData, type FitSetup, type GlmFit } from "./irls.js";
 
@@ -57,11 +57,7 @@ export function negbinLogLik(y: Float64Array, mu: Float64Array, pw: Float64Array
 
 const TABLE_LIMIT = 1 << 20;
 
-function maxCount(y: Float64Array): number {
-  let t = 0;
-  for (let i = 0; i < y.length; i++) if (y[i] > t) t = y[i];
-  return t;
-}
+
 
 /** Score g = ∂ℓ/∂α and its derivative h = ∂²ℓ/∂α² at fixed means (Cameron and Trivedi 2013, §3.3). */
 export function alphaDerivatives(y: Float64Array, mu: Float64Array, pw: Float64Array | null, alpha: number): { g: number; h: number } {
@@ -105,31 +101,6 @@ export function scoreAtZero(y: Float64Array, mu: Float64Array, pw: Float64Array 
 /** Below this alpha the model is treated as the Poisson (the profile is flat to ~1e-6 in log-likelihood there). */
 const ALPHA_MIN = 1e-6;
 const ALPHA_CEILING = 1e8;
-
-/** Maximise ℓ(alpha) at fixed means: Newton on θ = log alpha with step-halving; returns 0 at the boundary. */
-export function maximizeAlpha(y: Float64Array, mu: Float64Array, pw: Float64Array | null, alpha0: number): number {
-  if (scoreAtZero(y, mu, pw) <= 0) return 0;
-  let theta = Math.log(Math.min(Math.max(alpha0, 1e-4), 1e4));
-  let ll = negbinLogLik(y, mu, pw, Math.exp(theta));
-  for (let it = 0; it < 200; it++) {
-    const a = Math.exp(theta);
-    const { g, h } = alphaDerivatives(y, mu, pw, a);
-    const d1 = a * g; // dℓ/dθ
-    const d2 = a * a * h + a * g; // d²ℓ/dθ²
-    let step = d2 < 0 ? -d1 / d2 : Math.sign(d1) * 1;
-    step = Math.max(-5, Math.min(5, step));
-    let next = theta + step, llNext = negbinLogLik(y, mu, pw, Math.exp(next));
-    let k = 0;
-    while (!(llNext >= ll - 1e-12 * Math.abs(ll)) && k < 50) { step /= 2; next = theta + step; llNext = negbinLogLik(y, mu, pw, Math.exp(next)); k++; }
-    theta = next;
-    ll = llNext;
-    if (Math.exp(theta) < ALPHA_MIN) return 0;
-    if (Math.exp(theta) > ALPHA_CEILING)
-      throw new FitError(`the negative-binomial alpha grows without bound (above ${ALPHA_CEILING}); the counts are too dispersed for this model, or the model misses a major term.`);
-    if (Math.abs(step) < 1e-12) break;
-  }
-  return Math.exp(theta);
-}
 
 export interface NegbinOptions {
   control: FitControl;

@@ -1,7 +1,7 @@
 // Dispersion and zero-count diagnostics for a Poisson fit, each with its
 // statistic, degrees of freedom, p-value and a one-line reading, and a verdict.
 import type { Design } from "../design/design.js";
-import { crossProducts, rowQuadraticForms } from "../fit/irls.js";
+import { setupCrossProducts, rowQuadraticForms } from "../fit/irls.js";
 import type { ModelFit } from "../fit/model.js";
 import { cholesky, choleskySolve } from "../linalg/dense.js";
 import { chiSquareUpperTail, normalUpperTail } from "./distributions.js";
@@ -144,7 +144,7 @@ export function runChecks(design: Design, pois: ModelFit, nb: ModelFit, testLeve
   const ones = new Float64Array(n).fill(1);
   const wmu = new Float64Array(n);
   for (let i = 0; i < n; i++) wmu[i] = w(i) * mu[i];
-  const { a: xwx, b: mvec } = crossProducts(design.matrix, { inFit: s.inFit, active: s.active, q: s.order.length, center: s.center, scale: s.scale }, wmu, ones);
+  const { a: xwx, b: mvec } = setupCrossProducts(design.matrix, s, wmu, ones);
   const l = cholesky(xwx);
   let adj = 0;
   if (l) { const sol = choleskySolve(l, xwx.p, mvec); for (let k = 0; k < sol.length; k++) adj += sol[k] * mvec[k]; }

@@ -2,7 +2,7 @@
 import type { Design } from "../design/design.js";
 import { constrainedStatistic, noEventsGuess, type ModelFit } from "../fit/model.js";
 import { chiSquareQuantile, normalQuantile, studentQuantile } from "./distributions.js";
-import { fitStatistics, quasiPhi } from "./summary.js";
+import { quasiPhi, residualDf } from "./summary.js";
 import { profileLimits, profileUpperFromMinusInfinity, type ProfileResult } from "./profile.js";
 
 /**
@@ -13,7 +13,7 @@ import { profileLimits, profileUpperFromMinusInfinity, type ProfileResult } from
 export function profileAll(design: Design, mf: ModelFit, level: number): Map<number, ProfileResult> {
   const quasi = mf.family === "quasipoisson";
   const phi = quasi ? quasiPhi(design, mf.fit) : 1;
-  const df = fitStatistics(design, mf.fit).df;
+  const df = residualDf(design, mf.fit);
   const tq = quasi && df > 0 ? studentQuantile(1 - (1 - level) / 2, df) : NaN;
   const crit = quasi && df > 0 ? tq * tq : chiSquareQuantile(level, 1);
   const zq = quasi && df > 0 ? tq : normalQuantile(1 - (1 - level) / 2);

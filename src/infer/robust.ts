@@ -3,7 +3,7 @@
 // s_i = x_i (y_i − mu_i)/(1 + alpha·mu_i) is row i's score contribution
 // (White 1980; for GLMs, e.g. Zeileis 2006, J. Statistical Software 16(9)).
 import type { Design } from "../design/design.js";
-import { crossProducts, transformMatrix, type GlmFit } from "../fit/irls.js";
+import { setupCrossProducts, transformMatrix, type GlmFit } from "../fit/irls.js";
 import { congruence, type SymMatrix } from "../linalg/dense.js";
 
 export function sandwichCovariance(design: Design, fit: GlmFit): SymMatrix {
@@ -17,7 +17,7 @@ export function sandwichCovariance(design: Design, fit: GlmFit): SymMatrix {
     w[i] = (weights ? weights[i] : 1) * r * r;
   }
   const s = fit.setup;
-  const { a: meat } = crossProducts(design.matrix, { inFit: s.inFit, active: s.active, q: s.order.length, center: s.center, scale: s.scale }, w, null);
+  const { a: meat } = setupCrossProducts(design.matrix, s, w, null);
   const bread = fit.covarianceScaled;
   const scaled = congruence(bread.data, meat); // A⁻¹ B A⁻¹ (A⁻¹ is symmetric)
   return congruence(transformMatrix(design.matrix, s), scaled);

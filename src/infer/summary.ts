@@ -120,6 +120,15 @@ export function fitStatistics(design: Design, fit: GlmFit, negbin = fit.alpha > 
   return { pearson, logLik: ll, nEff, nCoef: k, nPar, df, aic: -2 * ll + 2 * nPar, bic: -2 * ll + Math.log(nEff) * nPar };
 }
 
+/** Residual degrees of freedom: rows (summed weights) less the coefficients estimated or at −∞. */
+export function residualDf(design: Design, fit: GlmFit): number {
+  let nEff = design.n;
+  if (design.weights) { nEff = 0; for (let i = 0; i < design.n; i++) nEff += design.weights[i]; }
+  let k = 0;
+  for (const s of fit.status) if (s === "estimated" || s === "no_events") k++;
+  return nEff - k;
+}
+
 /** Quasi-Poisson dispersion phi = Pearson chi-square / residual df (McCullagh and Nelder 1989, §4.5.2). */
 export function quasiPhi(design: Design, fit: GlmFit): number {
   const st = fitStatistics(design, fit);

@@ -5,7 +5,7 @@ import { createReadStream } from "node:fs";
 import { createHash } from "node:crypto";
 import { ColumnReader } from "./tokenizer.js";
 import { InputError } from "../errors.js";
-import type { Column, Table } from "./table.js";
+import { checkHeader, type Column, type Table } from "./table.js";
 
 export const DEFAULT_NA = ["", "NA", "NaN", "null", "."];
 
@@ -238,16 +238,7 @@ export function parseTableWithCsvParse(input: Uint8Array | string, options: Load
   const onRecord = (record: string[], context: { lines: number; records: number }): null => {
     if (header === null) {
       header = record.map((h) => h.trim());
-      const seen = new Map<string, number>();
-      header.forEach((h, j) => {
-        if (h === "")
-          throw new InputError(
-            `${source}, row 1: column ${j + 1} of ${header!.length} has no name${j === header!.length - 1 ? " (a delimiter at the end of the header line?)" : ""}; give every column a name in the header.`,
-          );
-        if (seen.has(h))
-          throw new InputError(`${source}, row 1: column name '${h}' appears twice (columns ${seen.get(h)! + 1} and ${j + 1}); give every column its own name.`);
-        seen.set(h, j);
-      });
+      checkHeader(header, source, (m) => new InputError(m));
       builders = header.map((h) =>
         h !== "" && (selectSet === null || selectSet.has(h))
           ? { name: h, forced: forced.has(h), numeric: !forced.has(h), values: new Float64Array(1024), codes: new Int32Array(forced.has(h) ? 1024 : 0), dict: new Map(), levels: [], firstText: null }
@@ -327,8 +318,7 @@ export function parseTableWithCsvParse(input: Uint8Array | string, options: Load
 
 /** Read and parse a CSV file or standard input ("-"). */
 export async function loadTable(path: string, options: Omit<LoadOptions, "source"> = {}): Promise<Table> {
-  const { bytes, name } = await readSource(path);
-  return parseTable(bytes, { ...options, source: name });
+  return (await loadTableStream(path, options)).table;
 }
 
 /** All records as text (header first), for outputs that repeat the input columns. */

@@ -31,6 +31,17 @@ export interface Table {
   delimiter: string;
 }
 
+/** A header must name every column once: empty and repeated names are input errors. */
+export function checkHeader(header: string[], source: string, fail: (message: string) => Error): void {
+  const seen = new Map<string, number>();
+  header.forEach((h, j) => {
+    if (h === "")
+      throw fail(`${source}, row 1: column ${j + 1} of ${header.length} has no name${j === header.length - 1 ? " (a delimiter at the end of the header line?)" : ""}; give every column a name in the header.`);
+    if (seen.has(h)) throw fail(`${source}, row 1: column name '${h}' appears twice (columns ${seen.get(h)! + 1} and ${j + 1}); give every column its own name.`);
+    seen.set(h, j);
+  });
+}
+
 /** File row number (1-based, header = row 1) of data row index i (0-based). */
 export function fileRow(i: number): number {
   return i + 2;

@@ -5,7 +5,7 @@
 // a hash of their bytes. csv-parse remains the reference implementation in the
 // tests (test/io-tokenizer.test.ts compares the two on awkward files).
 import { InputError } from "../errors.js";
-import type { Column, Table } from "./table.js";
+import { checkHeader, type Column, type Table } from "./table.js";
 import { firstInvalidUtf8, parseDecimal, showDelimiter } from "./csv.js";
 
 const QUOTE = 0x22, LF = 0x0a, CR = 0x0d;
@@ -170,12 +170,7 @@ export class ColumnReader {
       const header: string[] = [];
       for (let j = 0; j < nf; j++) header.push(this.text(b, fs[j], fe[j], fq[j]).trim());
       this.header = header;
-      const seen = new Map<string, number>();
-      header.forEach((h, j) => {
-        if (h === "") throw new InputError(`${this.o.source}, row 1: column ${j + 1} of ${header.length} has no name${j === header.length - 1 ? " (a delimiter at the end of the header line?)" : ""}; give every column a name in the header.`);
-        if (seen.has(h)) throw new InputError(`${this.o.source}, row 1: column name '${h}' appears twice (columns ${seen.get(h)! + 1} and ${j + 1}); give every column its own name.`);
-        seen.set(h, j);
-      });
+      checkHeader(header, this.o.source, (m) => new InputError(m));
       this.builders = header.map((h) => {
         const keep = this.o.select === null || this.o.select.has(h);
         const forced = this.o.factors.has(h);

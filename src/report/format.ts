@@ -1,4 +1,5 @@
 // Deterministic number formatting (no locale data) shared by the reporters.
+import type { GroupSummary } from "../infer/groups.js";
 
 /** Group the integer part with commas: 12345.6 → "12,345.6". */
 export function group(s: string): string {
@@ -78,7 +79,6 @@ export function pEquals(p: number | null | undefined): string {
   return t.startsWith("<") ? `p < ${t.slice(1)}` : `p = ${t}`;
 }
 
-import type { GroupSummary } from "../infer/groups.js";
 
 /** The --summary-by table: observed, expected, O/E with exact limits, exposure and crude rate. */
 export function groupTable(g: GroupSummary): string[] {

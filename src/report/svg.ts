@@ -163,9 +163,8 @@ export function renderSvg(p: PlotInput): string {
     { x: 80, y: 90, w: 460, h: 300 },
     { x: 690, y: 90, w: 460, h: 300 },
     { x: 80, y: 500, w: 460, h: 300 },
-    { x: 690, y: 500, w: 460, h: 300 },
+    { x: 640, y: 500, w: 510, h: 300 }, // wider: the forest plot needs room for term names
   ];
-  boxes[3] = { x: 640, y: 500, w: 510, h: 300 };
   const body =
     rootogramPanel(boxes[0], p.rootogram) +
     residualPanel(boxes[1], p.fitted, p.residuals) +
