@@ -1,5 +1,5 @@
 // Fitting stage entry point: fits the requested family and the figures that
-// need a second fit (the null deviance, the Poisson fit beneath a negative
+// need a second fit (the intercept-only deviance, the Poisson fit beneath a negative
 // binomial), and the constrained fits that profile likelihoods need.
 import type { Design, ModelMatrix } from "../design/design.js";
 import { FitError } from "../errors.js";
@@ -34,7 +34,7 @@ export interface FitModelOptions {
 }
 
 
-/** Null deviance: the intercept-only model with the same offset, weights and alpha. */
+/** Deviance of the model with only an intercept (same offset, weights and alpha): the yardstick for how much the terms explain. */
 export function nullDeviance(design: Design, alpha: number, control: FitControl): number {
   const { y, offset, weights } = design;
   if (design.matrix.interceptCol < 0) {

@@ -103,7 +103,7 @@ export function parseModel(text: string, options: { intercept?: boolean } = {}):
     const t = next();
     if (t.kind === "name") {
       if (peek().kind === "op" && peek().value === "(")
-        fail(text, peek().pos, `transformations such as ${t.value}(...) are not part of the model string; add the transformed column to the data instead`);
+        fail(text, peek().pos, `'${t.value}' followed by a parenthesis reads as a transformation, which the model string does not take (only column names joined by +, : and *); add the transformed column to the data instead`);
       return [[t.value]];
     }
     if (t.kind === "one") { sawOne = true; return [[]]; }

@@ -130,14 +130,14 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
   out.push(st.heading("Fit"));
   const frows: string[][] = [
     ["deviance", fixed(s.deviance, 2), `on ${fixed(s.df_residual, 0)} residual df`],
-    ["null deviance", fixed(s.null_deviance, 2), `on ${fixed(s.df_null, 0)} df`],
+    ["intercept-only deviance", fixed(s.null_deviance, 2), `on ${fixed(s.df_null, 0)} df`],
     ["Pearson chi-square", fixed(s.pearson_chi2, 2), ""],
     ["log-likelihood", fixed(s.log_likelihood, 2), `${s.n_parameters} parameters`],
     ["AIC", fixed(s.aic, 2), ""],
     ["BIC", fixed(s.bic, 2), ""],
   ];
   out.push(...table(frows, ["l", "r", "l"]));
-  if (s.family === "negbin") out.push("  (deviance and null deviance are negative-binomial deviances at the fitted alpha)");
+  if (s.family === "negbin") out.push("  (both deviances are negative-binomial deviances at the fitted alpha)");
   out.push("");
 
   if (s.negbin) {
