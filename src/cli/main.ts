@@ -14,10 +14,10 @@ import { DEFAULT_NA, loadTableStream, parseRecords, parseTable, readSource } fro
 import { parseModel, termVariables } from "../model/formula.js";
 import { buildDesign } from "../design/design.js";
 import type { Design } from "../design/design.js";
-import { fitModel, type FamilyChoice, type FamilyName } from "../fit/model.js";
+import type { FamilyChoice, FamilyName } from "../fit/model.js";
 import { compareModels } from "../infer/compare.js";
 import { renderCompareText } from "../report/compare-text.js";
-import { analyzeCheckWithFits, analyzeFit, diagnosticsOf } from "../analysis.js";
+import { analyzeCheckWithFits, analyzeFit, diagnosticsOf, fitFamily, type MergeChoice } from "../analysis.js";
 import { summarizeFit, type FitSummary } from "../infer/summary.js";
 import { renderSvg } from "../report/svg.js";
 import { svgToPng } from "../report/png.js";
@@ -85,6 +85,7 @@ interface CommonOptions {
   na?: string;
   maxIter: string;
   tolerance: string;
+  mergePatterns: string;
   quiet?: boolean;
   color: boolean;
   debug?: boolean;
@@ -112,6 +113,7 @@ function addCommonOptions(cmd: Command, multiModel = false): Command {
     .option("--na <tokens>", "comma-separated missing-value tokens (default: empty, NA, NaN, null, .)")
     .option("--max-iter <n>", "IRLS iteration limit", "50")
     .option("--tolerance <x>", "IRLS convergence tolerance on the relative change in deviance", "1e-10")
+    .addOption(new Option("--merge-patterns <when>", "run IRLS over rows merged by covariate pattern: auto (10,000+ rows, at most half as many patterns), always or never").default("auto"))
     .option("--quiet", "no notices on stderr")
     .option("--no-color", "no colour")
     .option("--debug", "show a stack trace on internal errors");
@@ -185,6 +187,10 @@ function readingProgress(): (bytes: number, rows: number) => void {
   };
 }
 
+function mergeChoice(opts: { mergePatterns: string }): MergeChoice {
+  return oneOf("--merge-patterns", opts.mergePatterns, ["auto", "always", "never"]) as MergeChoice;
+}
+
 function oneOf(name: string, value: string, allowed: string[]): string {
   if (!allowed.includes(value)) throw new InputError(`${name} must be one of ${allowed.join(", ")} (got '${value}').`);
   return value;
@@ -233,7 +239,7 @@ async function runFit(file: string | undefined, opts: FitCliOptions): Promise<nu
   const per = parsePositive("--per", opts.per);
   const { design, control, table, sha256 } = await loadDesign(file, opts, opts.model[0], opts.summaryBy ? [opts.summaryBy] : []);
   if (opts.plot) plotKind(opts.plot);
-  const { summary, modelFit } = analyzeFit(design, { family, control, level, intervals, robust: !!opts.robust, testLevel });
+  const { summary, modelFit } = analyzeFit(design, { family, control, level, intervals, robust: !!opts.robust, testLevel, merge: mergeChoice(opts) });
   const wide = opts.format === "text" && !opts.output && process.stdout.isTTY && (process.stdout.columns ?? 0) >= 60;
   const diag = opts.plot || wide ? diagnosticsOf(design, modelFit) : null;
   if (opts.plot && diag) await writePlot(opts, opts.plot, `${summary.family} fit of ${summary.model}`, diag, summary);
@@ -259,7 +265,7 @@ async function runCheck(file: string | undefined, opts: CommonOptions & { alpha:
   const testLevel = parseTestLevel(opts.alpha);
   const { design, control } = await loadDesign(file, opts, opts.model[0]);
   if (opts.plot) plotKind(opts.plot);
-  const { check, poisson } = analyzeCheckWithFits(design, { control, testLevel });
+  const { check, poisson } = analyzeCheckWithFits(design, { control, testLevel, merge: mergeChoice(opts) });
   if (opts.plot) {
     const summary = summarizeFit(design, poisson, { level: parseLevel(opts.level) });
     await writePlot(opts, opts.plot, `Poisson fit of ${summary.model} (check)`, diagnosticsOf(design, poisson), summary);
@@ -319,7 +325,8 @@ async function runCompare(file: string | undefined, opts: Omit<CommonOptions, "f
     throw new InputError(`give --family once (for all models) or once per --model (${opts.model.length} times); got it ${fams.length} times.`);
   for (const f of fams) oneOf("--family", f, ["poisson", "negbin", "quasipoisson"]);
   const { designs, control } = await loadDesigns(file, { ...opts, family: "poisson" }, opts.model);
-  const entries = designs.map((design, i) => ({ design, mf: fitModel(design, { family: (fams.length === 1 ? fams[0] : fams[i]) as FamilyName, control }) }));
+  const merge = mergeChoice(opts);
+  const entries = designs.map((design, i) => ({ design, mf: fitFamily(design, (fams.length === 1 ? fams[0] : fams[i]) as FamilyName, control, merge) }));
   const result = compareModels(entries);
   const content = opts.format === "json" ? renderJson(result) : renderCompareText(result, textLayout(opts));
   await emit(opts, content);

@@ -5,12 +5,21 @@ import { lgamma } from "../infer/distributions.js";
 
 const maxCounts = new WeakMap<Float64Array, number>();
 
-/** The largest count, remembered per array (the response does not change between fits). */
+/**
+ * The largest count, remembered per array (the response does not change
+ * between fits); Infinity when some count is not a whole number (the summed
+ * counts of merged patterns under fractional weights), which turns off the
+ * tables indexed by count.
+ */
 export function maxCount(y: Float64Array): number {
   let t = maxCounts.get(y);
   if (t === undefined) {
     t = 0;
-    for (let i = 0; i < y.length; i++) if (y[i] > t) t = y[i];
+    for (let i = 0; i < y.length; i++) {
+      const v = y[i];
+      if (v > t) t = v;
+      if (v !== Math.floor(v)) { t = Infinity; break; }
+    }
     maxCounts.set(y, t);
   }
   return t;

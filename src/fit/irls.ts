@@ -747,17 +747,20 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
     beta[c] = s;
   });
 
-  const warnings: string[] = [];
-  let tiny = 0;
-  for (let i = 0; i < n; i++) if (inFit[i] && y[i] === 0 && mu[i] < 1e-10) tiny++;
-  if (tiny > 0)
-    warnings.push(
-      `${tiny} row${tiny === 1 ? " has" : "s have"} a fitted mean below 1e-10: some estimates drift toward infinity (a group with no events that the model fits exactly). If it is the reference level of a factor, choose another with --ref.`,
-    );
+  const warnings = driftWarnings(y, mu, inFit);
   return {
     beta, status: setup.status, estimable: order, covariance, mu, eta, deviance: dev, iterations: iter, converged, alpha,
     rowsAtZero: setup.rowsAtZero, warnings, setup, covarianceScaled: covS,
   };
+}
+
+/** The warning for rows whose fitted mean is numerically 0 although their column was estimated. */
+export function driftWarnings(y: Float64Array, mu: Float64Array, inFit: Uint8Array): string[] {
+  let tiny = 0;
+  for (let i = 0; i < y.length; i++) if (inFit[i] && y[i] === 0 && mu[i] < 1e-10) tiny++;
+  return tiny === 0
+    ? []
+    : [`${tiny} row${tiny === 1 ? " has" : "s have"} a fitted mean below 1e-10: some estimates drift toward infinity (a group with no events that the model fits exactly). If it is the reference level of a factor, choose another with --ref.`];
 }
 
 /** eta = offset + Σ β_c x_c on the original scale (NaN coefficients skipped, −∞ propagates). */

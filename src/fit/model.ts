@@ -2,9 +2,10 @@
 // need a second fit (the intercept-only deviance, the Poisson fit beneath a negative
 // binomial), and the constrained fits that profile likelihoods need.
 import type { Design, ModelMatrix } from "../design/design.js";
+import type { PatternMerge } from "../design/patterns.js";
 import { FitError } from "../errors.js";
 import { unitDeviance } from "./family.js";
-import { DEFAULT_CONTROL, deriveSetup, fitGlm, linearPredictorFrom, prepareFit, type FitControl, type FitSetup, type GlmFit } from "./irls.js";
+import { DEFAULT_CONTROL, deriveSetup, driftWarnings, fitGlm, linearPredictorFrom, prepareFit, type FitControl, type FitSetup, type GlmFit } from "./irls.js";
 import { fitNegbin, negbinLogLik } from "./negbin.js";
 
 export type FamilyName = "poisson" | "negbin" | "quasipoisson";
@@ -26,11 +27,19 @@ export interface ModelFit {
   nullDeviance: number;
   control: FitControl;
   negbin: NegbinPart | null;
+  /**
+   * When IRLS ran over merged covariate patterns: the merge and the fit on the
+   * patterns, which the constrained fits of term tests and profiles reuse.
+   * Everything else in this record is per row of the design.
+   */
+  patterns: { merge: PatternMerge; fit: ModelFit } | null;
 }
 
 export interface FitModelOptions {
   family: FamilyName;
   control?: Partial<FitControl>;
+  /** Fit over these merged patterns of the design (see design/patterns.ts), then return per-row results. */
+  patterns?: PatternMerge | null;
 }
 
 
@@ -86,6 +95,22 @@ function checkReferenceEvents(design: Design): void {
 export function fitModel(design: Design, options: FitModelOptions): ModelFit {
   const control = { ...DEFAULT_CONTROL, ...options.control };
   checkReferenceEvents(design);
+  const pm = options.patterns;
+  if (pm) {
+    if (options.family === "negbin" && pm.by === "covariates")
+      throw new Error("the negative binomial can only be fitted over patterns that also share the offset and the count");
+    const inner = fitModel(pm.design, { family: options.family, control: options.control });
+    const fit = expandFit(design, pm, inner.fit);
+    return {
+      family: inner.family,
+      fit,
+      // The NB merge keeps every row's likelihood term, so its figures are exact; the Poisson merge changes the saturated model.
+      nullDeviance: pm.by === "covariates" ? nullDeviance(design, 0, control) : inner.nullDeviance,
+      control,
+      negbin: inner.negbin ? { ...inner.negbin, poissonFit: expandFit(design, pm, inner.negbin.poissonFit) } : null,
+      patterns: { merge: pm, fit: inner },
+    };
+  }
   if (options.family === "negbin") {
     const nb = fitNegbin(design.matrix, design, { control });
     requireConverged(nb.fit);
@@ -98,11 +123,43 @@ export function fitModel(design: Design, options: FitModelOptions): ModelFit {
         alpha: nb.alpha, alphaStdError: nb.alphaStdError, boundary: nb.boundary, logLik: nb.logLik,
         poissonLogLik: nb.poissonLogLik, poissonFit: nb.poisson, outerIterations: nb.outerIterations,
       },
+      patterns: null,
     };
   }
   const fit = fitGlm(design.matrix, design, { control });
   requireConverged(fit);
-  return { family: options.family, fit, nullDeviance: nullDeviance(design, 0, control), control, negbin: null };
+  return { family: options.family, fit, nullDeviance: nullDeviance(design, 0, control), control, negbin: null, patterns: null };
+}
+
+/**
+ * A fit over merged patterns, stated per row of the design: eta_i = eta_p +
+ * (offset_i − offset_p), the deviance summed over rows. Coefficients and the
+ * information matrix are those of the pattern fit (X'WX is the same sum over
+ * rows or over patterns). The setup keeps the pattern fit's centring and
+ * scaling, so covarianceScaled stays valid against the rows' own matrix.
+ */
+export function expandFit(design: Design, pm: PatternMerge, f: GlmFit): GlmFit {
+  const n = design.n;
+  const pat = pm.pattern, offP = pm.design.offset, off = design.offset, pw = design.weights;
+  const eta = new Float64Array(n), mu = new Float64Array(n);
+  const inFit = new Uint8Array(n);
+  let rowsAtZero = 0, dev = 0;
+  for (let i = 0; i < n; i++) {
+    const p = pat[i];
+    if (!f.setup.inFit[p]) { eta[i] = -Infinity; if (!pw || pw[i] > 0) rowsAtZero++; continue; }
+    const e = f.eta[p] + (off[i] - offP[p]);
+    eta[i] = e;
+    mu[i] = Math.exp(e);
+    inFit[i] = 1;
+    dev += (pw ? pw[i] : 1) * unitDeviance(design.y[i], mu[i], f.alpha);
+  }
+  const s = f.setup;
+  return {
+    ...f,
+    mu, eta, deviance: dev, rowsAtZero,
+    warnings: driftWarnings(design.y, mu, inFit),
+    setup: { status: s.status, inFit, active: s.active, order: s.order, center: s.center, scale: s.scale, rowsAtZero },
+  };
 }
 
 /**

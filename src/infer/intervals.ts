@@ -19,15 +19,18 @@ export function profileAll(design: Design, mf: ModelFit, level: number): Map<num
   const zq = quasi && df > 0 ? tq : normalQuantile(1 - (1 - level) / 2);
   const out = new Map<number, ProfileResult>();
   const q = mf.fit.covariance.p;
+  // The constrained fits run where the fit ran: over merged patterns, if it did.
+  const fd = mf.patterns ? mf.patterns.merge.design : design;
+  const fm = mf.patterns ? mf.patterns.fit : mf;
   mf.fit.status.forEach((st, c) => {
     if (st === "estimated") {
       const k = mf.fit.estimable.indexOf(c);
       const se = Math.sqrt(mf.fit.covariance.data[k * q + k] * phi);
-      const stat = constrainedStatistic(design, mf, c);
+      const stat = constrainedStatistic(fd, fm, c);
       out.set(c, profileLimits((b) => stat(b) / phi, mf.fit.beta[c], zq * se, crit));
     } else if (st === "no_events") {
-      const stat = constrainedStatistic(design, mf, c);
-      out.set(c, profileUpperFromMinusInfinity((b) => stat(b) / phi, noEventsGuess(design, mf, c, crit * phi), crit));
+      const stat = constrainedStatistic(fd, fm, c);
+      out.set(c, profileUpperFromMinusInfinity((b) => stat(b) / phi, noEventsGuess(fd, fm, c, crit * phi), crit));
     }
   });
   return out;

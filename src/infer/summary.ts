@@ -68,6 +68,8 @@ export interface FitSummary {
   n_parameters: number;
   converged: boolean;
   iterations: number;
+  /** IRLS ran over merged covariate patterns (null: over the rows); every figure is still per row. */
+  merged_patterns: { rows: number; patterns: number; by: string } | null;
   deviance: number;
   null_deviance: number;
   df_null: number;
@@ -233,6 +235,7 @@ export function summarizeFit(design: Design, mf: ModelFit, options: SummaryOptio
     n_parameters: stats.nPar,
     converged: fit.converged,
     iterations: mf.negbin && !mf.negbin.boundary ? mf.negbin.outerIterations : fit.iterations,
+    merged_patterns: mf.patterns ? { rows: mf.patterns.merge.rows, patterns: mf.patterns.merge.patterns, by: mf.patterns.merge.by } : null,
     deviance: fit.deviance,
     null_deviance: mf.nullDeviance,
     df_null: stats.nEff - (ic >= 0 ? 1 : 0),

@@ -28,11 +28,14 @@ function contains(outer: string[], inner: string[]): boolean {
 export function termTests(design: Design, mf: ModelFit): TermTest[] {
   const terms = design.model.terms;
   const quasi = mf.family === "quasipoisson";
+  // phi and the residual df from the rows; the constrained fits run where the
+  // fit itself ran (over merged patterns, if it did), against that fit.
   const full = fitStatistics(design, mf.fit);
   const phi = full.df > 0 ? full.pearson / full.df : NaN;
-  const llFull = mf.negbin && !mf.negbin.boundary ? mf.negbin.logLik : full.logLik;
+  const fd = mf.patterns ? mf.patterns.merge.design : design;
+  const fm = mf.patterns ? mf.patterns.fit : mf;
+  const llFull = fm.negbin && !fm.negbin.boundary ? fm.negbin.logLik : full.logLik;
   // Centring stays valid while the intercept is free, which term tests never change.
-  const canDerive = true;
   return terms.map((t, ti) => {
     const label = design.termLabels[ti];
     const test = quasi ? ("F" as const) : ("LR chi-square" as const);
@@ -42,16 +45,15 @@ export function termTests(design: Design, mf: ModelFit): TermTest[] {
     if (cols.length === 0) return { term: label, df: 0, statistic: null, p_value: null, test, note: "all its columns are aliased" };
     const fixed = new Map(cols.map((c) => [c, 0]));
     let stat: number, p: number;
-    if (mf.family === "negbin" && mf.negbin && !mf.negbin.boundary) {
-      const start = warmStart(design, mf, cols);
-      const nb = fitNegbin(design.matrix, design, { control: mf.control, fixed, startAlpha: mf.negbin.alpha, start, warm: true, likelihoodOnly: true, setup: deriveSetup(mf.fit.setup, cols) });
+    if (fm.family === "negbin" && fm.negbin && !fm.negbin.boundary) {
+      const start = warmStart(fd, fm, cols);
+      const nb = fitNegbin(fd.matrix, fd, { control: fm.control, fixed, startAlpha: fm.negbin.alpha, start, warm: true, likelihoodOnly: true, setup: deriveSetup(fm.fit.setup, cols) });
       stat = Math.max(0, 2 * (llFull - nb.logLik));
       p = chiSquareUpperTail(stat, cols.length);
     } else {
-      const start = warmStart(design, mf, cols);
-      const setup = canDerive ? deriveSetup(mf.fit.setup, cols) : undefined;
-      const r = fitGlm(design.matrix, design, { control: mf.control, fixed, skipCovariance: true, start, stopOnPredicted: true, setup });
-      const dd = Math.max(0, r.deviance - mf.fit.deviance);
+      const start = warmStart(fd, fm, cols);
+      const r = fitGlm(fd.matrix, fd, { control: fm.control, fixed, skipCovariance: true, start, stopOnPredicted: true, setup: deriveSetup(fm.fit.setup, cols) });
+      const dd = Math.max(0, r.deviance - fm.fit.deviance);
       if (quasi) { stat = dd / cols.length / phi; p = fUpperTail(stat, cols.length, full.df); }
       else { stat = dd; p = chiSquareUpperTail(stat, cols.length); }
     }

@@ -33,6 +33,13 @@ function droppedText(s: FitSummary): string {
   return parts.length ? `, ${s.n_dropped} left out (${parts.join("; ")})` : "";
 }
 
+/** Where IRLS ran over merged covariate patterns, say so: the figures are still per row. */
+function mergedText(s: FitSummary): string {
+  const m = s.merged_patterns;
+  if (!m) return "";
+  return ` over ${fixed(m.patterns, 0)} patterns (rows sharing ${m.by === "covariates" ? "all covariate values" : "covariate values, offset and count"} merged; every figure is per row)`;
+}
+
 function groupHeading(rows: CoefficientRow[]): string {
   const r = rows[0];
   const refs = [...new Map(r.levels.map((l) => [l.factor, l.reference])).entries()];
@@ -49,7 +56,7 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
   out.push(st.heading(`${FAMILY_TITLE[s.family]} rate model for ${s.response}, log link${exposureText}`));
   out.push(`  data    ${s.source}: ${fixed(s.n_rows, 0)} rows, ${fixed(s.n_used, 0)} used${droppedText(s)}`);
   out.push(`  model   ${s.model}${s.weights ? `   (frequency weights: ${s.weights})` : ""}`);
-  out.push(`  fit     ${s.converged ? "converged" : st.bad("did NOT converge")} after ${s.iterations} ${s.family === "negbin" && s.negbin && !s.negbin.boundary ? "rounds of IRLS alternating with a Newton step for alpha" : `IRLS iteration${s.iterations === 1 ? "" : "s"}`}`);
+  out.push(`  fit     ${s.converged ? "converged" : st.bad("did NOT converge")} after ${s.iterations} ${s.family === "negbin" && s.negbin && !s.negbin.boundary ? "rounds of IRLS alternating with a Newton step for alpha" : `IRLS iteration${s.iterations === 1 ? "" : "s"}`}${mergedText(s)}`);
   if (s.family_choice) out.push(...wrap(`family  ${s.family_choice.used} (--family ${s.family_choice.requested}): ${s.family_choice.reason}`, o.width - 2, "          ").map((l) => "  " + l));
   out.push("");
 
