@@ -3,7 +3,9 @@ import { test } from "node:test";
 import assert from "node:assert/strict";
 import { readFileSync } from "node:fs";
 import { join } from "node:path";
-import { FIXTURES, assertRel, fitCsv, rng, simulateRates } from "./helpers.js";
+import { FIXTURES, assertRel, fitCsv, negbinDraw, rng, simulateRates } from "./helpers.js";
+import { DEFAULT_CONTROL, fitGlm } from "../src/fit/irls.js";
+import { nullDeviance } from "../src/fit/model.js";
 import { digamma, lgamma, trigamma } from "../src/infer/distributions.js";
 import { lgammaRatio } from "../src/fit/family.js";
 
@@ -107,4 +109,19 @@ test(`special functions from @stdlib agree with scipy.special (${expected.source
   });
   // Our exact small-y form of log Γ(y + r) − log Γ(r) agrees with the lgamma difference.
   for (const [y, r] of [[3, 0.7], [40, 12.5], [64, 1e3]]) assertRel(lgammaRatio(y, r), lgamma(y + r) - lgamma(r), 1e-11, `ratio ${y},${r}`);
+});
+
+test("NB2 intercept-only deviance (one-coefficient Newton) equals a general IRLS fit of the intercept at the same alpha", () => {
+  const u = rng(41);
+  let csv = "g,e,w,y\n";
+  for (let i = 0; i < 500; i++) {
+    const e = 0.5 + u() * 9.5;
+    csv += `${["a", "b"][i % 2]},${e.toFixed(3)},${1 + (i % 3)},${negbinDraw(u, e * (i % 2 ? 2 : 0.7), 0.8)}\n`;
+  }
+  const { design, mf } = fitCsv(csv, "y ~ g", { exposure: "e", weights: "w", family: "negbin" });
+  const alpha = mf.negbin!.alpha;
+  const interceptOnly = { n: design.n, p: 1, slots: [{ term: -1, colStart: 0, colCount: 1, cols: null, values: null }], interceptCol: 0 };
+  const general = fitGlm(interceptOnly, design, { alpha, control: { tolerance: 1e-15, maxIter: 100 } });
+  assertRel(nullDeviance(design, alpha, DEFAULT_CONTROL), general.deviance, 1e-10, "intercept-only deviance");
+  assert.ok(mf.nullDeviance > mf.fit.deviance, "the model explains some of the deviance");
 });

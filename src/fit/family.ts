@@ -4,6 +4,10 @@
 import { lgamma } from "../infer/distributions.js";
 
 const maxCounts = new WeakMap<Float64Array, number>();
+const countCodes = new WeakMap<Float64Array, Int32Array | null>();
+
+/** Counts up to this size are tabulated: per-count terms are looked up, not recomputed per row. */
+export const TABLE_LIMIT = 1 << 20;
 
 /**
  * The largest count, remembered per array (the response does not change
@@ -23,6 +27,16 @@ export function maxCount(y: Float64Array): number {
     maxCounts.set(y, t);
   }
   return t;
+}
+
+/** The counts as 32-bit integers for table lookups, remembered per array (null: not tabulable, see maxCount). */
+export function countIndex(y: Float64Array): Int32Array | null {
+  let c = countCodes.get(y);
+  if (c === undefined) {
+    c = maxCount(y) <= TABLE_LIMIT ? Int32Array.from(y) : null;
+    countCodes.set(y, c);
+  }
+  return c;
 }
 
 /** Variance function V(mu). */

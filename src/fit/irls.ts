@@ -6,7 +6,7 @@ import type { ModelMatrix } from "../design/design.js";
 import { FitError } from "../errors.js";
 import type { SymMatrix } from "../linalg/dense.js";
 import { cholesky, choleskyInverse, choleskySolve, congruence, screenRank } from "../linalg/dense.js";
-import { maxCount, unitDeviance } from "./family.js";
+import { countIndex, maxCount, unitDeviance } from "./family.js";
 
 export interface FitControl {
   maxIter: number;
@@ -414,6 +414,48 @@ function linearPredictorCells(L: CellLayout, slotVals: (Float64Array | null)[], 
   }
 }
 
+/**
+ * eta = offset + X·beta', mu = exp(eta) and the total deviance (see
+ * totalDeviance) in one pass over the rows, from the cells: the pass that
+ * follows every IRLS step and step-halving.
+ */
+function predictCells(
+  L: CellLayout, slotVals: (Float64Array | null)[], betaS: Float64Array, off: Float64Array,
+  eta: Float64Array, mu: Float64Array, pw: Float64Array | null, alpha: number, tab: DevianceTable,
+): number {
+  const k = slotVals.length, C = L.nCells, M = L.numeric.length;
+  const cst = new Float64Array(C), coef = new Float64Array(C * M);
+  for (let c = 0; c < C; c++)
+    for (let s = 0; s < k; s++) {
+      const p = L.cellPos[c * k + s];
+      if (p < 0) continue;
+      if (slotVals[s] === null) cst[c] += betaS[p];
+      else coef[c * M + L.numericIndex[s]] = betaS[p];
+    }
+  const vals = L.numeric.map((s) => slotVals[s]!);
+  const v0 = M > 0 ? vals[0] : null;
+  const cell = L.cell, yl = tab.ylogy, cnt = tab.counts;
+  const nb = tab.nb, r = 1 / alpha;
+  const n = off.length;
+  let d = 0;
+  for (let i = 0; i < n; i++) {
+    const c = cell[i];
+    if (c < 0) { eta[i] = -Infinity; mu[i] = 0; continue; }
+    let e = off[i] + cst[c];
+    if (M === 1) e += coef[c] * v0![i];
+    else for (let m = 0; m < M; m++) e += coef[c * M + m] * vals[m][i];
+    eta[i] = e;
+    const mi = Math.exp(e);
+    mu[i] = mi;
+    const y = cnt[i];
+    const u = alpha === 0
+      ? yl[y] - (y > 0 ? y * e : 0) - (y - mi)
+      : yl[y] - (y > 0 ? y * e : 0) - nb![y] + (y + r) * Math.log1p(alpha * mi);
+    d += pw === null ? u : pw[i] * u;
+  }
+  return 2 * d;
+}
+
 /** X'WX and X'Wz from the cell sums (see CellLayout). */
 export function crossProductsCells(slotVals: (Float64Array | null)[], L: CellLayout, n: number, q: number, w: Float64Array, z: Float64Array | null): { a: SymMatrix; b: Float64Array } {
   const M = L.numeric.length;
@@ -537,12 +579,13 @@ function expInto(eta: Float64Array, inFit: Uint8Array, mu: Float64Array): void {
   for (let i = 0; i < eta.length; i++) mu[i] = inFit[i] ? Math.exp(eta[i]) : 0;
 }
 
-/** y-only parts of the unit deviance, tabulated by count (null when counts are too large to tabulate). */
-interface DevianceTable { ylogy: Float64Array; nb: Float64Array | null; alpha: number }
+/** y-only parts of the unit deviance, tabulated by count (null when the counts cannot be tabulated). */
+interface DevianceTable { ylogy: Float64Array; nb: Float64Array | null; alpha: number; counts: Int32Array }
 
 function devianceTable(y: Float64Array, alpha: number): DevianceTable | null {
+  const counts = countIndex(y);
+  if (counts === null) return null;
   const top = maxCount(y);
-  if (top > 1 << 20) return null;
   const ylogy = new Float64Array(top + 1);
   for (let k = 1; k <= top; k++) ylogy[k] = k * Math.log(k);
   let nb: Float64Array | null = null;
@@ -551,7 +594,7 @@ function devianceTable(y: Float64Array, alpha: number): DevianceTable | null {
     nb = new Float64Array(top + 1);
     for (let k = 0; k <= top; k++) nb[k] = (k + r) * Math.log1p(alpha * k);
   }
-  return { ylogy, nb, alpha };
+  return { ylogy, nb, alpha, counts };
 }
 
 /**
@@ -561,20 +604,20 @@ function devianceTable(y: Float64Array, alpha: number): DevianceTable | null {
 function totalDeviance(y: Float64Array, mu: Float64Array, eta: Float64Array, pw: Float64Array | null, inFit: Uint8Array, alpha: number, tab: DevianceTable | null): number {
   let d = 0;
   if (tab) {
-    const yl = tab.ylogy;
+    const yl = tab.ylogy, cnt = tab.counts;
     if (alpha === 0) {
-      for (let i = 0; i < y.length; i++) {
+      for (let i = 0; i < cnt.length; i++) {
         if (!inFit[i]) continue;
-        const yi = y[i], m = mu[i];
-        const u = yl[yi] - (yi > 0 ? yi * eta[i] : 0) - (yi - m);
+        const k = cnt[i], m = mu[i];
+        const u = yl[k] - (k > 0 ? k * eta[i] : 0) - (k - m);
         d += pw === null ? u : pw[i] * u;
       }
     } else {
       const nb = tab.nb!, r = 1 / alpha;
-      for (let i = 0; i < y.length; i++) {
+      for (let i = 0; i < cnt.length; i++) {
         if (!inFit[i]) continue;
-        const yi = y[i], m = mu[i];
-        const u = yl[yi] - (yi > 0 ? yi * eta[i] : 0) - nb[yi] + (yi + r) * Math.log1p(alpha * m);
+        const k = cnt[i], m = mu[i];
+        const u = yl[k] - (k > 0 ? k * eta[i] : 0) - nb[k] + (k + r) * Math.log1p(alpha * m);
         d += pw === null ? u : pw[i] * u;
       }
     }
@@ -616,6 +659,13 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
   const cs = cells ? null : compiledOf(m, setup);
   const xprod = (w_: Float64Array, z_: Float64Array | null) => (cells ? crossProductsCells(vals, cells, n, q, w_, z_) : crossProductsCompiled(cs!, n, q, w_, z_));
   const linpred = (b_: Float64Array, e_: Float64Array) => (cells ? linearPredictorCells(cells, vals, b_, off, e_) : linearPredictor(cs!, inFit, b_, off, e_));
+  /** New eta and mu at b_, and the deviance there. */
+  const evaluate = (b_: Float64Array, e_: Float64Array, m_: Float64Array): number => {
+    if (cells && dtab) return predictCells(cells, vals, b_, off, e_, m_, pw, alpha, dtab);
+    linpred(b_, e_);
+    expInto(e_, inFit, m_);
+    return totalDeviance(y, m_, e_, pw, inFit, alpha, dtab);
+  };
   const eta = new Float64Array(n);
   const mu = new Float64Array(n);
   let betaS: Float64Array = new Float64Array(q);
@@ -689,9 +739,7 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
         predicted += (cand[r] - betaS[r]) * sr;
       }
     }
-    linpred(cand, newEta);
-    expInto(newEta, inFit, newMu);
-    dev = totalDeviance(y, newMu, newEta, pw, inFit, alpha, dtab);
+    dev = evaluate(cand, newEta, newMu);
     let halvings = 0;
     while ((!Number.isFinite(dev) || (haveBeta && dev > devOld * (1 + 1e-12) + 1e-12)) && halvings < 40) {
       if (!haveBeta) break;
@@ -699,9 +747,7 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
       const half = new Float64Array(q);
       for (let k = 0; k < q; k++) half[k] = 0.5 * (cand[k] + betaS[k]);
       cand = half;
-      linpred(cand, newEta);
-      expInto(newEta, inFit, newMu);
-      dev = totalDeviance(y, newMu, newEta, pw, inFit, alpha, dtab);
+      dev = evaluate(cand, newEta, newMu);
     }
     if (!Number.isFinite(dev))
       throw new FitError(`the deviance is not finite at IRLS iteration ${iter} even after step-halving; the fitted means overflow. Check for extreme exposures or covariate values.`);

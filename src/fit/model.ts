@@ -1,7 +1,7 @@
 // Fitting stage entry point: fits the requested family and the figures that
 // need a second fit (the intercept-only deviance, the Poisson fit beneath a negative
 // binomial), and the constrained fits that profile likelihoods need.
-import type { Design, ModelMatrix } from "../design/design.js";
+import type { Design } from "../design/design.js";
 import type { PatternMerge } from "../design/patterns.js";
 import { FitError } from "../errors.js";
 import { unitDeviance } from "./family.js";
@@ -59,8 +59,40 @@ export function nullDeviance(design: Design, alpha: number, control: FitControl)
     for (let i = 0; i < y.length; i++) d += (weights ? weights[i] : 1) * unitDeviance(y[i], (Math.exp(offset[i]) * sy) / se, 0);
     return d;
   }
-  const m: ModelMatrix = { n: design.n, p: 1, slots: [{ term: -1, colStart: 0, colCount: 1, cols: null, values: null }], interceptCol: 0 };
-  return fitGlm(m, design, { alpha, control }).deviance;
+  return negbinInterceptOnlyDeviance(y, offset, weights, alpha);
+}
+
+/**
+ * NB2 deviance of the intercept-only model at fixed alpha: Newton's method on
+ * the one coefficient b0 (score Σw(y − mu)/(1 + α·mu), observed information
+ * Σw·mu(1 + α·y)/(1 + α·mu)², mu = exposure·e^b0), kept inside a bracket on
+ * the sign of the score, from the Poisson value log(Σwy / Σw·exposure).
+ */
+function negbinInterceptOnlyDeviance(y: Float64Array, offset: Float64Array, weights: Float64Array | null, alpha: number): number {
+  const n = y.length;
+  const ex = new Float64Array(n);
+  let sy = 0, se = 0;
+  for (let i = 0; i < n; i++) { const w = weights ? weights[i] : 1; ex[i] = Math.exp(offset[i]); sy += w * y[i]; se += w * ex[i]; }
+  let b = Math.log(sy / se), lo = -Infinity, hi = Infinity;
+  for (let it = 0; it < 200; it++) {
+    const c = Math.exp(b);
+    let score = 0, info = 0;
+    for (let i = 0; i < n; i++) {
+      const w = weights ? weights[i] : 1, m = c * ex[i], q = 1 / (1 + alpha * m);
+      score += w * (y[i] - m) * q;
+      info += w * m * (1 + alpha * y[i]) * q * q;
+    }
+    if (score > 0) lo = b; else hi = b;
+    let next = b + score / info;
+    if (!(next > lo && next < hi)) next = Number.isFinite(lo) && Number.isFinite(hi) ? 0.5 * (lo + hi) : b + Math.sign(score);
+    const moved = Math.abs(next - b);
+    b = next;
+    if (moved <= 1e-13 * (1 + Math.abs(b))) break;
+  }
+  const c = Math.exp(b);
+  let d = 0;
+  for (let i = 0; i < n; i++) d += (weights ? weights[i] : 1) * unitDeviance(y[i], c * ex[i], alpha);
+  return d;
 }
 
 function requireConverged(f: GlmFit): void {

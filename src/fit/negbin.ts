@@ -4,7 +4,7 @@
 import type { ModelMatrix } from "../design/design.js";
 import { FitError } from "../errors.js";
 import { digamma, trigamma } from "../infer/distributions.js";
-import { lgammaRatio, logDensity, maxCount } from "./family.js";
+import { countIndex, lgammaRatio, logDensity, maxCount } from "./family.js";
 import { lgamma } from "../infer/distributions.js";
 import { fitGlm, prepareFit, type FitControl, type FitData, type FitSetup, type GlmFit } from "./irls.js";
 
@@ -34,61 +34,89 @@ function harmonic(y: number, r: number): [number, number] {
 
 /** NB2 log-likelihood at the given means (rows with mu = 0 and y = 0 contribute 0). */
 export function negbinLogLik(y: Float64Array, mu: Float64Array, pw: Float64Array | null, alpha: number): number {
-  const top = maxCount(y);
-  if (alpha === 0 || top > TABLE_LIMIT) {
+  const yi32 = alpha === 0 ? null : countIndex(y);
+  if (yi32 === null) {
     let ll = 0;
     for (let i = 0; i < y.length; i++) if (mu[i] > 0) ll += (pw ? pw[i] : 1) * logDensity(y[i], mu[i], alpha);
     return ll;
   }
   // The y-only terms log Γ(y + r) − log Γ(r) − log y! depend on y alone at fixed alpha: tabulate them.
-  const r = 1 / alpha;
+  const top = maxCount(y);
+  const r = 1 / alpha, logAlpha = Math.log(alpha);
   const tab = new Float64Array(top + 1);
   for (let k = 0; k <= top; k++) tab[k] = lgammaRatio(k, r) - lgamma(k + 1);
   let ll = 0;
   for (let i = 0; i < y.length; i++) {
     const m = mu[i];
     if (!(m > 0)) continue;
-    const yi = y[i];
+    const k = yi32[i];
     const l1 = Math.log1p(alpha * m);
-    ll += (pw ? pw[i] : 1) * (tab[yi] - r * l1 + yi * (Math.log(alpha * m) - l1));
+    // y·log(alpha·mu/(1 + alpha·mu)) − r·log(1 + alpha·mu), with log(alpha·mu) = log alpha + log mu.
+    const u = tab[k] - r * l1 + (k === 0 ? 0 : k * (logAlpha + Math.log(m) - l1));
+    ll += pw === null ? u : pw[i] * u;
   }
   return ll;
 }
 
-const TABLE_LIMIT = 1 << 20;
+/** Harmonic sums Σ_{j<k} 1/(r+j) and Σ_{j<k} 1/(r+j)² for k = 0 … top. */
+function harmonicTables(top: number, r: number): { d: Float64Array; e: Float64Array } {
+  const tabD = new Float64Array(top + 1), tabE = new Float64Array(top + 1);
+  let d = 0, e = 0;
+  for (let k = 0; k <= top; k++) {
+    if (k > 0) { const t = 1 / (r + k - 1); d += t; e += t * t; }
+    tabD[k] = d; tabE[k] = e;
+  }
+  // Long running sums drift by rounding: refresh the tail from digamma/trigamma.
+  for (let k = 64; k <= top; k += 64) { const [dd, ee] = harmonic(k, r); tabD[k] = dd; tabE[k] = ee; for (let j = k + 1; j < Math.min(top + 1, k + 64); j++) { const t = 1 / (r + j - 1); tabD[j] = tabD[j - 1] + t; tabE[j] = tabE[j - 1] + t * t; } }
+  return { d: tabD, e: tabE };
+}
 
-
-
-/** Score g = ∂ℓ/∂α and its derivative h = ∂²ℓ/∂α² at fixed means (Cameron and Trivedi 2013, §3.3). */
+/**
+ * Score g = ∂ℓ/∂α and its derivative h = ∂²ℓ/∂α² at fixed means (Cameron and
+ * Trivedi 2013, §3.3). Per row, with q = 1 + α·mu, l = log q and the harmonic
+ * sums d, e of the count:
+ *   g_i = (l − d)/α² + (y − mu)/(α q)
+ *   h_i = −2(l − d)/α³ + (mu/q − e/α²)/α² − (y − mu)(1 + 2α·mu)/(α q)²
+ * The five row sums are accumulated separately and combined once.
+ */
 export function alphaDerivatives(y: Float64Array, mu: Float64Array, pw: Float64Array | null, alpha: number): { g: number; h: number } {
   const r = 1 / alpha;
-  let g = 0, h = 0;
-  // The harmonic sums depend on y alone at fixed alpha: tabulate them when the counts allow.
-  const top = maxCount(y);
-  const tabD = top <= TABLE_LIMIT ? new Float64Array(top + 1) : null;
-  const tabE = tabD ? new Float64Array(top + 1) : null;
-  if (tabD && tabE) {
-    let d = 0, e = 0;
-    for (let k = 0; k <= top; k++) {
-      if (k > 0) { const t = 1 / (r + k - 1); d += t; e += t * t; }
-      tabD[k] = d; tabE[k] = e;
+  const yi32 = countIndex(y);
+  let s1 = 0, s2 = 0, s3 = 0, s4 = 0, s5 = 0;
+  if (yi32 !== null) {
+    const { d: tabD, e: tabE } = harmonicTables(maxCount(y), r);
+    for (let i = 0; i < y.length; i++) {
+      const m = mu[i];
+      if (!(m > 0)) continue;
+      const k = yi32[i];
+      const am = alpha * m;
+      const iq = 1 / (1 + am);
+      const res = (k - m) * iq;
+      const w = pw === null ? 1 : pw[i];
+      s1 += w * (Math.log1p(am) - tabD[k]);
+      s2 += w * res;
+      s3 += w * m * iq;
+      s4 += w * tabE[k];
+      s5 += w * res * iq * (1 + 2 * am);
     }
-    // Long running sums drift by rounding: refresh the tail from digamma/trigamma.
-    for (let k = 64; k <= top; k += 64) { const [dd, ee] = harmonic(k, r); tabD[k] = dd; tabE[k] = ee; for (let j = k + 1; j < Math.min(top + 1, k + 64); j++) { const t = 1 / (r + j - 1); tabD[j] = tabD[j - 1] + t; tabE[j] = tabE[j - 1] + t * t; } }
+  } else {
+    for (let i = 0; i < y.length; i++) {
+      const m = mu[i];
+      if (!(m > 0)) continue;
+      const [d, e] = harmonic(y[i], r);
+      const am = alpha * m;
+      const iq = 1 / (1 + am);
+      const res = (y[i] - m) * iq;
+      const w = pw === null ? 1 : pw[i];
+      s1 += w * (Math.log1p(am) - d);
+      s2 += w * res;
+      s3 += w * m * iq;
+      s4 += w * e;
+      s5 += w * res * iq * (1 + 2 * am);
+    }
   }
-  for (let i = 0; i < y.length; i++) {
-    const m = mu[i];
-    if (!(m > 0)) continue;
-    const w = pw ? pw[i] : 1;
-    const yi = y[i];
-    let d: number, e: number;
-    if (tabD && tabE) { d = tabD[yi]; e = tabE[yi]; } else [d, e] = harmonic(yi, r);
-    const l = Math.log1p(alpha * m);
-    const q = 1 + alpha * m;
-    g += w * ((l - d) / (alpha * alpha) + (yi - m) / (alpha * q));
-    h += w * (-2 * (l - d) / alpha ** 3 + (m / q - e / (alpha * alpha)) / (alpha * alpha) - ((yi - m) * (1 + 2 * alpha * m)) / (alpha * alpha * q * q));
-  }
-  return { g, h };
+  const a2 = alpha * alpha;
+  return { g: s1 / a2 + s2 / alpha, h: -2 * s1 / (a2 * alpha) + s3 / a2 - s4 / (a2 * a2) - s5 / a2 };
 }
 
 /** ∂ℓ/∂α at alpha → 0⁺ with the means fixed: ½ Σ w[(y − mu)² − y]. */
