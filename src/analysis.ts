@@ -5,9 +5,11 @@ import { mergePatterns, patternKeyFor, type PatternMerge } from "./design/patter
 import type { FitControl } from "./fit/irls.js";
 import { fitModel, type FamilyChoice, type FamilyName, type ModelFit } from "./fit/model.js";
 import { dispersionFlagged, runChecks, type CheckResult } from "./infer/check.js";
-import { profileAll } from "./infer/intervals.js";
+import { profileContext } from "./infer/intervals.js";
+import { inferencePlan, runJob, runJobs, type InferencePlan, type JobResult } from "./infer/parallel.js";
+import type { ProfileResult } from "./infer/profile.js";
 import { summarizeFit, type FitSummary } from "./infer/summary.js";
-import { termTests } from "./infer/terms.js";
+import { termTestContext, type TermTest } from "./infer/terms.js";
 import { quantileResiduals, rootogram } from "./infer/diagnostics.js";
 
 export interface AnalysisOptions {
@@ -22,6 +24,8 @@ export interface AnalysisOptions {
   termTests?: boolean;
   /** Merge rows that share a covariate pattern before IRLS (default "auto"). */
   merge?: MergeChoice;
+  /** Progress messages (IRLS iterations), for a terminal. */
+  onProgress?: (message: string) => void;
 }
 
 export type MergeChoice = "auto" | "always" | "never";
@@ -42,8 +46,11 @@ export function patternsFor(design: Design, family: FamilyName, merge: MergeChoi
 }
 
 /** Fit one family, over merged patterns when patternsFor says so. */
-export function fitFamily(design: Design, family: FamilyName, control?: Partial<FitControl>, merge: MergeChoice = "auto"): ModelFit {
-  return fitModel(design, { family, control, patterns: patternsFor(design, family, merge) });
+export function fitFamily(design: Design, family: FamilyName, control?: Partial<FitControl>, merge: MergeChoice = "auto", onProgress?: (message: string) => void): ModelFit {
+  const patterns = patternsFor(design, family, merge);
+  const over = patterns ? ` over ${patterns.patterns.toLocaleString("en")} patterns` : "";
+  const onIteration = onProgress ? (it: number, dev: number) => onProgress(`fitting the ${family} model${over}: IRLS iteration ${it}, deviance ${dev.toPrecision(10)}`) : undefined;
+  return fitModel(design, { family, control, patterns, onIteration });
 }
 
 export interface FitAnalysis {
@@ -52,28 +59,64 @@ export interface FitAnalysis {
   check: CheckResult | null;
 }
 
-/** Fit one model and summarise it; --family auto fits both and lets the check decide. */
-export function analyzeFit(design: Design, o: AnalysisOptions): FitAnalysis {
-  let mf: ModelFit;
-  let check: CheckResult | null = null;
-  let familyChoice: { requested: string; reason: string } | undefined;
-  if (o.family === "auto") {
-    const pois = fitFamily(design, "poisson", o.control, o.merge);
-    const nb = fitFamily(design, "negbin", o.control, o.merge);
-    check = runChecks(design, pois, nb, o.testLevel ?? 0.05);
-    const flagged = dispersionFlagged(check);
-    mf = flagged.length > 0 ? nb : pois;
-    familyChoice = {
+/** The fit (for --family auto: both fits, and the check that chose between them). */
+function fitForAnalysis(design: Design, o: AnalysisOptions): { mf: ModelFit; check: CheckResult | null; familyChoice?: { requested: string; reason: string } } {
+  if (o.family !== "auto") return { mf: fitFamily(design, o.family, o.control, o.merge, o.onProgress), check: null };
+  const pois = fitFamily(design, "poisson", o.control, o.merge, o.onProgress);
+  const nb = fitFamily(design, "negbin", o.control, o.merge, o.onProgress);
+  const check = runChecks(design, pois, nb, o.testLevel ?? 0.05);
+  const flagged = dispersionFlagged(check);
+  return {
+    mf: flagged.length > 0 ? nb : pois,
+    check,
+    familyChoice: {
       requested: "auto",
       reason: flagged.length > 0
         ? `the dispersion check flagged (${flagged.map((t) => t.short).join(", ")}) at ${o.testLevel ?? 0.05}, so the negative binomial is used`
         : `no dispersion test flagged at ${o.testLevel ?? 0.05}, so the Poisson model is kept`,
-    };
-  } else mf = fitFamily(design, o.family, o.control, o.merge);
-  const profiles = o.intervals === "wald" ? undefined : profileAll(design, mf, o.level);
-  const summary = summarizeFit(design, mf, { level: o.level, profiles, robust: o.robust, familyChoice });
-  if (o.termTests !== false && design.model.terms.length > 0) summary.term_tests = termTests(design, mf);
-  return { modelFit: mf, summary, check };
+    },
+  };
+}
+
+/** The profile limits and term tests the options ask for, as independent jobs. */
+function planFor(design: Design, mf: ModelFit, o: AnalysisOptions): InferencePlan {
+  return inferencePlan(
+    o.intervals === "wald" ? null : profileContext(design, mf, o.level),
+    o.termTests !== false && design.model.terms.length > 0 ? termTestContext(design, mf) : null,
+  );
+}
+
+function assemble(design: Design, o: AnalysisOptions, fitted: ReturnType<typeof fitForAnalysis>, plan: InferencePlan, results: JobResult[]): FitAnalysis {
+  const profiles = plan.profiles ? new Map<number, ProfileResult>() : undefined;
+  const tests: TermTest[] = [];
+  plan.jobs.forEach((job, j) => {
+    if (job.kind === "profile") profiles!.set(job.col, results[j] as ProfileResult);
+    else tests.push(results[j] as TermTest);
+  });
+  const summary = summarizeFit(design, fitted.mf, { level: o.level, profiles, robust: o.robust, familyChoice: fitted.familyChoice });
+  if (plan.terms) summary.term_tests = tests;
+  return { modelFit: fitted.mf, summary, check: fitted.check };
+}
+
+/** Fit one model and summarise it; --family auto fits both and lets the check decide. */
+export function analyzeFit(design: Design, o: AnalysisOptions): FitAnalysis {
+  const fitted = fitForAnalysis(design, o);
+  const plan = planFor(design, fitted.mf, o);
+  return assemble(design, o, fitted, plan, plan.jobs.map((job) => runJob(plan, job)));
+}
+
+/**
+ * The same analysis, with the constrained fits of profile limits and term
+ * tests shared between this thread and a worker thread on large data (see
+ * infer/parallel.ts). The result is the same as analyzeFit's.
+ */
+export async function analyzeFitParallel(design: Design, o: AnalysisOptions): Promise<FitAnalysis> {
+  const fitted = fitForAnalysis(design, o);
+  const plan = planFor(design, fitted.mf, o);
+  const nProfiles = plan.jobs.filter((j) => j.kind === "profile").length, nTerms = plan.jobs.length - nProfiles;
+  if (plan.jobs.length > 0)
+    o.onProgress?.(`refitting for ${[nProfiles ? `${nProfiles} profile limits` : "", nTerms ? `${nTerms} term tests` : ""].filter(Boolean).join(" and ")}…`);
+  return assemble(design, o, fitted, plan, await runJobs(plan));
 }
 
 /** The dispersion and zero-count check of a model. */
@@ -82,9 +125,9 @@ export function analyzeCheck(design: Design, o: { control?: Partial<FitControl>;
 }
 
 /** The check together with the Poisson and negative-binomial fits it used. */
-export function analyzeCheckWithFits(design: Design, o: { control?: Partial<FitControl>; testLevel: number; merge?: MergeChoice }): { check: CheckResult; poisson: ModelFit; negbin: ModelFit } {
-  const poisson = fitFamily(design, "poisson", o.control, o.merge);
-  const negbin = fitFamily(design, "negbin", o.control, o.merge);
+export function analyzeCheckWithFits(design: Design, o: { control?: Partial<FitControl>; testLevel: number; merge?: MergeChoice; onProgress?: (message: string) => void }): { check: CheckResult; poisson: ModelFit; negbin: ModelFit } {
+  const poisson = fitFamily(design, "poisson", o.control, o.merge, o.onProgress);
+  const negbin = fitFamily(design, "negbin", o.control, o.merge, o.onProgress);
   return { check: runChecks(design, poisson, negbin, o.testLevel), poisson, negbin };
 }
 

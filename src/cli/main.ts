@@ -17,7 +17,7 @@ import type { Design } from "../design/design.js";
 import type { FamilyChoice, FamilyName } from "../fit/model.js";
 import { compareModels } from "../infer/compare.js";
 import { renderCompareText } from "../report/compare-text.js";
-import { analyzeCheckWithFits, analyzeFit, diagnosticsOf, fitFamily, type MergeChoice } from "../analysis.js";
+import { analyzeCheckWithFits, analyzeFitParallel, diagnosticsOf, fitFamily, type MergeChoice } from "../analysis.js";
 import { summarizeFit, type FitSummary } from "../infer/summary.js";
 import { renderSvg } from "../report/svg.js";
 import { svgToPng } from "../report/png.js";
@@ -191,6 +191,12 @@ function mergeChoice(opts: { mergePatterns: string }): MergeChoice {
   return oneOf("--merge-patterns", opts.mergePatterns, ["auto", "always", "never"]) as MergeChoice;
 }
 
+/** Progress of the fit on stderr: only for large data on a terminal, never with --quiet. */
+function fittingProgress(opts: { quiet?: boolean }, rows: number): ((message: string) => void) | undefined {
+  if (opts.quiet || !process.stderr.isTTY || rows < 100000) return undefined;
+  return (message) => process.stderr.write(`\r\x1b[Ktallyfit: ${message}`);
+}
+
 function oneOf(name: string, value: string, allowed: string[]): string {
   if (!allowed.includes(value)) throw new InputError(`${name} must be one of ${allowed.join(", ")} (got '${value}').`);
   return value;
@@ -239,7 +245,9 @@ async function runFit(file: string | undefined, opts: FitCliOptions): Promise<nu
   const per = parsePositive("--per", opts.per);
   const { design, control, table, sha256 } = await loadDesign(file, opts, opts.model[0], opts.summaryBy ? [opts.summaryBy] : []);
   if (opts.plot) plotKind(opts.plot);
-  const { summary, modelFit } = analyzeFit(design, { family, control, level, intervals, robust: !!opts.robust, testLevel, merge: mergeChoice(opts) });
+  const onProgress = fittingProgress(opts, design.n);
+  const { summary, modelFit } = await analyzeFitParallel(design, { family, control, level, intervals, robust: !!opts.robust, testLevel, merge: mergeChoice(opts), onProgress });
+  if (onProgress) process.stderr.write("\r\x1b[K");
   const wide = opts.format === "text" && !opts.output && process.stdout.isTTY && (process.stdout.columns ?? 0) >= 60;
   const diag = opts.plot || wide ? diagnosticsOf(design, modelFit) : null;
   if (opts.plot && diag) await writePlot(opts, opts.plot, `${summary.family} fit of ${summary.model}`, diag, summary);
@@ -265,7 +273,9 @@ async function runCheck(file: string | undefined, opts: CommonOptions & { alpha:
   const testLevel = parseTestLevel(opts.alpha);
   const { design, control } = await loadDesign(file, opts, opts.model[0]);
   if (opts.plot) plotKind(opts.plot);
-  const { check, poisson } = analyzeCheckWithFits(design, { control, testLevel, merge: mergeChoice(opts) });
+  const onProgress = fittingProgress(opts, design.n);
+  const { check, poisson } = analyzeCheckWithFits(design, { control, testLevel, merge: mergeChoice(opts), onProgress });
+  if (onProgress) process.stderr.write("\r\x1b[K");
   if (opts.plot) {
     const summary = summarizeFit(design, poisson, { level: parseLevel(opts.level) });
     await writePlot(opts, opts.plot, `Poisson fit of ${summary.model} (check)`, diagnosticsOf(design, poisson), summary);

@@ -74,6 +74,8 @@ export interface FitOptions {
    * alpha at the new means (0: the boundary, which stops the fit unconverged).
    */
   alphaStep?: (mu: Float64Array, alpha: number) => number;
+  /** Called after each IRLS iteration (progress on a terminal). */
+  onIteration?: (iteration: number, deviance: number) => void;
 }
 
 /** Screening results: which columns are estimated and how columns are conditioned. */
@@ -433,7 +435,7 @@ function predictCells(
       else coef[c * M + L.numericIndex[s]] = betaS[p];
     }
   const vals = L.numeric.map((s) => slotVals[s]!);
-  const v0 = M > 0 ? vals[0] : null;
+  const v0 = M > 0 ? vals[0] : null, v1 = M > 1 ? vals[1] : null;
   const cell = L.cell, yl = tab.ylogy, cnt = tab.counts;
   const nb = tab.nb, r = 1 / alpha;
   const n = off.length;
@@ -443,14 +445,15 @@ function predictCells(
     if (c < 0) { eta[i] = -Infinity; mu[i] = 0; continue; }
     let e = off[i] + cst[c];
     if (M === 1) e += coef[c] * v0![i];
+    else if (M === 2) e += coef[2 * c] * v0![i] + coef[2 * c + 1] * v1![i];
     else for (let m = 0; m < M; m++) e += coef[c * M + m] * vals[m][i];
     eta[i] = e;
     const mi = Math.exp(e);
     mu[i] = mi;
     const y = cnt[i];
     const u = alpha === 0
-      ? yl[y] - (y > 0 ? y * e : 0) - (y - mi)
-      : yl[y] - (y > 0 ? y * e : 0) - nb![y] + (y + r) * Math.log1p(alpha * mi);
+      ? yl[y] - y * e - (y - mi)
+      : yl[y] - y * e - nb![y] + (y + r) * Math.log1p(alpha * mi);
     d += pw === null ? u : pw[i] * u;
   }
   return 2 * d;
@@ -609,7 +612,7 @@ function totalDeviance(y: Float64Array, mu: Float64Array, eta: Float64Array, pw:
       for (let i = 0; i < cnt.length; i++) {
         if (!inFit[i]) continue;
         const k = cnt[i], m = mu[i];
-        const u = yl[k] - (k > 0 ? k * eta[i] : 0) - (k - m);
+        const u = yl[k] - k * eta[i] - (k - m);
         d += pw === null ? u : pw[i] * u;
       }
     } else {
@@ -617,7 +620,7 @@ function totalDeviance(y: Float64Array, mu: Float64Array, eta: Float64Array, pw:
       for (let i = 0; i < cnt.length; i++) {
         if (!inFit[i]) continue;
         const k = cnt[i], m = mu[i];
-        const u = yl[k] - (k > 0 ? k * eta[i] : 0) - nb[k] + (k + r) * Math.log1p(alpha * m);
+        const u = yl[k] - k * eta[i] - nb[k] + (k + r) * Math.log1p(alpha * m);
         d += pw === null ? u : pw[i] * u;
       }
     }
@@ -765,6 +768,7 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
       alphaSettled = Math.abs(Math.log(next / alpha)) < 1e-9;
       if (next !== alpha) { alpha = next; dtab = devianceTable(y, alpha); dev = totalDeviance(y, mu, eta, pw, inFit, alpha, dtab); devOld = dev; }
     }
+    options.onIteration?.(iter, dev);
     if (change < control.tolerance && alphaSettled) { converged = true; break; }
     // The next step would change the deviance by about predicted²: stop when that is below tolerance.
     if (alphaSettled && halvings === 0 && predicted >= 0 && (predicted / (Math.abs(dev) + 0.1)) ** 2 < control.tolerance) { converged = true; break; }

@@ -35,11 +35,38 @@ export interface ModelFit {
   patterns: { merge: PatternMerge; fit: ModelFit } | null;
 }
 
+/**
+ * What the constrained fits of term tests and profile limits need of a fit:
+ * a ModelFit is one; fitBaseOf makes a lean copy to send to a worker thread.
+ */
+export interface FitBase {
+  family: FamilyName;
+  control: FitControl;
+  fit: Pick<GlmFit, "beta" | "status" | "setup" | "deviance">;
+  negbin: Pick<NegbinPart, "alpha" | "logLik" | "boundary"> | null;
+}
+
+/** The parts of a fit that constrained fits use, without per-row arrays they rebuild or do not need. */
+export function fitBaseOf(mf: FitBase): FitBase {
+  const s = mf.fit.setup;
+  return {
+    family: mf.family,
+    control: mf.control,
+    fit: {
+      beta: mf.fit.beta, status: mf.fit.status, deviance: mf.fit.deviance,
+      setup: { status: s.status, inFit: s.inFit, active: s.active, order: s.order, center: s.center, scale: s.scale, rowsAtZero: s.rowsAtZero, cells: s.cells, parentCells: s.parentCells, slotValues: s.slotValues },
+    },
+    negbin: mf.negbin ? { alpha: mf.negbin.alpha, logLik: mf.negbin.logLik, boundary: mf.negbin.boundary } : null,
+  };
+}
+
 export interface FitModelOptions {
   family: FamilyName;
   control?: Partial<FitControl>;
   /** Fit over these merged patterns of the design (see design/patterns.ts), then return per-row results. */
   patterns?: PatternMerge | null;
+  /** Progress: called after each IRLS iteration of the model's own fits. */
+  onIteration?: (iteration: number, deviance: number) => void;
 }
 
 
@@ -131,7 +158,7 @@ export function fitModel(design: Design, options: FitModelOptions): ModelFit {
   if (pm) {
     if (options.family === "negbin" && pm.by === "covariates")
       throw new Error("the negative binomial can only be fitted over patterns that also share the offset and the count");
-    const inner = fitModel(pm.design, { family: options.family, control: options.control });
+    const inner = fitModel(pm.design, { family: options.family, control: options.control, onIteration: options.onIteration });
     const fit = expandFit(design, pm, inner.fit);
     return {
       family: inner.family,
@@ -144,7 +171,7 @@ export function fitModel(design: Design, options: FitModelOptions): ModelFit {
     };
   }
   if (options.family === "negbin") {
-    const nb = fitNegbin(design.matrix, design, { control });
+    const nb = fitNegbin(design.matrix, design, { control, onIteration: options.onIteration });
     requireConverged(nb.fit);
     return {
       family: "negbin",
@@ -158,7 +185,7 @@ export function fitModel(design: Design, options: FitModelOptions): ModelFit {
       patterns: null,
     };
   }
-  const fit = fitGlm(design.matrix, design, { control });
+  const fit = fitGlm(design.matrix, design, { control, onIteration: options.onIteration });
   requireConverged(fit);
   return { family: options.family, fit, nullDeviance: nullDeviance(design, 0, control), control, negbin: null, patterns: null };
 }
@@ -200,7 +227,7 @@ export function expandFit(design: Design, pm: PatternMerge, f: GlmFit): GlmFit {
  * binomial (for the Poisson this is the deviance difference D(b) − D̂).
  * Warm-starts each fit from the previous one.
  */
-export function constrainedStatistic(design: Design, mf: ModelFit, col: number): (b: number) => number {
+export function constrainedStatistic(design: Design, mf: FitBase, col: number): (b: number) => number {
   let setup: FitSetup | null = null;
   let start: Float64Array = new Float64Array(mf.fit.beta);
   const control = { maxIter: 100, tolerance: mf.control.tolerance };
@@ -226,7 +253,7 @@ export function constrainedStatistic(design: Design, mf: ModelFit, col: number):
 }
 
 /** A starting value for the upper limit of a no-events coefficient: where 2·e^b·E reaches crit. */
-export function noEventsGuess(design: Design, mf: ModelFit, col: number, crit: number): number {
+export function noEventsGuess(design: Design, mf: FitBase, col: number, crit: number): number {
   const beta = new Float64Array(mf.fit.beta);
   beta[col] = 0;
   const eta = linearPredictorFrom(design.matrix, beta, design.offset);

@@ -145,6 +145,8 @@ export interface NegbinOptions {
   warm?: boolean;
   /** Skip the information matrix (term tests and profiles need only the maximised likelihood). */
   likelihoodOnly?: boolean;
+  /** Progress: called after each IRLS iteration of the fits made here. */
+  onIteration?: (iteration: number, deviance: number) => void;
 }
 
 /**
@@ -167,7 +169,7 @@ export function fitNegbin(m: ModelMatrix, data: FitData, o: NegbinOptions): Negb
   let pois: GlmFit | null = null;
   let poisLL = NaN;
   const poissonFit = () => {
-    if (!pois) { pois = fitGlm(m, data, { control: o.control, fixed: o.fixed, start: o.start, setup, alpha: 0 }); poisLL = negbinLogLik(data.y, pois.mu, pw, 0); }
+    if (!pois) { pois = fitGlm(m, data, { control: o.control, fixed: o.fixed, start: o.start, setup, alpha: 0, onIteration: o.onIteration }); poisLL = negbinLogLik(data.y, pois.mu, pw, 0); }
     return pois;
   };
   const atBoundary = (evals: number): NegbinFit => {
@@ -195,7 +197,7 @@ export function fitNegbin(m: ModelMatrix, data: FitData, o: NegbinOptions): Negb
     const start0 = warm ? o.start! : poissonFit().beta;
     let joint: GlmFit | null = null;
     try {
-      joint = fitGlm(m, data, { control: { ...o.control, maxIter: Math.max(o.control.maxIter, 100) }, fixed: o.fixed, start: start0, setup, alpha: a0, alphaStep, skipCovariance: !!o.likelihoodOnly });
+      joint = fitGlm(m, data, { control: { ...o.control, maxIter: Math.max(o.control.maxIter, 100) }, fixed: o.fixed, start: start0, setup, alpha: a0, alphaStep, skipCovariance: !!o.likelihoodOnly, onIteration: o.onIteration });
     } catch (e) {
       if (!(e instanceof FitError)) throw e;
     }

@@ -1,37 +1,58 @@
 // Profile-likelihood limits for every coefficient of a fitted model.
 import type { Design } from "../design/design.js";
-import { constrainedStatistic, noEventsGuess, type ModelFit } from "../fit/model.js";
+import { constrainedStatistic, fitBaseOf, noEventsGuess, type FitBase, type ModelFit } from "../fit/model.js";
 import { chiSquareQuantile, normalQuantile, studentQuantile } from "./distributions.js";
 import { quasiPhi, residualDf } from "./summary.js";
 import { profileLimits, profileUpperFromMinusInfinity, type ProfileResult } from "./profile.js";
 
+/** What the profile of one coefficient needs. */
+export interface ProfileContext {
+  /** Where the constrained fits run: the rows, or the merged patterns the fit ran on. */
+  design: Design;
+  base: FitBase;
+  /** Quasi-Poisson phi from the rows (1 otherwise): the statistic is divided by it. */
+  phi: number;
+  crit: number;
+  /** Wald half-width quantile and the standard error of each design column (for the first bracket). */
+  zq: number;
+  se: Float64Array;
+  /** The columns that get limits: estimated ones, and those with no events (one-sided). */
+  columns: number[];
+}
+
 /**
- * Profile limits on the log scale for each design column that was estimated
- * or has no events. For quasi-Poisson the statistic is the deviance
- * difference divided by phi, referred to F(1, df) (= t² on df).
+ * For quasi-Poisson the statistic is the deviance difference divided by phi,
+ * referred to F(1, df) (= t² on df); otherwise the likelihood ratio against
+ * chi-square(1).
  */
-export function profileAll(design: Design, mf: ModelFit, level: number): Map<number, ProfileResult> {
+export function profileContext(design: Design, mf: ModelFit, level: number): ProfileContext {
   const quasi = mf.family === "quasipoisson";
   const phi = quasi ? quasiPhi(design, mf.fit) : 1;
   const df = residualDf(design, mf.fit);
   const tq = quasi && df > 0 ? studentQuantile(1 - (1 - level) / 2, df) : NaN;
   const crit = quasi && df > 0 ? tq * tq : chiSquareQuantile(level, 1);
   const zq = quasi && df > 0 ? tq : normalQuantile(1 - (1 - level) / 2);
-  const out = new Map<number, ProfileResult>();
   const q = mf.fit.covariance.p;
+  const se = new Float64Array(mf.fit.status.length).fill(NaN);
+  mf.fit.estimable.forEach((c, k) => (se[c] = Math.sqrt(mf.fit.covariance.data[k * q + k] * phi)));
+  const columns: number[] = [];
+  mf.fit.status.forEach((st, c) => { if (st === "estimated" || st === "no_events") columns.push(c); });
   // The constrained fits run where the fit ran: over merged patterns, if it did.
   const fd = mf.patterns ? mf.patterns.merge.design : design;
   const fm = mf.patterns ? mf.patterns.fit : mf;
-  mf.fit.status.forEach((st, c) => {
-    if (st === "estimated") {
-      const k = mf.fit.estimable.indexOf(c);
-      const se = Math.sqrt(mf.fit.covariance.data[k * q + k] * phi);
-      const stat = constrainedStatistic(fd, fm, c);
-      out.set(c, profileLimits((b) => stat(b) / phi, mf.fit.beta[c], zq * se, crit));
-    } else if (st === "no_events") {
-      const stat = constrainedStatistic(fd, fm, c);
-      out.set(c, profileUpperFromMinusInfinity((b) => stat(b) / phi, noEventsGuess(fd, fm, c, crit * phi), crit));
-    }
-  });
-  return out;
+  return { design: fd, base: fitBaseOf(fm), phi, crit, zq, se, columns };
+}
+
+/** Profile limits on the log scale for design column c. */
+export function profileOf(ctx: ProfileContext, c: number): ProfileResult {
+  const { design, base, phi, crit } = ctx;
+  const stat = constrainedStatistic(design, base, c);
+  if (base.fit.status[c] === "no_events") return profileUpperFromMinusInfinity((b) => stat(b) / phi, noEventsGuess(design, base, c, crit * phi), crit);
+  return profileLimits((b) => stat(b) / phi, base.fit.beta[c], ctx.zq * ctx.se[c], crit);
+}
+
+/** Profile limits for each design column that was estimated or has no events. */
+export function profileAll(design: Design, mf: ModelFit, level: number): Map<number, ProfileResult> {
+  const ctx = profileContext(design, mf, level);
+  return new Map(ctx.columns.map((c) => [c, profileOf(ctx, c)]));
 }

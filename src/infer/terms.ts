@@ -7,10 +7,10 @@
 // would depend on the reference levels.
 import type { Design } from "../design/design.js";
 import { columnSums, deriveSetup, fitGlm } from "../fit/irls.js";
-import type { ModelFit } from "../fit/model.js";
+import { fitBaseOf, type FitBase, type ModelFit } from "../fit/model.js";
 import { fitNegbin } from "../fit/negbin.js";
 import { chiSquareUpperTail, fUpperTail } from "./distributions.js";
-import { fitStatistics } from "./summary.js";
+import { quasiPhi, residualDf } from "./summary.js";
 
 export interface TermTest {
   term: string;
@@ -25,40 +25,68 @@ function contains(outer: string[], inner: string[]): boolean {
   return inner.every((v) => outer.includes(v));
 }
 
-export function termTests(design: Design, mf: ModelFit): TermTest[] {
+/** What one term test needs: the design and fit the constrained fits run on, and the full model's figures. */
+export interface TermTestContext {
+  /** Where the constrained fits run: the rows, or the merged patterns the fit ran on. */
+  design: Design;
+  base: FitBase;
+  quasi: boolean;
+  /** Pearson phi and residual df from the rows (quasi-Poisson F tests). */
+  phi: number;
+  df: number;
+  llFull: number;
+  labels: string[];
+  /** Per term: the columns to drop, or why the term is not tested. */
+  plan: ({ cols: number[] } | { note: string })[];
+}
+
+export function termTestContext(design: Design, mf: ModelFit): TermTestContext {
   const terms = design.model.terms;
   const quasi = mf.family === "quasipoisson";
   // phi and the residual df from the rows; the constrained fits run where the
   // fit itself ran (over merged patterns, if it did), against that fit.
-  const full = fitStatistics(design, mf.fit);
-  const phi = full.df > 0 ? full.pearson / full.df : NaN;
+  const df = residualDf(design, mf.fit);
+  const phi = quasi ? quasiPhi(design, mf.fit) : NaN;
   const fd = mf.patterns ? mf.patterns.merge.design : design;
   const fm = mf.patterns ? mf.patterns.fit : mf;
-  const llFull = fm.negbin && !fm.negbin.boundary ? fm.negbin.logLik : full.logLik;
-  // Centring stays valid while the intercept is free, which term tests never change.
-  return terms.map((t, ti) => {
-    const label = design.termLabels[ti];
-    const test = quasi ? ("F" as const) : ("LR chi-square" as const);
+  const llFull = fm.negbin && !fm.negbin.boundary ? fm.negbin.logLik : NaN;
+  const plan = terms.map((t, ti) => {
     const higher = terms.find((u, ui) => ui !== ti && u.variables.length > t.variables.length && contains(u.variables, t.variables));
-    if (higher) return { term: label, df: 0, statistic: null, p_value: null, test, note: `part of ${higher.variables.join(":")}; test that term first` };
+    if (higher) return { note: `part of ${higher.variables.join(":")}; test that term first` };
     const cols = design.termColumns[ti].filter((c) => mf.fit.status[c] === "estimated" || mf.fit.status[c] === "no_events");
-    if (cols.length === 0) return { term: label, df: 0, statistic: null, p_value: null, test, note: "all its columns are aliased" };
-    const fixed = new Map(cols.map((c) => [c, 0]));
-    let stat: number, p: number;
-    if (fm.family === "negbin" && fm.negbin && !fm.negbin.boundary) {
-      const start = warmStart(fd, fm, cols);
-      const nb = fitNegbin(fd.matrix, fd, { control: fm.control, fixed, startAlpha: fm.negbin.alpha, start, warm: true, likelihoodOnly: true, setup: deriveSetup(fm.fit.setup, cols) });
-      stat = Math.max(0, 2 * (llFull - nb.logLik));
-      p = chiSquareUpperTail(stat, cols.length);
-    } else {
-      const start = warmStart(fd, fm, cols);
-      const r = fitGlm(fd.matrix, fd, { control: fm.control, fixed, skipCovariance: true, start, stopOnPredicted: true, setup: deriveSetup(fm.fit.setup, cols) });
-      const dd = Math.max(0, r.deviance - fm.fit.deviance);
-      if (quasi) { stat = dd / cols.length / phi; p = fUpperTail(stat, cols.length, full.df); }
-      else { stat = dd; p = chiSquareUpperTail(stat, cols.length); }
-    }
-    return { term: label, df: cols.length, statistic: stat, p_value: p, test, note: null };
+    if (cols.length === 0) return { note: "all its columns are aliased" };
+    return { cols };
   });
+  return { design: fd, base: fitBaseOf(fm), quasi, phi, df, llFull, labels: design.termLabels, plan };
+}
+
+/** The test for dropping term ti. Centring stays valid while the intercept is free, which term tests never change. */
+export function termTestOf(ctx: TermTestContext, ti: number): TermTest {
+  const { design: fd, base: fm, quasi } = ctx;
+  const label = ctx.labels[ti];
+  const test = quasi ? ("F" as const) : ("LR chi-square" as const);
+  const step = ctx.plan[ti];
+  if ("note" in step) return { term: label, df: 0, statistic: null, p_value: null, test, note: step.note };
+  const cols = step.cols;
+  const fixed = new Map(cols.map((c) => [c, 0]));
+  let stat: number, p: number;
+  const start = warmStart(fd, fm, cols);
+  if (fm.family === "negbin" && fm.negbin && !fm.negbin.boundary) {
+    const nb = fitNegbin(fd.matrix, fd, { control: fm.control, fixed, startAlpha: fm.negbin.alpha, start, warm: true, likelihoodOnly: true, setup: deriveSetup(fm.fit.setup, cols) });
+    stat = Math.max(0, 2 * (ctx.llFull - nb.logLik));
+    p = chiSquareUpperTail(stat, cols.length);
+  } else {
+    const r = fitGlm(fd.matrix, fd, { control: fm.control, fixed, skipCovariance: true, start, stopOnPredicted: true, setup: deriveSetup(fm.fit.setup, cols) });
+    const dd = Math.max(0, r.deviance - fm.fit.deviance);
+    if (quasi) { stat = dd / cols.length / ctx.phi; p = fUpperTail(stat, cols.length, ctx.df); }
+    else { stat = dd; p = chiSquareUpperTail(stat, cols.length); }
+  }
+  return { term: label, df: cols.length, statistic: stat, p_value: p, test, note: null };
+}
+
+export function termTests(design: Design, mf: ModelFit): TermTest[] {
+  const ctx = termTestContext(design, mf);
+  return ctx.plan.map((_, ti) => termTestOf(ctx, ti));
 }
 
 /**
@@ -67,7 +95,7 @@ export function termTests(design: Design, mf: ModelFit): TermTest[] {
  * keep their overall level (an uncentred covariate would otherwise shift them by
  * orders of magnitude).
  */
-function warmStart(design: Design, mf: ModelFit, cols: number[]): Float64Array {
+function warmStart(design: Design, mf: FitBase, cols: number[]): Float64Array {
   const start = new Float64Array(mf.fit.beta);
   const ic = design.matrix.interceptCol;
   const sums = columnSums(design.matrix, cols);

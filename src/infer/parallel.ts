@@ -1,0 +1,97 @@
+// The constrained fits behind term tests and profile limits are independent
+// of each other, so they can run on two cores: this thread and one worker
+// thread take jobs in turn from a shared counter (Atomics.add), and the
+// results are put back in job order. The same functions compute each job
+// either way, so the report does not depend on where a job ran.
+import { availableParallelism } from "node:os";
+import { Worker } from "node:worker_threads";
+import { FitError, InputError } from "../errors.js";
+import { profileOf, type ProfileContext } from "./intervals.js";
+import type { ProfileResult } from "./profile.js";
+import { termTestOf, type TermTest, type TermTestContext } from "./terms.js";
+
+export type InferenceJob = { kind: "profile"; col: number } | { kind: "term"; index: number };
+export type JobResult = ProfileResult | TermTest;
+
+export interface InferencePlan {
+  profiles: ProfileContext | null;
+  terms: TermTestContext | null;
+  jobs: InferenceJob[];
+}
+
+/** Profile jobs first (each is many fits), then the term tests, so the two threads finish close together. */
+export function inferencePlan(profiles: ProfileContext | null, terms: TermTestContext | null): InferencePlan {
+  const jobs: InferenceJob[] = [];
+  if (profiles) for (const col of profiles.columns) jobs.push({ kind: "profile", col });
+  if (terms) terms.plan.forEach((_, index) => jobs.push({ kind: "term", index }));
+  return { profiles, terms, jobs };
+}
+
+export function runJob(plan: InferencePlan, job: InferenceJob): JobResult {
+  return job.kind === "profile" ? profileOf(plan.profiles!, job.col) : termTestOf(plan.terms!, job.index);
+}
+
+/** Take jobs from the shared counter until none are left; results by job index. */
+export function takeJobs(plan: InferencePlan, counter: Int32Array, out: Map<number, JobResult>): void {
+  for (;;) {
+    const j = Atomics.add(counter, 0, 1);
+    if (j >= plan.jobs.length) return;
+    out.set(j, runJob(plan, plan.jobs[j]));
+  }
+}
+
+/** Rows the constrained fits run over, below which a second thread costs more than it saves. */
+export const PARALLEL_MIN_ROWS = 20000;
+/** Above this many rows, copying the design to a worker would cost too much memory. */
+export const PARALLEL_MAX_ROWS = 4000000;
+
+/** Whether to use a worker thread: enough work, a second core, and TALLYFIT_WORKERS not 0. */
+export function wantWorker(plan: InferencePlan, env: NodeJS.ProcessEnv = process.env): boolean {
+  const ctx = plan.profiles ?? plan.terms;
+  if (!ctx || plan.jobs.length < 2 || env.TALLYFIT_WORKERS === "0") return false;
+  const n = ctx.design.n;
+  return (n >= PARALLEL_MIN_ROWS || env.TALLYFIT_WORKERS === "1") && n <= PARALLEL_MAX_ROWS && availableParallelism() >= 2;
+}
+
+interface WorkerReply { results?: [number, JobResult][]; error?: { kind: string; message: string } }
+
+/**
+ * Run the plan's jobs, on this thread and (when wantWorker says so) one
+ * worker thread. A job the worker could not finish is run here, and a
+ * FitError or InputError from the worker is raised here as the same class.
+ * workerOnly (for the tests) leaves every job to the worker.
+ */
+export async function runJobs(plan: InferencePlan, useWorker = wantWorker(plan), workerOnly = false): Promise<JobResult[]> {
+  const out = new Map<number, JobResult>();
+  const counter = new Int32Array(new SharedArrayBuffer(4));
+  let reply: Promise<WorkerReply> | null = null;
+  let worker: Worker | null = null;
+  if (useWorker) {
+    try {
+      const w = new Worker(new URL("./parallel-worker.js", import.meta.url), { workerData: { plan, counter } });
+      worker = w;
+      reply = new Promise<WorkerReply>((resolve) => {
+        w.once("message", (m: WorkerReply) => resolve(m));
+        w.once("error", (e) => resolve({ error: { kind: "internal", message: String(e) } }));
+        w.once("exit", () => resolve({}));
+      });
+    } catch {
+      reply = null;
+    }
+  }
+  try {
+    if (!(workerOnly && reply)) takeJobs(plan, counter, out);
+  } catch (e) {
+    // This thread's failure decides; do not wait for the worker's jobs.
+    if (worker) void worker.terminate();
+    throw e;
+  }
+  if (reply) {
+    const r = await reply;
+    if (r.error?.kind === "fit") throw new FitError(r.error.message);
+    if (r.error?.kind === "input") throw new InputError(r.error.message);
+    for (const [j, res] of r.results ?? []) out.set(j, res);
+  }
+  // Anything the worker took but did not return (it failed to start or crashed) is computed here.
+  return plan.jobs.map((job, j) => out.get(j) ?? runJob(plan, job));
+}
