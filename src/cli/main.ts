@@ -135,8 +135,13 @@ interface Loaded {
   control: { maxIter: number; tolerance: number };
 }
 
-/** Read the input and build the designs: the load → design stages, shared by the fitting commands. */
-async function loadDesigns(file: string | undefined, opts: CommonOptions, modelTexts: string[], alsoRead: string[] = []): Promise<{ designs: Design[]; control: Loaded["control"]; table: Table; sha256: string }> {
+/**
+ * Read the input and build the designs: the load → design stages, shared by
+ * the fitting commands. The table itself is not returned (only the labels of
+ * the alsoRead columns on the first design's rows), so its columns can be
+ * freed before fitting.
+ */
+async function loadDesigns(file: string | undefined, opts: CommonOptions, modelTexts: string[], alsoRead: string[] = []): Promise<{ designs: Design[]; control: Loaded["control"]; labels: Map<string, string[]>; sha256: string }> {
   const control = { maxIter: parsePositiveInt("--max-iter", opts.maxIter), tolerance: parsePositive("--tolerance", opts.tolerance) };
   const specs = modelTexts.map((t) => parseModel(t, { intercept: opts.intercept }));
   const refs = parseRefs(opts.ref);
@@ -157,12 +162,13 @@ async function loadDesigns(file: string | undefined, opts: CommonOptions, modelT
   });
   for (const n of designs[0].notices) notice(opts, n);
   for (const c of alsoRead) if (!table.columns.has(c)) throw new InputError(`${name}: --summary-by column '${c}' is not in the file. The columns are ${table.header.map((h) => `'${h}'`).join(", ")}.`);
-  return { designs, control, table, sha256 };
+  const labels = new Map(alsoRead.map((c) => [c, groupLabels(table, c, designs[0].rowIndex)]));
+  return { designs, control, labels, sha256 };
 }
 
-async function loadDesign(file: string | undefined, opts: CommonOptions, modelText: string, alsoRead: string[] = []): Promise<Loaded & { table: Table; sha256: string }> {
-  const { designs, control, table, sha256 } = await loadDesigns(file, opts, [modelText], alsoRead);
-  return { design: designs[0], control, table, sha256 };
+async function loadDesign(file: string | undefined, opts: CommonOptions, modelText: string, alsoRead: string[] = []): Promise<Loaded & { labels: Map<string, string[]>; sha256: string }> {
+  const { designs, control, labels, sha256 } = await loadDesigns(file, opts, [modelText], alsoRead);
+  return { design: designs[0], control, labels, sha256 };
 }
 
 /** Group labels of some data rows: factor levels, or numbers as written by String(). */
@@ -243,7 +249,7 @@ async function runFit(file: string | undefined, opts: FitCliOptions): Promise<nu
   const intervals = oneOf("--intervals", opts.intervals, ["wald", "profile", "both"]) as "wald" | "profile" | "both";
   const testLevel = parseTestLevel(opts.alpha);
   const per = parsePositive("--per", opts.per);
-  const { design, control, table, sha256 } = await loadDesign(file, opts, opts.model[0], opts.summaryBy ? [opts.summaryBy] : []);
+  const { design, control, labels, sha256 } = await loadDesign(file, opts, opts.model[0], opts.summaryBy ? [opts.summaryBy] : []);
   if (opts.plot) plotKind(opts.plot);
   const onProgress = fittingProgress(opts, design.n);
   const { summary, modelFit } = await analyzeFitParallel(design, { family, control, level, intervals, robust: !!opts.robust, testLevel, merge: mergeChoice(opts), onProgress });
@@ -252,7 +258,7 @@ async function runFit(file: string | undefined, opts: FitCliOptions): Promise<nu
   const diag = opts.plot || wide ? diagnosticsOf(design, modelFit) : null;
   if (opts.plot && diag) await writePlot(opts, opts.plot, `${summary.family} fit of ${summary.model}`, diag, summary);
   if (opts.summaryBy)
-    summary.summary_by = summarizeGroups(opts.summaryBy, groupLabels(table, opts.summaryBy, design.rowIndex), design.y, modelFit.fit.mu, design.exposure, per, level, naturalCompare);
+    summary.summary_by = summarizeGroups(opts.summaryBy, labels.get(opts.summaryBy)!, design.y, modelFit.fit.mu, design.exposure, per, level, naturalCompare);
   if (opts.saveModel) {
     await writeAtomic(opts.saveModel, renderJson(savedModelOf(design, modelFit, { version: VERSION, sha256 })));
     notice(opts, `model saved to ${opts.saveModel}`);

@@ -157,10 +157,12 @@ export function buildDesign(table: Table, model: ModelSpec, options: DesignOptio
   let missing = 0;
   const missingRows: number[] = [];
   for (let i = 0; i < N; i++) if (!usable[i]) { missing++; if (missingRows.length < 3) missingRows.push(i); }
-  const missingCols = [response, ...varCols, exposureCol, offsetCol, weightsCol, ...extra]
-    .filter((c): c is Column => !!c)
-    .filter((c) => (c.kind === "numeric" ? c.values.some((v) => Number.isNaN(v)) : c.codes.some((v) => v < 0)))
-    .map((c) => c.name);
+  const hasMissing = (c: Column): boolean => {
+    if (c.kind === "numeric") { for (let i = 0; i < N; i++) if (Number.isNaN(c.values[i])) return true; }
+    else for (let i = 0; i < N; i++) if (c.codes[i] < 0) return true;
+    return false;
+  };
+  const missingCols = missing === 0 ? [] : [response, ...varCols, exposureCol, offsetCol, weightsCol, ...extra].filter((c): c is Column => !!c && hasMissing(c)).map((c) => c.name);
 
   // Count, exposure and weight checks on complete rows.
   const badCount: number[] = [];
@@ -224,7 +226,13 @@ export function buildDesign(table: Table, model: ModelSpec, options: DesignOptio
     throw new InputError(`${table.source}: the count column '${model.response}' is 0 in every row used (${n} rows); with no events there is no rate to model.`);
   const rowIndex = new Int32Array(n);
   for (let i = 0, k = 0; i < N; i++) if (usable[i]) rowIndex[k++] = i;
-  const pick = (a: Float64Array) => { const out = new Float64Array(n); for (let k = 0; k < n; k++) out[k] = a[rowIndex[k]]; return out; };
+  // When every row is used the table's own columns serve (no stage writes into its inputs).
+  const pick = (a: Float64Array) => {
+    if (n === N) return a;
+    const out = new Float64Array(n);
+    for (let k = 0; k < n; k++) out[k] = a[rowIndex[k]];
+    return out;
+  };
   const y = pick(yAll);
   const exposure = expAll ? pick(expAll) : null;
   const offset = new Float64Array(n);
@@ -329,7 +337,8 @@ export function layoutColumns(
     }
     termColumns.push(cols);
     let values: Float64Array | null = null;
-    if (numericParts.length > 0) {
+    if (numericParts.length === 1) values = numericParts[0].values;
+    else if (numericParts.length > 1) {
       values = new Float64Array(n);
       for (let k = 0; k < n; k++) {
         let v = 1;

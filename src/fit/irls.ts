@@ -459,8 +459,24 @@ function predictCells(
   return 2 * d;
 }
 
-/** X'WX and X'Wz from the cell sums (see CellLayout). */
-export function crossProductsCells(slotVals: (Float64Array | null)[], L: CellLayout, n: number, q: number, w: Float64Array, z: Float64Array | null): { a: SymMatrix; b: Float64Array } {
+/**
+ * What the IRLS working weight w = pw·mu/(1 + alpha·mu) and working response
+ * z = eta − offset + (y − mu)/mu are made of, so that a pass can compute them
+ * row by row instead of reading them from stored arrays.
+ */
+export interface WorkingInputs {
+  mu: Float64Array;
+  eta: Float64Array;
+  off: Float64Array;
+  y: Float64Array;
+  pw: Float64Array | null;
+  alpha: number;
+  /** false: the weights only (the information matrix). */
+  withResponse: boolean;
+}
+
+/** X'WX and X'Wz from the cell sums (see CellLayout); w and z given as arrays or as their WorkingInputs. */
+export function crossProductsCells(slotVals: (Float64Array | null)[], L: CellLayout, n: number, q: number, w: Float64Array | WorkingInputs, z: Float64Array | null): { a: SymMatrix; b: Float64Array } {
   const M = L.numeric.length;
   const MM = (M * (M + 1)) / 2;
   const C = L.nCells;
@@ -469,13 +485,22 @@ export function crossProductsCells(slotVals: (Float64Array | null)[], L: CellLay
   const vals = L.numeric.map((s) => slotVals[s]!);
   const cell = L.cell;
   const vi = new Float64Array(M);
+  const work = w instanceof Float64Array ? null : w;
+  const wArr = w instanceof Float64Array ? w : null;
+  const alpha = work ? work.alpha : 0, pw = work ? work.pw : null;
   for (let i = 0; i < n; i++) {
     const c = cell[i];
     if (c < 0) continue;
-    const wi = w[i];
+    let wi: number, zi: number;
+    if (work === null) { wi = wArr![i]; zi = z === null ? 0 : z[i]; }
+    else {
+      const m = work.mu[i];
+      const base = alpha === 0 ? m : m / (1 + alpha * m);
+      wi = pw === null ? base : pw[i] * base;
+      zi = work.withResponse ? work.eta[i] - work.off[i] + (work.y[i] - m) / m : 0;
+    }
     if (wi === 0) continue;
     s0[c] += wi;
-    const zi = z === null ? 0 : z[i];
     z0[c] += wi * zi;
     let t = c * MM;
     for (let m = 0; m < M; m++) {
@@ -660,7 +685,6 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
   const cells = cellsOf(m, setup);
   const vals = slotValuesOf(m, setup);
   const cs = cells ? null : compiledOf(m, setup);
-  const xprod = (w_: Float64Array, z_: Float64Array | null) => (cells ? crossProductsCells(vals, cells, n, q, w_, z_) : crossProductsCompiled(cs!, n, q, w_, z_));
   const linpred = (b_: Float64Array, e_: Float64Array) => (cells ? linearPredictorCells(cells, vals, b_, off, e_) : linearPredictor(cs!, inFit, b_, off, e_));
   /** New eta and mu at b_, and the deviance there. */
   const evaluate = (b_: Float64Array, e_: Float64Array, m_: Float64Array): number => {
@@ -705,19 +729,22 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
     for (let i = 0; i < n; i++) if (inFit[i]) { mu[i] = y[i] + 0.1; eta[i] = Math.log(mu[i]); }
     devOld = totalDeviance(y, mu, eta, pw, inFit, alpha, dtab);
   }
-  const w = new Float64Array(n);
-  const z = new Float64Array(n);
+  // Working weights and responses are stored only on the row-by-row path; the cells compute them as they go.
+  const w = cells ? null : new Float64Array(n);
+  const z = cells ? null : new Float64Array(n);
   let converged = false;
   let iter = 0;
   let dev = devOld;
-  const newEta = new Float64Array(n);
-  const newMu = new Float64Array(n);
+  /** X'WX and X'Wz at the current means: working weight mu/V(mu) (log link: dmu/deta = mu) and working response. */
+  const workingCrossProducts = (withResponse: boolean) => {
+    if (cells) return crossProductsCells(vals, cells, n, q, { mu, eta, off, y, pw, alpha, withResponse }, null);
+    workingValues(n, inFit, mu, eta, off, y, pw, alpha, w!, z!);
+    return crossProductsCompiled(cs!, n, q, w!, withResponse ? z : null);
+  };
 
   while (iter < control.maxIter) {
     iter++;
-    // Working weight mu/V(mu) (log link: dmu/deta = mu) and working response.
-    workingValues(n, inFit, mu, eta, off, y, pw, alpha, w, z);
-    const { a, b } = xprod(w, z);
+    const { a, b } = workingCrossProducts(true);
     const l = cholesky(a);
     if (l === null) throw new FitError(`the weighted cross-product matrix is not positive definite at IRLS iteration ${iter}; the model cannot be fitted on these rows.`);
     let cand: Float64Array = choleskySolve(l, q, b);
@@ -742,7 +769,8 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
         predicted += (cand[r] - betaS[r]) * sr;
       }
     }
-    dev = evaluate(cand, newEta, newMu);
+    // The new means overwrite the current ones: a halved step is evaluated from the coefficients alone.
+    dev = evaluate(cand, eta, mu);
     let halvings = 0;
     while ((!Number.isFinite(dev) || (haveBeta && dev > devOld * (1 + 1e-12) + 1e-12)) && halvings < 40) {
       if (!haveBeta) break;
@@ -750,14 +778,12 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
       const half = new Float64Array(q);
       for (let k = 0; k < q; k++) half[k] = 0.5 * (cand[k] + betaS[k]);
       cand = half;
-      dev = evaluate(cand, newEta, newMu);
+      dev = evaluate(cand, eta, mu);
     }
     if (!Number.isFinite(dev))
       throw new FitError(`the deviance is not finite at IRLS iteration ${iter} even after step-halving; the fitted means overflow. Check for extreme exposures or covariate values.`);
     betaS = cand;
     haveBeta = true;
-    eta.set(newEta);
-    mu.set(newMu);
     const change = Math.abs(dev - devOld) / (Math.abs(dev) + 0.1);
     devOld = dev;
     let alphaSettled = true;
@@ -779,8 +805,7 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
   const t = transformMatrix(m, setup);
   let covariance = covS;
   if (!options.skipCovariance) {
-    for (let i = 0; i < n; i++) w[i] = inFit[i] ? (pw ? pw[i] : 1) * mu[i] / (1 + alpha * mu[i]) : 0;
-    const { a } = xprod(w, null);
+    const { a } = workingCrossProducts(false);
     const l = cholesky(a);
     if (l === null) throw new FitError("the information matrix at the estimate is singular; the model cannot be fitted on these rows.");
     covS = choleskyInverse(l, q);

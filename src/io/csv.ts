@@ -1,6 +1,6 @@
 // CSV loading: RFC 4180 records (via csv-parse) into typed columns.
 import { createRequire } from "node:module";
-import { readFile } from "node:fs/promises";
+import { readFile, stat } from "node:fs/promises";
 import { createReadStream } from "node:fs";
 import { createHash } from "node:crypto";
 import { ColumnReader } from "./tokenizer.js";
@@ -203,6 +203,7 @@ export async function loadTableStream(path: string, options: Omit<LoadOptions, "
     progress?.(reader.bytesRead, reader.rows);
   };
   try {
+    if (path !== "-") reader.expectedBytes = (await stat(path)).size;
     const stream = path === "-" ? process.stdin : createReadStream(path, { highWaterMark: 1 << 22 });
     for await (const chunk of stream) consume(chunk as Uint8Array);
   } catch (e) {

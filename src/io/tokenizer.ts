@@ -33,9 +33,10 @@ export interface StreamOptions {
   select: Set<string> | null;
 }
 
-function grow<T extends Float64Array | Int32Array>(a: T, need: number): T {
+function grow<T extends Float64Array | Int32Array>(a: T, need: number, estimate = 0): T {
   if (need <= a.length) return a;
-  const next = new (a.constructor as { new (n: number): T })(Math.max(need, a.length * 2));
+  const size = estimate >= need ? estimate : Math.max(need, a.length * 2);
+  const next = new (a.constructor as { new (n: number): T })(size);
   next.set(a);
   return next;
 }
@@ -55,6 +56,8 @@ export class ColumnReader {
   /** Bytes at the start of the carried tail already checked as UTF-8. */
   private validated = 0;
   bytesRead = 0;
+  /** The input's size in bytes when known (a file): columns are then sized from the rows seen so far, not by doubling. */
+  expectedBytes = 0;
 
   constructor(private o: StreamOptions) {
     this.naBytes = [...o.na].map((s) => new TextEncoder().encode(s));
@@ -192,17 +195,23 @@ export class ColumnReader {
       while (e > s && (b[e - 1] === 0x20 || b[e - 1] === 0x09)) e--;
       const missing = this.isNa(b, s, e);
       if (bd.numeric) {
-        if (bd.values.length <= i) bd.values = grow(bd.values, i + 1);
+        if (bd.values.length <= i) bd.values = grow(bd.values, i + 1, this.rowEstimate());
         if (missing) { bd.values[i] = NaN; continue; }
         const v = fq[j] ? parseDecimal(this.text(b, s, e, true).trim()) : this.number(b, s, e);
         if (!Number.isNaN(v)) { bd.values[i] = v; continue; }
         bd.firstText = { row, value: this.text(b, s, e, fq[j]) };
         this.demote(bd, i);
       }
-      if (bd.codes.length <= i) bd.codes = grow(bd.codes, i + 1);
+      if (bd.codes.length <= i) bd.codes = grow(bd.codes, i + 1, this.rowEstimate());
       bd.codes[i] = missing ? -1 : fq[j] ? this.codeOfString(bd, this.text(b, s, e, true).trim()) : this.codeOfBytes(bd, b, s, e);
     }
     this.nRows++;
+  }
+
+  /** Rows the whole input will hold, from the bytes per row so far (0: unknown yet). */
+  private rowEstimate(): number {
+    if (this.expectedBytes <= 0 || this.nRows < 1000) return 0;
+    return Math.ceil((this.expectedBytes / this.bytesRead) * this.nRows * 1.02) + 1024;
   }
 
   private isNa(b: Uint8Array, s: number, e: number): boolean {
@@ -289,10 +298,12 @@ export class ColumnReader {
     const columns = new Map<string, Column>();
     for (const bd of this.builders) {
       if (!bd.keep) continue;
-      if (bd.numeric) columns.set(bd.name, { kind: "numeric", name: bd.name, values: bd.values.length === n ? bd.values : bd.values.slice(0, n) });
+      // A column sized close to n is kept as a view (no copy at the peak); a much larger one is copied.
+      const fit = <T extends Float64Array | Int32Array>(a: T): T => (a.length === n ? a : a.length <= n * 1.1 ? (a.subarray(0, n) as T) : (a.slice(0, n) as T));
+      if (bd.numeric) columns.set(bd.name, { kind: "numeric", name: bd.name, values: fit(bd.values) });
       else
         columns.set(bd.name, {
-          kind: "factor", name: bd.name, codes: bd.codes.slice(0, n), levels: bd.levels,
+          kind: "factor", name: bd.name, codes: fit(bd.codes), levels: bd.levels,
           reason: bd.forced ? { forced: true } : { forced: false, row: bd.firstText!.row, value: bd.firstText!.value },
         });
     }
