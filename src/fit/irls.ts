@@ -94,8 +94,8 @@ export interface FitSetup {
   cells?: CellLayout | null;
   /** The grouping of a setup this one was derived from: still valid, only positions change. */
   parentCells?: CellLayout | null;
-  /** Scaled values of each slot (null: an indicator), shared by derived setups. */
-  slotValues?: (Float64Array | null)[];
+  /** Each slot's values with the centring and scaling to apply (null: an indicator), shared by derived setups. */
+  slotValues?: (ScaledValues | null)[];
 }
 
 function compiledOf(m: ModelMatrix, setup: FitSetup): CompiledSlot[] {
@@ -227,10 +227,11 @@ export function prepareFit(m: ModelMatrix, data: FitData, fixed?: Map<number, nu
   const candPos = new Int32Array(p).fill(-1);
   cand.forEach((c, k) => (candPos[c] = k));
   const ones = new Float64Array(n).fill(1);
-  const csCand = compileSlots(m, { inFit, active: candPos, q: cand.length, center, scale });
-  const cellsCand = buildCells(csCand, n, Math.max(64, Math.floor(n / 8)), inFit);
-  const slotValues = csCand.map((c) => c.val);
-  const gram = cellsCand ? crossProductsCells(slotValues, cellsCand, n, cand.length, pw ?? ones, null) : crossProductsCompiled(csCand, n, cand.length, pw ?? ones, null);
+  const cellsCand = buildCells(m, inFit, candPos, maxCellsFor(n));
+  const slotValues = scaledValues(m, center, scale);
+  const gram = cellsCand
+    ? crossProductsCells(slotValues, cellsCand, n, cand.length, pw ?? ones, null)
+    : crossProductsCompiled(compileSlots(m, { inFit, active: candPos, q: cand.length, center, scale }), n, cand.length, pw ?? ones, null);
   const keep = screenRank(gram.a);
   cand.forEach((c, k) => { if (!keep[k]) status[c] = "aliased"; });
 
@@ -269,8 +270,6 @@ export interface Layout {
 export interface CompiledSlot {
   pos: Int32Array;
   val: Float64Array | null;
-  /** The position when it is the same in every row in the fit (−1 otherwise). */
-  fixed: number;
 }
 
 export function compileSlots(m: ModelMatrix, lay: Layout): CompiledSlot[] {
@@ -292,14 +291,7 @@ export function compileSlots(m: ModelMatrix, lay: Layout): CompiledSlot[] {
       const v = slot.values;
       for (let i = 0; i < n; i++) val[i] = (v[i] - c0) / s0;
     }
-    // Fixed: one active position in every row in the fit.
-    let fixedPos = slot.cols === null ? fixed : -1;
-    if (fixedPos < 0 && slot.cols !== null) {
-      let f = -2;
-      for (let i = 0; i < n && f !== -1; i++) { if (!lay.inFit[i]) continue; const p = pos[i]; if (f === -2) f = p; else if (p !== f) f = -1; }
-      fixedPos = f >= 0 ? f : -1;
-    }
-    return { pos, val, fixed: fixedPos };
+    return { pos, val };
   });
 }
 
@@ -320,12 +312,33 @@ function cellsOf(m: ModelMatrix, setup: FitSetup): CellLayout | null {
       ? recellPositions(m, setup.parentCells, setup.active)
       : setup.parentCells === null
         ? null
-        : buildCells(compiledOf(m, setup), m.n, Math.max(64, Math.floor(m.n / 8)), setup.inFit);
+        : buildCells(m, setup.inFit, setup.active, maxCellsFor(m.n));
   return setup.cells;
 }
 
-function slotValuesOf(m: ModelMatrix, setup: FitSetup): (Float64Array | null)[] {
-  return (setup.slotValues ??= compiledOf(m, setup).map((c) => c.val));
+function slotValuesOf(m: ModelMatrix, setup: FitSetup): (ScaledValues | null)[] {
+  return (setup.slotValues ??= scaledValues(m, setup.center, setup.scale));
+}
+
+/**
+ * A slot's values as the fit sees them, (raw − center)/scale, computed where
+ * they are used instead of stored (a copy per slot would cost as much memory
+ * as the column itself).
+ */
+export interface ScaledValues {
+  raw: Float64Array;
+  center: number;
+  scale: number;
+}
+
+function scaledValues(m: ModelMatrix, center: Float64Array, scale: Float64Array): (ScaledValues | null)[] {
+  // Centre and scale are shared by all columns of a slot.
+  return m.slots.map((s) => (s.values === null ? null : { raw: s.values, center: center[s.colStart], scale: scale[s.colStart] }));
+}
+
+/** More cells than this and the row-by-row path is used instead. */
+function maxCellsFor(n: number): number {
+  return Math.max(64, Math.floor(n / 8));
 }
 
 /**
@@ -347,26 +360,26 @@ export interface CellLayout {
   reps: Int32Array;
 }
 
-export function buildCells(cs: CompiledSlot[], n: number, maxCells: number, inFit: Uint8Array): CellLayout | null {
-  const k = cs.length;
-  const varying = cs.map((c, s) => (c.fixed < 0 ? s : -1)).filter((s) => s >= 0);
+export function buildCells(m: ModelMatrix, inFit: Uint8Array, active: Int32Array, maxCells: number): CellLayout | null {
+  const n = m.n, k = m.slots.length;
+  // The key of a row: the column each factor slot puts it in (0 for none), in mixed radix.
+  const varying = m.slots.filter((sl) => sl.cols !== null);
   let radix = 1;
   const mult: number[] = [];
-  for (const s of varying) {
+  for (const sl of varying) {
     mult.push(radix);
-    let mx = 0;
-    const p = cs[s].pos;
-    for (let i = 0; i < n; i++) if (p[i] > mx) mx = p[i];
-    radix *= mx + 2;
+    radix *= sl.colCount + 1;
     if (radix > 2 ** 52) return null;
   }
   const ids = new Map<number, number>();
   const cell = new Int32Array(n);
   const reps: number[] = [];
+  const nv = varying.length;
+  const colsOf = varying.map((sl) => sl.cols!), startOf = varying.map((sl) => sl.colStart);
   for (let i = 0; i < n; i++) {
     if (!inFit[i]) { cell[i] = -1; continue; }
     let key = 0;
-    for (let v = 0; v < varying.length; v++) key += (cs[varying[v]].pos[i] + 1) * mult[v];
+    for (let v = 0; v < nv; v++) { const c = colsOf[v][i]; key += (c < 0 ? 0 : c - startOf[v] + 1) * mult[v]; }
     let id = ids.get(key);
     if (id === undefined) {
       id = reps.length;
@@ -376,13 +389,11 @@ export function buildCells(cs: CompiledSlot[], n: number, maxCells: number, inFi
     }
     cell[i] = id;
   }
-  const nCells = reps.length;
-  const cellPos = new Int32Array(nCells * k);
-  reps.forEach((i, c) => { for (let s = 0; s < k; s++) cellPos[c * k + s] = cs[s].pos[i]; });
-  const numeric = cs.map((c, s) => (c.val !== null ? s : -1)).filter((s) => s >= 0);
+  const numeric = m.slots.map((sl, si) => (sl.values !== null ? si : -1)).filter((si) => si >= 0);
   const numericIndex = new Int32Array(k).fill(-1);
-  numeric.forEach((s, m) => (numericIndex[s] = m));
-  return { nCells, cell, cellPos, numeric, numericIndex, reps: Int32Array.from(reps) };
+  numeric.forEach((si, j) => (numericIndex[si] = j));
+  const layout = { nCells: reps.length, cell, cellPos: new Int32Array(0), numeric, numericIndex, reps: Int32Array.from(reps) };
+  return recellPositions(m, layout, active);
 }
 
 /** A parent's grouping with the positions of a derived setup (same rows per cell). */
@@ -400,19 +411,19 @@ function recellPositions(m: ModelMatrix, parent: CellLayout, active: Int32Array)
 }
 
 /** eta = offset + X·beta' from the cells: a constant per cell plus the numeric slots. */
-function linearPredictorCells(L: CellLayout, slotVals: (Float64Array | null)[], betaS: Float64Array, off: Float64Array, eta: Float64Array): void {
+function linearPredictorCells(L: CellLayout, slotVals: (ScaledValues | null)[], betaS: Float64Array, off: Float64Array, eta: Float64Array): void {
   const k = slotVals.length;
   const cst = new Float64Array(L.nCells);
   for (let c = 0; c < L.nCells; c++)
     for (let s = 0; s < k; s++) { const p = L.cellPos[c * k + s]; if (p >= 0 && slotVals[s] === null) cst[c] += betaS[p]; }
   for (let i = 0; i < off.length; i++) { const c = L.cell[i]; eta[i] = c < 0 ? -Infinity : off[i] + cst[c]; }
   for (const s of L.numeric) {
-    const v = slotVals[s]!;
+    const { raw, center, scale } = slotVals[s]!;
     const coef = new Float64Array(L.nCells);
     let any = false;
     for (let c = 0; c < L.nCells; c++) { const p = L.cellPos[c * k + s]; coef[c] = p >= 0 ? betaS[p] : 0; if (p >= 0) any = true; }
     if (!any) continue;
-    for (let i = 0; i < off.length; i++) { const c = L.cell[i]; if (c >= 0) eta[i] += coef[c] * v[i]; }
+    for (let i = 0; i < off.length; i++) { const c = L.cell[i]; if (c >= 0) eta[i] += coef[c] * ((raw[i] - center) / scale); }
   }
 }
 
@@ -422,7 +433,7 @@ function linearPredictorCells(L: CellLayout, slotVals: (Float64Array | null)[], 
  * follows every IRLS step and step-halving.
  */
 function predictCells(
-  L: CellLayout, slotVals: (Float64Array | null)[], betaS: Float64Array, off: Float64Array,
+  L: CellLayout, slotVals: (ScaledValues | null)[], betaS: Float64Array, off: Float64Array,
   eta: Float64Array, mu: Float64Array, pw: Float64Array | null, alpha: number, tab: DevianceTable,
 ): number {
   const k = slotVals.length, C = L.nCells, M = L.numeric.length;
@@ -435,7 +446,9 @@ function predictCells(
       else coef[c * M + L.numericIndex[s]] = betaS[p];
     }
   const vals = L.numeric.map((s) => slotVals[s]!);
-  const v0 = M > 0 ? vals[0] : null, v1 = M > 1 ? vals[1] : null;
+  const raws = vals.map((v) => v.raw), cens = vals.map((v) => v.center), scs = vals.map((v) => v.scale);
+  const r0 = M > 0 ? raws[0] : null, c0 = M > 0 ? cens[0] : 0, s0 = M > 0 ? scs[0] : 1;
+  const r1 = M > 1 ? raws[1] : null, c1 = M > 1 ? cens[1] : 0, s1 = M > 1 ? scs[1] : 1;
   const cell = L.cell, yl = tab.ylogy, cnt = tab.counts;
   const nb = tab.nb, r = 1 / alpha;
   const n = off.length;
@@ -444,9 +457,9 @@ function predictCells(
     const c = cell[i];
     if (c < 0) { eta[i] = -Infinity; mu[i] = 0; continue; }
     let e = off[i] + cst[c];
-    if (M === 1) e += coef[c] * v0![i];
-    else if (M === 2) e += coef[2 * c] * v0![i] + coef[2 * c + 1] * v1![i];
-    else for (let m = 0; m < M; m++) e += coef[c * M + m] * vals[m][i];
+    if (M === 1) e += coef[c] * ((r0![i] - c0) / s0);
+    else if (M === 2) e += coef[2 * c] * ((r0![i] - c0) / s0) + coef[2 * c + 1] * ((r1![i] - c1) / s1);
+    else for (let m = 0; m < M; m++) e += coef[c * M + m] * ((raws[m][i] - cens[m]) / scs[m]);
     eta[i] = e;
     const mi = Math.exp(e);
     mu[i] = mi;
@@ -476,13 +489,13 @@ export interface WorkingInputs {
 }
 
 /** X'WX and X'Wz from the cell sums (see CellLayout); w and z given as arrays or as their WorkingInputs. */
-export function crossProductsCells(slotVals: (Float64Array | null)[], L: CellLayout, n: number, q: number, w: Float64Array | WorkingInputs, z: Float64Array | null): { a: SymMatrix; b: Float64Array } {
+export function crossProductsCells(slotVals: (ScaledValues | null)[], L: CellLayout, n: number, q: number, w: Float64Array | WorkingInputs, z: Float64Array | null): { a: SymMatrix; b: Float64Array } {
   const M = L.numeric.length;
   const MM = (M * (M + 1)) / 2;
   const C = L.nCells;
   const s0 = new Float64Array(C), s1 = new Float64Array(C * M), s2 = new Float64Array(C * MM);
   const z0 = new Float64Array(C), z1 = new Float64Array(C * M);
-  const vals = L.numeric.map((s) => slotVals[s]!);
+  const raws = L.numeric.map((s) => slotVals[s]!.raw), cens = L.numeric.map((s) => slotVals[s]!.center), scs = L.numeric.map((s) => slotVals[s]!.scale);
   const cell = L.cell;
   const vi = new Float64Array(M);
   const work = w instanceof Float64Array ? null : w;
@@ -504,7 +517,7 @@ export function crossProductsCells(slotVals: (Float64Array | null)[], L: CellLay
     z0[c] += wi * zi;
     let t = c * MM;
     for (let m = 0; m < M; m++) {
-      const v = vals[m][i];
+      const v = (raws[m][i] - cens[m]) / scs[m];
       vi[m] = v;
       const wv = wi * v;
       s1[c * M + m] += wv;
