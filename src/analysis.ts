@@ -46,11 +46,17 @@ export function patternsFor(design: Design, family: FamilyName, merge: MergeChoi
 }
 
 /** Fit one family, over merged patterns when patternsFor says so. */
-export function fitFamily(design: Design, family: FamilyName, control?: Partial<FitControl>, merge: MergeChoice = "auto", onProgress?: (message: string) => void): ModelFit {
+export function fitFamily(design: Design, family: FamilyName, control?: Partial<FitControl>, merge: MergeChoice = "auto", onProgress?: (message: string) => void, poisson?: ModelFit): ModelFit {
   const patterns = patternsFor(design, family, merge);
   const over = patterns ? ` over ${patterns.patterns.toLocaleString("en")} patterns` : "";
   const onIteration = onProgress ? (it: number, dev: number) => onProgress(`fitting the ${family} model${over}: IRLS iteration ${it}, deviance ${dev.toPrecision(10)}`) : undefined;
-  return fitModel(design, { family, control, patterns, onIteration });
+  // The negative binomial on the rows starts from a Poisson fit: over merged patterns when they are few
+  // (at most an eighth of the rows, so that merging costs less than it saves).
+  if (family === "negbin" && !patterns && !poisson && merge !== "never" && design.n >= MERGE_MIN_ROWS) {
+    const pm = mergePatterns(design, "covariates", Math.floor(design.n / 8));
+    if (pm) poisson = fitModel(design, { family: "poisson", control, patterns: pm, onIteration });
+  }
+  return fitModel(design, { family, control, patterns, onIteration, poisson: family === "negbin" && !patterns ? poisson : undefined });
 }
 
 export interface FitAnalysis {
@@ -63,7 +69,7 @@ export interface FitAnalysis {
 function fitForAnalysis(design: Design, o: AnalysisOptions): { mf: ModelFit; check: CheckResult | null; familyChoice?: { requested: string; reason: string } } {
   if (o.family !== "auto") return { mf: fitFamily(design, o.family, o.control, o.merge, o.onProgress), check: null };
   const pois = fitFamily(design, "poisson", o.control, o.merge, o.onProgress);
-  const nb = fitFamily(design, "negbin", o.control, o.merge, o.onProgress);
+  const nb = fitFamily(design, "negbin", o.control, o.merge, o.onProgress, pois);
   const check = runChecks(design, pois, nb, o.testLevel ?? 0.05);
   const flagged = dispersionFlagged(check);
   return {
@@ -127,7 +133,7 @@ export function analyzeCheck(design: Design, o: { control?: Partial<FitControl>;
 /** The check together with the Poisson and negative-binomial fits it used. */
 export function analyzeCheckWithFits(design: Design, o: { control?: Partial<FitControl>; testLevel: number; merge?: MergeChoice; onProgress?: (message: string) => void }): { check: CheckResult; poisson: ModelFit; negbin: ModelFit } {
   const poisson = fitFamily(design, "poisson", o.control, o.merge, o.onProgress);
-  const negbin = fitFamily(design, "negbin", o.control, o.merge, o.onProgress);
+  const negbin = fitFamily(design, "negbin", o.control, o.merge, o.onProgress, poisson);
   return { check: runChecks(design, poisson, negbin, o.testLevel), poisson, negbin };
 }
 

@@ -67,3 +67,18 @@ test("tokenizer agrees with csv-parse on random CSV-like text (fast-check, 300 r
     assert.deepEqual(outcome(() => parseTable(text, { source: "r.csv" })), outcome(() => parseTableWithCsvParse(text, { source: "r.csv" })));
   }), { numRuns: 300, seed: 13 });
 });
+
+test("tokenizer agrees with csv-parse on factor levels short and long, and on custom missing-value tokens of any length", () => {
+  const long = "not recorded at the time of the visit";
+  const text = `ward,k\nab,1\nabc,2\nab ,3\nabcdefg,4\nabcdef,5\n${long},6\n-,7\nab,8\nabcdefg,9\nz,${long}\n`;
+  for (const na of [undefined, ["-"], [long, "-"], ["", "abcdef"]]) {
+    const a = outcome(() => parseTable(text, { source: "t.csv", na }));
+    const b = outcome(() => parseTableWithCsvParse(text, { source: "t.csv", na }));
+    assert.deepEqual(a, b, `na = ${JSON.stringify(na)}`);
+  }
+  const t = parseTable(text, { source: "t.csv", na: [long, "-"] });
+  const ward = t.columns.get("ward")!;
+  assert.ok(ward.kind === "factor");
+  assert.deepEqual(ward.levels, ["ab", "abc", "abcdefg", "abcdef", "z"], "trimmed 'ab ' is 'ab'; the long token and '-' are missing");
+  assert.deepEqual([...ward.codes], [0, 1, 0, 2, 3, -1, -1, 0, 2, 4]);
+});

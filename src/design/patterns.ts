@@ -10,7 +10,7 @@
 //    is not a function of the pattern sums, so only rows that also share the
 //    offset and the count are merged, each pattern a frequency-weighted row
 //    (weight = Σ w). That is exact for every statistic.
-// Hashing is FNV-1a over the key columns' 32-bit words, with open addressing.
+// Keys are hashed (FNV-1a over their 32-bit words) into an open-addressing table.
 import type { Design, Slot } from "./design.js";
 
 export type PatternKey = "covariates" | "covariates, offset and count";
@@ -25,82 +25,102 @@ export interface PatternMerge {
   patterns: number;
 }
 
-/** The 32-bit words of a typed array, for hashing and exact comparison. */
-function words(a: Float64Array | Int32Array): Int32Array {
-  return a instanceof Int32Array ? a : new Int32Array(a.buffer, a.byteOffset, a.length * 2);
+/**
+ * The key of each row as a few doubles: the factor slots' columns combined
+ * into one integer in mixed radix (exact below 2^53), then each distinct
+ * numeric array (values, and for the NB also the offset and the count).
+ */
+function rowKeys(design: Design, by: PatternKey): { factorKey: Float64Array | null; numeric: Float64Array[] } | null {
+  const n = design.n;
+  const factorSlots = design.matrix.slots.filter((s) => s.cols !== null);
+  let factorKey: Float64Array | null = null;
+  if (factorSlots.length > 0) {
+    factorKey = new Float64Array(n);
+    let radix = 1;
+    for (const s of factorSlots) {
+      const cols = s.cols!, start = s.colStart;
+      for (let i = 0; i < n; i++) { const c = cols[i]; factorKey[i] += (c < 0 ? 0 : c - start + 1) * radix; }
+      radix *= s.colCount + 1;
+      if (radix > 2 ** 53) return null;
+    }
+  }
+  const numeric: Float64Array[] = [];
+  const add = (a: Float64Array | null) => { if (a !== null && !numeric.includes(a)) numeric.push(a); };
+  for (const s of design.matrix.slots) add(s.values);
+  if (by !== "covariates") { add(design.offset); add(design.y); }
+  return { factorKey, numeric };
 }
 
 /**
  * Group the design's rows by pattern. Returns null when there would be more
- * than `maxPatterns` patterns (the search stops as soon as it knows).
+ * than `maxPatterns` patterns (the search stops as soon as it knows). Each
+ * pattern's key is stored once, contiguously, so a lookup touches the hash
+ * table and one short run of doubles.
  */
 export function mergePatterns(design: Design, by: PatternKey, maxPatterns = design.n): PatternMerge | null {
   const n = design.n;
-  const keys: { w: Int32Array; stride: number }[] = [];
-  const seen = new Set<unknown>();
-  const add = (a: Float64Array | Int32Array | null) => {
-    if (a === null || seen.has(a)) return;
-    seen.add(a);
-    keys.push({ w: words(a), stride: a instanceof Int32Array ? 1 : 2 });
-  };
-  for (const s of design.matrix.slots) { add(s.cols); add(s.values); }
-  if (by !== "covariates") { add(design.offset); add(design.y); }
-
-  // Row hashes, column by column (FNV-1a on each 32-bit word).
-  const hash = new Int32Array(n).fill(-2128831035);
-  for (const { w, stride } of keys)
-    for (let i = 0; i < n; i++) {
-      let h = hash[i];
-      for (let k = 0; k < stride; k++) h = Math.imul(h ^ w[i * stride + k], 16777619);
-      hash[i] = h;
-    }
-
+  const keys = rowKeys(design, by);
+  if (keys === null) return null;
+  const cols = keys.factorKey ? [keys.factorKey, ...keys.numeric] : keys.numeric;
+  const K = cols.length;
+  const bits = new Float64Array(1), words = new Int32Array(bits.buffer);
+  const row = new Float64Array(K);
   let cap = 1 << 12;
   let table = new Int32Array(cap).fill(-1);
-  let reps = new Int32Array(1 << 10);
-  let repHash = new Int32Array(1 << 10);
+  let patKeys = new Float64Array(1024 * K);
+  let patHash = new Int32Array(1024);
+  const reps: number[] = [];
   let count = 0;
   const pattern = new Int32Array(n);
-  const same = (i: number, j: number): boolean => {
-    for (const { w, stride } of keys)
-      for (let k = 0; k < stride; k++) if (w[i * stride + k] !== w[j * stride + k]) return false;
-    return true;
-  };
   for (let i = 0; i < n; i++) {
-    const h = hash[i];
+    // FNV-1a over the 32-bit words of the row's key.
+    let h = -2128831035;
+    for (let k = 0; k < K; k++) {
+      const v = cols[k][i];
+      row[k] = v;
+      bits[0] = v;
+      h = Math.imul(h ^ words[0], 16777619);
+      h = Math.imul(h ^ words[1], 16777619);
+    }
     let slot = (h ^ (h >>> 15)) & (cap - 1);
     let id = -1;
     for (;;) {
       const t = table[slot];
       if (t < 0) break;
-      if (repHash[t] === h && same(reps[t], i)) { id = t; break; }
+      if (patHash[t] === h) {
+        let k = 0;
+        const base = t * K;
+        while (k < K && patKeys[base + k] === row[k]) k++;
+        if (k === K) { id = t; break; }
+      }
       slot = (slot + 1) & (cap - 1);
     }
     if (id < 0) {
       if (count >= maxPatterns) return null;
       id = count++;
-      if (id >= reps.length) {
-        const r = new Int32Array(reps.length * 2); r.set(reps); reps = r;
-        const rh = new Int32Array(repHash.length * 2); rh.set(repHash); repHash = rh;
+      if (id >= patHash.length) {
+        const ph = new Int32Array(patHash.length * 2); ph.set(patHash); patHash = ph;
+        const pk = new Float64Array(patKeys.length * 2); pk.set(patKeys); patKeys = pk;
       }
-      reps[id] = i;
-      repHash[id] = h;
+      patKeys.set(row, id * K);
+      patHash[id] = h;
+      reps.push(i);
       table[slot] = id;
       if (count * 2 > cap) {
         // Grow and re-insert every pattern by its stored hash.
         cap *= 2;
         table = new Int32Array(cap).fill(-1);
         for (let t = 0; t < count; t++) {
-          const g = repHash[t];
-          let s = (g ^ (g >>> 15)) & (cap - 1);
-          while (table[s] >= 0) s = (s + 1) & (cap - 1);
-          table[s] = t;
+          const g = patHash[t];
+          let s2 = (g ^ (g >>> 15)) & (cap - 1);
+          while (table[s2] >= 0) s2 = (s2 + 1) & (cap - 1);
+          table[s2] = t;
         }
       }
     }
     pattern[i] = id;
   }
-  return { by, design: patternDesign(design, by, pattern, reps.subarray(0, count)), pattern, rows: n, patterns: count };
+  return { by, design: patternDesign(design, by, pattern, Int32Array.from(reps)), pattern, rows: n, patterns: count };
 }
 
 /** The one-row-per-pattern design: covariates of a representative row, summed counts and exposures or weights. */

@@ -1,7 +1,7 @@
 // Count families with the log link. alpha = 0 is the Poisson; alpha > 0 is the
 // NB2 negative binomial, variance = mu + alpha·mu² (Cameron and Trivedi,
 // Regression Analysis of Count Data, 2nd ed., 2013, §3.3).
-import { lgamma } from "../infer/distributions.js";
+import { digamma, lgamma, trigamma } from "../infer/distributions.js";
 
 const maxCounts = new WeakMap<Float64Array, number>();
 const countCodes = new WeakMap<Float64Array, Int32Array | null>();
@@ -79,4 +79,46 @@ export function lgammaRatio(y: number, r: number): number {
     return s;
   }
   return lgamma(y + r) - lgamma(r);
+}
+
+/** Σ_{j<y} 1/(r+j) and Σ_{j<y} 1/(r+j)², directly for small y, else by digamma/trigamma differences. */
+export function harmonic(y: number, r: number): [number, number] {
+  if (y <= 16 || (y <= 256 && r > 1e5)) {
+    let d = 0, e = 0;
+    for (let j = 0; j < y; j++) { const t = 1 / (r + j); d += t; e += t * t; }
+    return [d, e];
+  }
+  return [digamma(y + r) - digamma(r), trigamma(r) - trigamma(y + r)];
+}
+
+/** Harmonic sums Σ_{j<k} 1/(r+j) and Σ_{j<k} 1/(r+j)² for k = 0 … top. */
+export function harmonicTables(top: number, r: number): { d: Float64Array; e: Float64Array } {
+  const tabD = new Float64Array(top + 1), tabE = new Float64Array(top + 1);
+  let d = 0, e = 0;
+  for (let k = 0; k <= top; k++) {
+    if (k > 0) { const t = 1 / (r + k - 1); d += t; e += t * t; }
+    tabD[k] = d; tabE[k] = e;
+  }
+  // Long running sums drift by rounding: refresh the tail from digamma/trigamma.
+  for (let k = 64; k <= top; k += 64) { const [dd, ee] = harmonic(k, r); tabD[k] = dd; tabE[k] = ee; for (let j = k + 1; j < Math.min(top + 1, k + 64); j++) { const t = 1 / (r + j - 1); tabD[j] = tabD[j - 1] + t; tabE[j] = tabE[j - 1] + t * t; } }
+  return { d: tabD, e: tabE };
+}
+
+/**
+ * ∂ℓ/∂α and ∂²ℓ/∂α² of the NB2 log-likelihood from five row sums (Cameron
+ * and Trivedi 2013, §3.3), with q = 1 + α·mu, l = log q and the harmonic sums
+ * d = Σ_{j<y} 1/(r+j), e = Σ_{j<y} 1/(r+j)² (r = 1/α), each weighted:
+ * s1 = Σ(l − d), s2 = Σ(y − mu)/q, s3 = Σ mu/q, s4 = Σ e, s5 = Σ(y − mu)(1 + 2α·mu)/q².
+ *   g = s1/α² + s2/α,  h = −2·s1/α³ + s3/α² − s4/α⁴ − s5/α²
+ */
+export function alphaDerivativesFromSums(s: ArrayLike<number>, alpha: number): { g: number; h: number } {
+  const a2 = alpha * alpha;
+  return { g: s[0] / a2 + s[1] / alpha, h: (-2 * s[0]) / (a2 * alpha) + s[2] / a2 - s[3] / (a2 * a2) - s[4] / a2 };
+}
+
+/** log Γ(k + r) − log Γ(r) − log k! for k = 0 … top: the count-only terms of the NB2 log-likelihood at r = 1/alpha. */
+export function negbinCountTerms(top: number, r: number): Float64Array {
+  const tab = new Float64Array(top + 1);
+  for (let k = 0; k <= top; k++) tab[k] = lgammaRatio(k, r) - lgamma(k + 1);
+  return tab;
 }

@@ -6,7 +6,7 @@ import type { ModelMatrix } from "../design/design.js";
 import { FitError } from "../errors.js";
 import type { SymMatrix } from "../linalg/dense.js";
 import { cholesky, choleskyInverse, choleskySolve, congruence, screenRank } from "../linalg/dense.js";
-import { countIndex, maxCount, unitDeviance } from "./family.js";
+import { alphaDerivativesFromSums, countIndex, harmonicTables, maxCount, negbinCountTerms, unitDeviance } from "./family.js";
 
 export interface FitControl {
   maxIter: number;
@@ -49,6 +49,8 @@ export interface GlmFit {
   /** The screening and conditioning used; covarianceScaled is in its coordinates. */
   setup: FitSetup;
   covarianceScaled: SymMatrix;
+  /** Joint NB2 fits: alpha's score g, curvature h and the log-likelihood at the returned estimate, from its last pass. */
+  negbinAtEstimate?: { g: number; h: number; logLik: number };
 }
 
 export interface FitOptions {
@@ -71,9 +73,11 @@ export interface FitOptions {
   stopOnPredicted?: boolean;
   /**
    * Estimate the NB2 alpha jointly: after each IRLS step, this returns the next
-   * alpha at the new means (0: the boundary, which stops the fit unconverged).
+   * alpha at the new means (0: the boundary, which stops the fit unconverged);
+   * it is given alpha's score and curvature there when the pass that computed
+   * the means also accumulated them.
    */
-  alphaStep?: (mu: Float64Array, alpha: number) => number;
+  alphaStep?: (mu: Float64Array, alpha: number, derivatives: { g: number; h: number } | null) => number;
   /** Called after each IRLS iteration (progress on a terminal). */
   onIteration?: (iteration: number, deviance: number) => void;
 }
@@ -427,15 +431,8 @@ function linearPredictorCells(L: CellLayout, slotVals: (ScaledValues | null)[], 
   }
 }
 
-/**
- * eta = offset + X·beta', mu = exp(eta) and the total deviance (see
- * totalDeviance) in one pass over the rows, from the cells: the pass that
- * follows every IRLS step and step-halving.
- */
-function predictCells(
-  L: CellLayout, slotVals: (ScaledValues | null)[], betaS: Float64Array, off: Float64Array,
-  eta: Float64Array, mu: Float64Array, pw: Float64Array | null, alpha: number, tab: DevianceTable,
-): number {
+/** The per-cell constants of eta = offset + X·beta' (see CellLayout): the indicator part and each numeric slot's coefficient. */
+function cellCoefficients(L: CellLayout, slotVals: (ScaledValues | null)[], betaS: Float64Array) {
   const k = slotVals.length, C = L.nCells, M = L.numeric.length;
   const cst = new Float64Array(C), coef = new Float64Array(C * M);
   for (let c = 0; c < C; c++)
@@ -446,29 +443,95 @@ function predictCells(
       else coef[c * M + L.numericIndex[s]] = betaS[p];
     }
   const vals = L.numeric.map((s) => slotVals[s]!);
-  const raws = vals.map((v) => v.raw), cens = vals.map((v) => v.center), scs = vals.map((v) => v.scale);
-  const r0 = M > 0 ? raws[0] : null, c0 = M > 0 ? cens[0] : 0, s0 = M > 0 ? scs[0] : 1;
-  const r1 = M > 1 ? raws[1] : null, c1 = M > 1 ? cens[1] : 0, s1 = M > 1 ? scs[1] : 1;
+  return { M, cst, coef, raws: vals.map((v) => v.raw), cens: Float64Array.from(vals, (v) => v.center), scs: Float64Array.from(vals, (v) => v.scale) };
+}
+
+/**
+ * eta = offset + X·beta', mu = exp(eta) and the Poisson deviance (see
+ * totalDeviance) in one pass over the rows, from the cells: the pass that
+ * follows every IRLS step and step-halving. The NB2 twin is predictCellsNegbin;
+ * they are separate so that each stays a tight loop.
+ */
+function predictCellsPoisson(L: CellLayout, slotVals: (ScaledValues | null)[], betaS: Float64Array, off: Float64Array, eta: Float64Array, mu: Float64Array, pw: Float64Array | null, tab: DevianceTable): number {
+  const { M, cst, coef, raws, cens, scs } = cellCoefficients(L, slotVals, betaS);
+  const r0 = M > 0 ? raws[0] : off, c0 = M > 0 ? cens[0] : 0, s0 = M > 0 ? scs[0] : 1;
+  const r1 = M > 1 ? raws[1] : off, c1 = M > 1 ? cens[1] : 0, s1 = M > 1 ? scs[1] : 1;
   const cell = L.cell, yl = tab.ylogy, cnt = tab.counts;
-  const nb = tab.nb, r = 1 / alpha;
   const n = off.length;
   let d = 0;
   for (let i = 0; i < n; i++) {
     const c = cell[i];
     if (c < 0) { eta[i] = -Infinity; mu[i] = 0; continue; }
     let e = off[i] + cst[c];
-    if (M === 1) e += coef[c] * ((r0![i] - c0) / s0);
-    else if (M === 2) e += coef[2 * c] * ((r0![i] - c0) / s0) + coef[2 * c + 1] * ((r1![i] - c1) / s1);
+    if (M === 1) e += coef[c] * ((r0[i] - c0) / s0);
+    else if (M === 2) e += coef[2 * c] * ((r0[i] - c0) / s0) + coef[2 * c + 1] * ((r1[i] - c1) / s1);
     else for (let m = 0; m < M; m++) e += coef[c * M + m] * ((raws[m][i] - cens[m]) / scs[m]);
     eta[i] = e;
     const mi = Math.exp(e);
     mu[i] = mi;
     const y = cnt[i];
-    const u = alpha === 0
-      ? yl[y] - y * e - (y - mi)
-      : yl[y] - y * e - nb![y] + (y + r) * Math.log1p(alpha * mi);
+    const u = yl[y] - y * e - (y - mi);
     d += pw === null ? u : pw[i] * u;
   }
+  return 2 * d;
+}
+
+/** Per-count tables at one alpha, and what the joint pass accumulates: the five alpha sums, then the log-likelihood. */
+interface AlphaSums {
+  alpha: number;
+  want: boolean;
+  d: Float64Array;
+  e: Float64Array;
+  lgammaTerms: Float64Array;
+  out: Float64Array;
+}
+
+function alphaSumsAt(y: Float64Array, alpha: number, want: boolean, out: Float64Array = new Float64Array(6)): AlphaSums {
+  if (!want) return { alpha, want, d: new Float64Array(0), e: new Float64Array(0), lgammaTerms: new Float64Array(0), out };
+  const top = maxCount(y), r = 1 / alpha;
+  return { alpha, want, ...harmonicTables(top, r), lgammaTerms: negbinCountTerms(top, r), out };
+}
+
+/**
+ * The NB2 twin of predictCellsPoisson; when sums.want, it also accumulates
+ * the five sums of alphaDerivativesFromSums and the NB2 log-likelihood at this
+ * alpha and the new means (the joint alpha step needs them, and the pass
+ * computes log(1 + alpha·mu) anyway).
+ */
+function predictCellsNegbin(
+  L: CellLayout, slotVals: (ScaledValues | null)[], betaS: Float64Array, off: Float64Array,
+  eta: Float64Array, mu: Float64Array, pw: Float64Array | null, alpha: number, tab: DevianceTable,
+  sums: AlphaSums,
+): number {
+  const { M, cst, coef, raws, cens, scs } = cellCoefficients(L, slotVals, betaS);
+  const r0 = M > 0 ? raws[0] : off, c0 = M > 0 ? cens[0] : 0, s0 = M > 0 ? scs[0] : 1;
+  const r1 = M > 1 ? raws[1] : off, c1 = M > 1 ? cens[1] : 0, s1 = M > 1 ? scs[1] : 1;
+  const cell = L.cell, yl = tab.ylogy, cnt = tab.counts, nb = tab.nb!, r = 1 / alpha;
+  const hd = sums.d, he = sums.e, lt = sums.lgammaTerms, want = sums.want, logAlpha = Math.log(alpha);
+  const n = off.length;
+  let d = 0, a1 = 0, a2 = 0, a3 = 0, a4 = 0, a5 = 0, ll = 0;
+  for (let i = 0; i < n; i++) {
+    const c = cell[i];
+    if (c < 0) { eta[i] = -Infinity; mu[i] = 0; continue; }
+    let e = off[i] + cst[c];
+    if (M === 1) e += coef[c] * ((r0[i] - c0) / s0);
+    else if (M === 2) e += coef[2 * c] * ((r0[i] - c0) / s0) + coef[2 * c + 1] * ((r1[i] - c1) / s1);
+    else for (let m = 0; m < M; m++) e += coef[c * M + m] * ((raws[m][i] - cens[m]) / scs[m]);
+    eta[i] = e;
+    const mi = Math.exp(e);
+    mu[i] = mi;
+    const y = cnt[i];
+    const wi = pw === null ? 1 : pw[i];
+    const am = alpha * mi, l = Math.log1p(am);
+    d += wi * (yl[y] - y * e - nb[y] + (y + r) * l);
+    if (want && mi > 0) {
+      const iq = 1 / (1 + am), res = (y - mi) * iq;
+      a1 += wi * (l - hd[y]); a2 += wi * res; a3 += wi * mi * iq; a4 += wi * he[y]; a5 += wi * res * iq * (1 + 2 * am);
+      ll += wi * (lt[y] - r * l + y * (logAlpha + e - l));
+    }
+  }
+  const o = sums.out;
+  o[0] = a1; o[1] = a2; o[2] = a3; o[3] = a4; o[4] = a5; o[5] = ll;
   return 2 * d;
 }
 
@@ -699,9 +762,13 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
   const vals = slotValuesOf(m, setup);
   const cs = cells ? null : compiledOf(m, setup);
   const linpred = (b_: Float64Array, e_: Float64Array) => (cells ? linearPredictorCells(cells, vals, b_, off, e_) : linearPredictor(cs!, inFit, b_, off, e_));
+  // Joint alpha: its score sums come out of the same pass as the deviance.
+  const joint = !!options.alphaStep && cells !== null && countIndex(y) !== null && alpha > 0;
+  let sums = alphaSumsAt(y, alpha, joint);
   /** New eta and mu at b_, and the deviance there. */
   const evaluate = (b_: Float64Array, e_: Float64Array, m_: Float64Array): number => {
-    if (cells && dtab) return predictCells(cells, vals, b_, off, e_, m_, pw, alpha, dtab);
+    if (cells && dtab)
+      return alpha === 0 ? predictCellsPoisson(cells, vals, b_, off, e_, m_, pw, dtab) : predictCellsNegbin(cells, vals, b_, off, e_, m_, pw, alpha, dtab, sums);
     linpred(b_, e_);
     expInto(e_, inFit, m_);
     return totalDeviance(y, m_, e_, pw, inFit, alpha, dtab);
@@ -802,10 +869,17 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
     let alphaSettled = true;
     if (options.alphaStep) {
       // Joint estimation: one step for alpha at the new means, then the deviance at the new alpha.
-      const next = options.alphaStep(mu, alpha);
+      const next = options.alphaStep(mu, alpha, joint && sums.alpha === alpha ? alphaDerivativesFromSums(sums.out, alpha) : null);
       if (!(next > 0)) break; // alpha reached the boundary: the caller takes over
-      alphaSettled = Math.abs(Math.log(next / alpha)) < 1e-9;
-      if (next !== alpha) { alpha = next; dtab = devianceTable(y, alpha); dev = totalDeviance(y, mu, eta, pw, inFit, alpha, dtab); devOld = dev; }
+      // A step below the settling threshold is not taken: alpha is then final, and so are the pass's sums.
+      alphaSettled = Math.abs(Math.log(next / alpha)) < 1e-7;
+      if (!alphaSettled) {
+        alpha = next;
+        dtab = devianceTable(y, alpha);
+        dev = totalDeviance(y, mu, eta, pw, inFit, alpha, dtab);
+        devOld = dev;
+        if (joint) sums = alphaSumsAt(y, alpha, true, sums.out);
+      }
     }
     options.onIteration?.(iter, dev);
     if (change < control.tolerance && alphaSettled) { converged = true; break; }
@@ -839,6 +913,7 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
   return {
     beta, status: setup.status, estimable: order, covariance, mu, eta, deviance: dev, iterations: iter, converged, alpha,
     rowsAtZero: setup.rowsAtZero, warnings, setup, covarianceScaled: covS,
+    ...(joint && converged && sums.alpha === alpha ? { negbinAtEstimate: { ...alphaDerivativesFromSums(sums.out, alpha), logLik: sums.out[5] } } : {}),
   };
 }
 

@@ -67,6 +67,11 @@ export interface FitModelOptions {
   patterns?: PatternMerge | null;
   /** Progress: called after each IRLS iteration of the model's own fits. */
   onIteration?: (iteration: number, deviance: number) => void;
+  /**
+   * Negative binomial: the Poisson model it starts from and is tested against,
+   * already fitted on these rows (a ModelFit of family poisson, merged or not).
+   */
+  poisson?: ModelFit;
 }
 
 
@@ -158,6 +163,7 @@ export function fitModel(design: Design, options: FitModelOptions): ModelFit {
   if (pm) {
     if (options.family === "negbin" && pm.by === "covariates")
       throw new Error("the negative binomial can only be fitted over patterns that also share the offset and the count");
+    // A Poisson fit of the rows is not one of the patterns' (their rows differ): the inner fit makes its own.
     const inner = fitModel(pm.design, { family: options.family, control: options.control, onIteration: options.onIteration });
     const fit = expandFit(design, pm, inner.fit);
     return {
@@ -171,7 +177,7 @@ export function fitModel(design: Design, options: FitModelOptions): ModelFit {
     };
   }
   if (options.family === "negbin") {
-    const nb = fitNegbin(design.matrix, design, { control, onIteration: options.onIteration });
+    const nb = fitNegbin(design.matrix, design, { control, onIteration: options.onIteration, poisson: options.poisson?.fit });
     requireConverged(nb.fit);
     return {
       family: "negbin",

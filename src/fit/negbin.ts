@@ -3,8 +3,7 @@
 // (Lawless 1987, Canadian Journal of Statistics 15:209–225).
 import type { ModelMatrix } from "../design/design.js";
 import { FitError } from "../errors.js";
-import { digamma, trigamma } from "../infer/distributions.js";
-import { countIndex, lgammaRatio, logDensity, maxCount } from "./family.js";
+import { alphaDerivativesFromSums, countIndex, harmonic, harmonicTables, logDensity, maxCount, negbinCountTerms } from "./family.js";
 import { lgamma } from "../infer/distributions.js";
 import { fitGlm, prepareFit, type FitControl, type FitData, type FitSetup, type GlmFit } from "./irls.js";
 
@@ -22,16 +21,6 @@ export interface NegbinFit {
   poissonLogLik: number;
 }
 
-/** Σ_{j<y} 1/(r+j) and Σ_{j<y} 1/(r+j)², directly for small y, else by digamma/trigamma differences. */
-function harmonic(y: number, r: number): [number, number] {
-  if (y <= 16 || (y <= 256 && r > 1e5)) {
-    let d = 0, e = 0;
-    for (let j = 0; j < y; j++) { const t = 1 / (r + j); d += t; e += t * t; }
-    return [d, e];
-  }
-  return [digamma(y + r) - digamma(r), trigamma(r) - trigamma(y + r)];
-}
-
 /** NB2 log-likelihood at the given means (rows with mu = 0 and y = 0 contribute 0). */
 export function negbinLogLik(y: Float64Array, mu: Float64Array, pw: Float64Array | null, alpha: number): number {
   const yi32 = alpha === 0 ? null : countIndex(y);
@@ -43,8 +32,7 @@ export function negbinLogLik(y: Float64Array, mu: Float64Array, pw: Float64Array
   // The y-only terms log Γ(y + r) − log Γ(r) − log y! depend on y alone at fixed alpha: tabulate them.
   const top = maxCount(y);
   const r = 1 / alpha, logAlpha = Math.log(alpha);
-  const tab = new Float64Array(top + 1);
-  for (let k = 0; k <= top; k++) tab[k] = lgammaRatio(k, r) - lgamma(k + 1);
+  const tab = negbinCountTerms(top, r);
   let ll = 0;
   for (let i = 0; i < y.length; i++) {
     const m = mu[i];
@@ -58,26 +46,14 @@ export function negbinLogLik(y: Float64Array, mu: Float64Array, pw: Float64Array
   return ll;
 }
 
-/** Harmonic sums Σ_{j<k} 1/(r+j) and Σ_{j<k} 1/(r+j)² for k = 0 … top. */
-function harmonicTables(top: number, r: number): { d: Float64Array; e: Float64Array } {
-  const tabD = new Float64Array(top + 1), tabE = new Float64Array(top + 1);
-  let d = 0, e = 0;
-  for (let k = 0; k <= top; k++) {
-    if (k > 0) { const t = 1 / (r + k - 1); d += t; e += t * t; }
-    tabD[k] = d; tabE[k] = e;
-  }
-  // Long running sums drift by rounding: refresh the tail from digamma/trigamma.
-  for (let k = 64; k <= top; k += 64) { const [dd, ee] = harmonic(k, r); tabD[k] = dd; tabE[k] = ee; for (let j = k + 1; j < Math.min(top + 1, k + 64); j++) { const t = 1 / (r + j - 1); tabD[j] = tabD[j - 1] + t; tabE[j] = tabE[j - 1] + t * t; } }
-  return { d: tabD, e: tabE };
-}
-
 /**
  * Score g = ∂ℓ/∂α and its derivative h = ∂²ℓ/∂α² at fixed means (Cameron and
  * Trivedi 2013, §3.3). Per row, with q = 1 + α·mu, l = log q and the harmonic
  * sums d, e of the count:
  *   g_i = (l − d)/α² + (y − mu)/(α q)
  *   h_i = −2(l − d)/α³ + (mu/q − e/α²)/α² − (y − mu)(1 + 2α·mu)/(α q)²
- * The five row sums are accumulated separately and combined once.
+ * The five row sums are accumulated separately and combined once (see
+ * alphaDerivativesFromSums); IRLS can also accumulate them in its own pass.
  */
 export function alphaDerivatives(y: Float64Array, mu: Float64Array, pw: Float64Array | null, alpha: number): { g: number; h: number } {
   const r = 1 / alpha;
@@ -115,8 +91,7 @@ export function alphaDerivatives(y: Float64Array, mu: Float64Array, pw: Float64A
       s5 += w * res * iq * (1 + 2 * am);
     }
   }
-  const a2 = alpha * alpha;
-  return { g: s1 / a2 + s2 / alpha, h: -2 * s1 / (a2 * alpha) + s3 / a2 - s4 / (a2 * a2) - s5 / a2 };
+  return alphaDerivativesFromSums([s1, s2, s3, s4, s5], alpha);
 }
 
 /** ∂ℓ/∂α at alpha → 0⁺ with the means fixed: ½ Σ w[(y − mu)² − y]. */
@@ -147,6 +122,8 @@ export interface NegbinOptions {
   likelihoodOnly?: boolean;
   /** Progress: called after each IRLS iteration of the fits made here. */
   onIteration?: (iteration: number, deviance: number) => void;
+  /** A converged Poisson fit of the same rows and fixed columns, to start from instead of fitting one. */
+  poisson?: GlmFit;
 }
 
 /**
@@ -166,8 +143,8 @@ export function fitNegbin(m: ModelMatrix, data: FitData, o: NegbinOptions): Negb
   const setup = o.setup ?? prepareFit(m, data, o.fixed);
   const pw = data.weights;
   const warm = !!(o.warm && o.start && o.startAlpha && o.startAlpha > 0);
-  let pois: GlmFit | null = null;
-  let poisLL = NaN;
+  let pois: GlmFit | null = o.poisson ?? null;
+  let poisLL = pois ? negbinLogLik(data.y, pois.mu, pw, 0) : NaN;
   const poissonFit = () => {
     if (!pois) { pois = fitGlm(m, data, { control: o.control, fixed: o.fixed, start: o.start, setup, alpha: 0, onIteration: o.onIteration }); poisLL = negbinLogLik(data.y, pois.mu, pw, 0); }
     return pois;
@@ -183,8 +160,8 @@ export function fitNegbin(m: ModelMatrix, data: FitData, o: NegbinOptions): Negb
   // profile search below decides.
   {
     let hitBoundary = false;
-    const alphaStep = (mu: Float64Array, a: number): number => {
-      const { g, h } = alphaDerivatives(data.y, mu, pw, a);
+    const alphaStep = (mu: Float64Array, a: number, derivatives: { g: number; h: number } | null): number => {
+      const { g, h } = derivatives ?? alphaDerivatives(data.y, mu, pw, a);
       const d1 = a * g, d2 = a * a * h + a * g;
       let step = d2 < 0 ? -d1 / d2 : Math.sign(d1);
       step = Math.max(-2, Math.min(2, step));
@@ -204,10 +181,12 @@ export function fitNegbin(m: ModelMatrix, data: FitData, o: NegbinOptions): Negb
     if (joint && joint.converged && !hitBoundary && joint.alpha > 0) {
       const alpha = joint.alpha;
       // The score for alpha must be ~0 at the estimate; otherwise use the safeguarded search.
-      const { g, h } = alphaDerivatives(data.y, joint.mu, pw, alpha);
+      // (The fit's last pass gives the score and the log-likelihood when it could accumulate them.)
+      const at = joint.negbinAtEstimate;
+      const { g, h } = at ?? alphaDerivatives(data.y, joint.mu, pw, alpha);
       if (Math.abs(alpha * g) <= 1e-6 * (1 + Math.abs(alpha * alpha * h))) {
         return {
-          fit: joint, alpha, alphaStdError: h < 0 ? 1 / Math.sqrt(-h) : null, logLik: negbinLogLik(data.y, joint.mu, pw, alpha), boundary: false,
+          fit: joint, alpha, alphaStdError: h < 0 ? 1 / Math.sqrt(-h) : null, logLik: at ? at.logLik : negbinLogLik(data.y, joint.mu, pw, alpha), boundary: false,
           outerIterations: joint.iterations, poisson: pois ?? joint, poissonLogLik: pois ? poisLL : NaN,
         };
       }

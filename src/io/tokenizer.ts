@@ -21,6 +21,8 @@ interface Builder {
   levels: string[];
   /** Level lookup: hash of the bytes → codes with that hash. */
   byHash: Map<number, number[]>;
+  /** Level lookup for levels of at most 6 bytes: the bytes packed into one number (exact) → code. */
+  byPacked: Map<number, number>;
   levelBytes: Uint8Array[];
   firstText: { row: number; value: string } | null;
 }
@@ -49,6 +51,9 @@ export class ColumnReader {
   private line = 1;
   private carry: Uint8Array | null = null;
   private naBytes: Uint8Array[];
+  /** Bit k set: some missing-value token has k bytes (−1: one is longer than 31). */
+  private naLengths = 0;
+  private naFirst = new Uint8Array(256);
   private fieldStart: number[] = [];
   private fieldEnd: number[] = [];
   private fieldQuoted: boolean[] = [];
@@ -58,9 +63,16 @@ export class ColumnReader {
   bytesRead = 0;
   /** The input's size in bytes when known (a file): columns are then sized from the rows seen so far, not by doubling. */
   expectedBytes = 0;
+  /** Input offset of the buffer being tokenized. */
+  private bufferBase = 0;
 
   constructor(private o: StreamOptions) {
     this.naBytes = [...o.na].map((s) => new TextEncoder().encode(s));
+    for (const t of this.naBytes) {
+      if (t.length > 0 && t.length <= 31) this.naLengths |= 1 << t.length;
+      if (t.length > 31) this.naLengths = -1;
+      if (t.length > 0) this.naFirst[t[0]] = 1;
+    }
   }
 
   get rows(): number {
@@ -77,6 +89,7 @@ export class ColumnReader {
       buf.set(chunk, this.carry.length);
     } else buf = chunk;
     if (this.header === null && this.bytesRead === chunk.length && buf[0] === 0xef && buf[1] === 0xbb && buf[2] === 0xbf) buf = buf.subarray(3);
+    this.bufferBase = this.bytesRead - buf.length;
     // Validate UTF-8 up to the last line break (a multi-byte character never spans one).
     let upto = buf.length;
     if (!last) { upto = buf.lastIndexOf(LF) + 1; }
@@ -177,7 +190,7 @@ export class ColumnReader {
       this.builders = header.map((h) => {
         const keep = this.o.select === null || this.o.select.has(h);
         const forced = this.o.factors.has(h);
-        return { name: h, keep, forced, numeric: !forced, values: new Float64Array(keep ? 1024 : 0), codes: new Int32Array(keep && forced ? 1024 : 0), levels: [], byHash: new Map(), levelBytes: [], firstText: null };
+        return { name: h, keep, forced, numeric: !forced, values: new Float64Array(keep ? 1024 : 0), codes: new Int32Array(keep && forced ? 1024 : 0), levels: [], byHash: new Map(), byPacked: new Map(), levelBytes: [], firstText: null };
       });
       return;
     }
@@ -195,27 +208,30 @@ export class ColumnReader {
       while (e > s && (b[e - 1] === 0x20 || b[e - 1] === 0x09)) e--;
       const missing = this.isNa(b, s, e);
       if (bd.numeric) {
-        if (bd.values.length <= i) bd.values = grow(bd.values, i + 1, this.rowEstimate());
+        if (bd.values.length <= i) bd.values = grow(bd.values, i + 1, this.rowEstimate(fs[0]));
         if (missing) { bd.values[i] = NaN; continue; }
         const v = fq[j] ? parseDecimal(this.text(b, s, e, true).trim()) : this.number(b, s, e);
         if (!Number.isNaN(v)) { bd.values[i] = v; continue; }
         bd.firstText = { row, value: this.text(b, s, e, fq[j]) };
         this.demote(bd, i);
       }
-      if (bd.codes.length <= i) bd.codes = grow(bd.codes, i + 1, this.rowEstimate());
+      if (bd.codes.length <= i) bd.codes = grow(bd.codes, i + 1, this.rowEstimate(fs[0]));
       bd.codes[i] = missing ? -1 : fq[j] ? this.codeOfString(bd, this.text(b, s, e, true).trim()) : this.codeOfBytes(bd, b, s, e);
     }
     this.nRows++;
   }
 
-  /** Rows the whole input will hold, from the bytes per row so far (0: unknown yet). */
-  private rowEstimate(): number {
-    if (this.expectedBytes <= 0 || this.nRows < 1000) return 0;
-    return Math.ceil((this.expectedBytes / this.bytesRead) * this.nRows * 1.02) + 1024;
+  /** Rows the whole input will hold, from the bytes per row so far (0: unknown yet); `at` is the current record's offset in the buffer. */
+  private rowEstimate(at: number): number {
+    const done = this.bufferBase + at;
+    if (this.expectedBytes <= 0 || this.nRows < 1000 || done <= 0) return 0;
+    return Math.ceil((this.expectedBytes / done) * this.nRows * 1.02) + 1024;
   }
 
   private isNa(b: Uint8Array, s: number, e: number): boolean {
     const len = e - s;
+    // Most fields cannot be a missing-value token: no token has this length, or starts with this byte.
+    if (len > 0 && this.naLengths !== -1 && (len > 31 || !(this.naLengths & (1 << len)) || !this.naFirst[b[s]])) return false;
     for (const t of this.naBytes) {
       if (t.length !== len) continue;
       let k = 0;
@@ -252,6 +268,16 @@ export class ColumnReader {
   }
 
   private codeOfBytes(bd: Builder, b: Uint8Array, s: number, e: number): number {
+    if (e - s <= 6) {
+      // Short levels (ward codes, sexes, years): the bytes and the length are the key.
+      let key = e - s;
+      for (let k = s; k < e; k++) key = key * 256 + b[k];
+      const code = bd.byPacked.get(key);
+      if (code !== undefined) return code;
+      const fresh = this.newLevel(bd, b, s, e);
+      bd.byPacked.set(key, fresh);
+      return fresh;
+    }
     let h = 0x811c9dc5;
     for (let k = s; k < e; k++) h = Math.imul(h ^ b[k], 0x01000193);
     const list = bd.byHash.get(h);
@@ -263,10 +289,15 @@ export class ColumnReader {
         while (k < lb.length && lb[k] === b[s + k]) k++;
         if (k === lb.length) return code;
       }
+    const code = this.newLevel(bd, b, s, e);
+    if (list) list.push(code); else bd.byHash.set(h, [code]);
+    return code;
+  }
+
+  private newLevel(bd: Builder, b: Uint8Array, s: number, e: number): number {
     const code = bd.levels.length;
     bd.levels.push(this.decoder.decode(b.subarray(s, e)));
     bd.levelBytes.push(b.slice(s, e));
-    if (list) list.push(code); else bd.byHash.set(h, [code]);
     return code;
   }
 
