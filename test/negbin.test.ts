@@ -111,7 +111,7 @@ test(`special functions from @stdlib agree with scipy.special (${expected.source
   for (const [y, r] of [[3, 0.7], [40, 12.5], [64, 1e3]]) assertRel(lgammaRatio(y, r), lgamma(y + r) - lgamma(r), 1e-11, `ratio ${y},${r}`);
 });
 
-test("NB2 intercept-only deviance (one-coefficient Newton) equals a general IRLS fit of the intercept at the same alpha", () => {
+test("intercept-only deviances (NB2 by a one-coefficient Newton, Poisson in closed form) equal a general IRLS fit of the intercept", () => {
   const u = rng(41);
   let csv = "g,e,w,y\n";
   for (let i = 0; i < 500; i++) {
@@ -123,5 +123,8 @@ test("NB2 intercept-only deviance (one-coefficient Newton) equals a general IRLS
   const interceptOnly = { n: design.n, p: 1, slots: [{ term: -1, colStart: 0, colCount: 1, cols: null, values: null }], interceptCol: 0 };
   const general = fitGlm(interceptOnly, design, { alpha, control: { tolerance: 1e-15, maxIter: 100 } });
   assertRel(nullDeviance(design, alpha, DEFAULT_CONTROL), general.deviance, 1e-10, "intercept-only deviance");
+  // The Poisson closed form, the same way.
+  const poissonGeneral = fitGlm(interceptOnly, design, { alpha: 0, control: { tolerance: 1e-15, maxIter: 100 } });
+  assertRel(nullDeviance(design, 0, DEFAULT_CONTROL), poissonGeneral.deviance, 1e-10, "Poisson intercept-only deviance");
   assert.ok(mf.nullDeviance > mf.fit.deviance, "the model explains some of the deviance");
 });

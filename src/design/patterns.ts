@@ -51,11 +51,17 @@ function rowKeys(design: Design, by: PatternKey): { factorKey: Float64Array | nu
   return { factorKey, numeric };
 }
 
+/** Copied keys per round of the partitioned grouping stay within this many bytes. */
+const ROUND_BYTES = 64 << 20;
+
 /**
  * Group the design's rows by pattern. Returns null when there would be more
- * than `maxPatterns` patterns (the search stops as soon as it knows). Each
- * pattern's key is stored once, contiguously, so a lookup touches the hash
- * table and one short run of doubles.
+ * than `maxPatterns` patterns (the search stops as soon as it knows).
+ * The rows are first hashed (FNV-1a over the 32-bit words of their keys,
+ * with the murmur3 finaliser) and partitioned by the top bits of the hash,
+ * the keys copied next to each other; each partition is then grouped with a
+ * small open-addressing table that stays in cache. Patterns are numbered in
+ * the order of their first row, which is their representative.
  */
 export function mergePatterns(design: Design, by: PatternKey, maxPatterns = design.n): PatternMerge | null {
   const n = design.n;
@@ -63,64 +69,87 @@ export function mergePatterns(design: Design, by: PatternKey, maxPatterns = desi
   if (keys === null) return null;
   const cols = keys.factorKey ? [keys.factorKey, ...keys.numeric] : keys.numeric;
   const K = cols.length;
+
+  // 1. Row hashes, column by column.
+  const hash = new Int32Array(n).fill(-2128831035);
   const bits = new Float64Array(1), words = new Int32Array(bits.buffer);
-  const row = new Float64Array(K);
-  let cap = 1 << 12;
-  let table = new Int32Array(cap).fill(-1);
-  let patKeys = new Float64Array(1024 * K);
-  let patHash = new Int32Array(1024);
-  const reps: number[] = [];
-  let count = 0;
-  const pattern = new Int32Array(n);
-  for (let i = 0; i < n; i++) {
-    // FNV-1a over the 32-bit words of the row's key.
-    let h = -2128831035;
-    for (let k = 0; k < K; k++) {
-      const v = cols[k][i];
-      row[k] = v;
-      bits[0] = v;
+  for (const col of cols)
+    for (let i = 0; i < n; i++) {
+      bits[0] = col[i];
+      let h = hash[i];
       h = Math.imul(h ^ words[0], 16777619);
-      h = Math.imul(h ^ words[1], 16777619);
+      hash[i] = Math.imul(h ^ words[1], 16777619);
     }
-    let slot = (h ^ (h >>> 15)) & (cap - 1);
-    let id = -1;
-    for (;;) {
-      const t = table[slot];
-      if (t < 0) break;
-      if (patHash[t] === h) {
-        let k = 0;
-        const base = t * K;
-        while (k < K && patKeys[base + k] === row[k]) k++;
-        if (k === K) { id = t; break; }
-      }
-      slot = (slot + 1) & (cap - 1);
-    }
-    if (id < 0) {
-      if (count >= maxPatterns) return null;
-      id = count++;
-      if (id >= patHash.length) {
-        const ph = new Int32Array(patHash.length * 2); ph.set(patHash); patHash = ph;
-        const pk = new Float64Array(patKeys.length * 2); pk.set(patKeys); patKeys = pk;
-      }
-      patKeys.set(row, id * K);
-      patHash[id] = h;
-      reps.push(i);
-      table[slot] = id;
-      if (count * 2 > cap) {
-        // Grow and re-insert every pattern by its stored hash.
-        cap *= 2;
-        table = new Int32Array(cap).fill(-1);
-        for (let t = 0; t < count; t++) {
-          const g = patHash[t];
-          let s2 = (g ^ (g >>> 15)) & (cap - 1);
-          while (table[s2] >= 0) s2 = (s2 + 1) & (cap - 1);
-          table[s2] = t;
-        }
-      }
-    }
-    pattern[i] = id;
+  for (let i = 0; i < n; i++) {
+    let h = hash[i];
+    h ^= h >>> 16; h = Math.imul(h, 0x85ebca6b); h ^= h >>> 13; h = Math.imul(h, 0xc2b2ae35); h ^= h >>> 16;
+    hash[i] = h;
   }
-  return { by, design: patternDesign(design, by, pattern, Int32Array.from(reps)), pattern, rows: n, patterns: count };
+
+  // 2. Partitions by the top bits of the hash (about 1,000 rows each).
+  const pbits = Math.max(0, Math.min(12, Math.ceil(Math.log2(n / 1024))));
+  const B = 1 << pbits;
+  const part = (h: number) => (pbits === 0 ? 0 : h >>> (32 - pbits));
+  const size = new Int32Array(B);
+  for (let i = 0; i < n; i++) size[part(hash[i])]++;
+
+  const pattern = new Int32Array(n);
+  const reps: number[] = [];
+  let patKeys = new Float64Array(1024 * K);
+  let count = 0;
+  let table = new Int32Array(64);
+  // 3. Rounds of consecutive partitions whose copied keys fit in ROUND_BYTES.
+  for (let b0 = 0; b0 < B; ) {
+    let b1 = b0, rows = 0;
+    while (b1 < B && (b1 === b0 || (rows + size[b1]) * (K + 2) * 8 <= ROUND_BYTES)) rows += size[b1++];
+    const start = new Int32Array(b1 - b0 + 1);
+    for (let b = b0; b < b1; b++) start[b - b0 + 1] = start[b - b0] + size[b];
+    const next = start.slice(0, b1 - b0);
+    const rowOf = new Int32Array(rows), hashOf = new Int32Array(rows), keyOf = new Float64Array(rows * K);
+    for (let i = 0; i < n; i++) {
+      const h = hash[i], b = part(h);
+      if (b < b0 || b >= b1) continue;
+      const at = next[b - b0]++;
+      rowOf[at] = i;
+      hashOf[at] = h;
+      for (let k = 0; k < K; k++) keyOf[at * K + k] = cols[k][i];
+    }
+    for (let b = b0; b < b1; b++) {
+      const lo = start[b - b0], hi = start[b - b0 + 1];
+      let cap = 16;
+      while (cap < 2 * (hi - lo)) cap *= 2;
+      if (table.length < cap) table = new Int32Array(cap);
+      table.fill(-1, 0, cap);
+      for (let at = lo; at < hi; at++) {
+        const h = hashOf[at];
+        let slot = h & (cap - 1), id = -1;
+        for (;;) {
+          const t = table[slot];
+          if (t < 0) break;
+          let k = 0;
+          while (k < K && patKeys[t * K + k] === keyOf[at * K + k]) k++;
+          if (k === K) { id = t; break; }
+          slot = (slot + 1) & (cap - 1);
+        }
+        if (id < 0) {
+          if (count >= maxPatterns) return null;
+          id = count++;
+          if ((id + 1) * K > patKeys.length) { const pk = new Float64Array(patKeys.length * 2); pk.set(patKeys); patKeys = pk; }
+          for (let k = 0; k < K; k++) patKeys[id * K + k] = keyOf[at * K + k];
+          reps.push(rowOf[at]);
+          table[slot] = id;
+        }
+        pattern[rowOf[at]] = id;
+      }
+    }
+    b0 = b1;
+  }
+  // 4. Number the patterns in order of their first row, so the representatives are read in file order.
+  const first = Int32Array.from(reps).sort();
+  const renumber = new Int32Array(count);
+  for (let j = 0; j < count; j++) renumber[pattern[first[j]]] = j;
+  for (let i = 0; i < n; i++) pattern[i] = renumber[pattern[i]];
+  return { by, design: patternDesign(design, by, pattern, first), pattern, rows: n, patterns: count };
 }
 
 /** The one-row-per-pattern design: covariates of a representative row, summed counts and exposures or weights. */

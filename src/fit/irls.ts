@@ -731,6 +731,11 @@ function totalDeviance(y: Float64Array, mu: Float64Array, eta: Float64Array, pw:
   return d;
 }
 
+/** Total deviance Σ w·d(y, mu) over the rows in the fit, given log mu = eta (see totalDeviance). */
+export function devianceAt(y: Float64Array, mu: Float64Array, eta: Float64Array, pw: Float64Array | null, inFit: Uint8Array, alpha: number): number {
+  return totalDeviance(y, mu, eta, pw, inFit, alpha, devianceTable(y, alpha));
+}
+
 /** Map scaled-coordinate coefficients of the active columns to the original scale (β = T β'). */
 export function transformMatrix(m: ModelMatrix, setup: FitSetup): Float64Array {
   const q = setup.order.length;

@@ -4,8 +4,8 @@
 import type { Design } from "../design/design.js";
 import type { PatternMerge } from "../design/patterns.js";
 import { FitError } from "../errors.js";
-import { unitDeviance } from "./family.js";
-import { DEFAULT_CONTROL, deriveSetup, driftWarnings, fitGlm, linearPredictorFrom, prepareFit, type FitControl, type FitSetup, type GlmFit } from "./irls.js";
+import { countIndex, maxCount, unitDeviance } from "./family.js";
+import { DEFAULT_CONTROL, deriveSetup, devianceAt, driftWarnings, fitGlm, linearPredictorFrom, prepareFit, type FitControl, type FitSetup, type GlmFit } from "./irls.js";
 import { fitNegbin, negbinLogLik } from "./negbin.js";
 
 export type FamilyName = "poisson" | "negbin" | "quasipoisson";
@@ -84,12 +84,22 @@ export function nullDeviance(design: Design, alpha: number, control: FitControl)
     return d;
   }
   if (alpha === 0) {
-    // Poisson closed form: exp(b0) = Σwy / Σw·exp(offset).
+    // Poisson closed form: exp(b0) = Σwy / Σw·exp(offset); the deviance is
+    // 2Σw[y log y − y(offset + b0)] (Σw(y − mu) = 0 at b0), y log y tabulated by count.
     let sy = 0, se = 0;
     for (let i = 0; i < y.length; i++) { const w = weights ? weights[i] : 1; sy += w * y[i]; se += w * Math.exp(offset[i]); }
+    const b0 = Math.log(sy / se);
+    const counts = countIndex(y);
+    if (counts === null) {
+      let d = 0;
+      for (let i = 0; i < y.length; i++) d += (weights ? weights[i] : 1) * unitDeviance(y[i], (Math.exp(offset[i]) * sy) / se, 0);
+      return d;
+    }
+    const top = maxCount(y), ylogy = new Float64Array(top + 1);
+    for (let k = 1; k <= top; k++) ylogy[k] = k * Math.log(k);
     let d = 0;
-    for (let i = 0; i < y.length; i++) d += (weights ? weights[i] : 1) * unitDeviance(y[i], (Math.exp(offset[i]) * sy) / se, 0);
-    return d;
+    for (let i = 0; i < counts.length; i++) { const k = counts[i]; d += (weights ? weights[i] : 1) * (ylogy[k] - k * (offset[i] + b0)); }
+    return 2 * d;
   }
   return negbinInterceptOnlyDeviance(y, offset, weights, alpha);
 }
@@ -208,7 +218,7 @@ export function expandFit(design: Design, pm: PatternMerge, f: GlmFit): GlmFit {
   const pat = pm.pattern, offP = pm.design.offset, off = design.offset, pw = design.weights;
   const eta = new Float64Array(n), mu = new Float64Array(n);
   const inFit = new Uint8Array(n);
-  let rowsAtZero = 0, dev = 0;
+  let rowsAtZero = 0;
   for (let i = 0; i < n; i++) {
     const p = pat[i];
     if (!f.setup.inFit[p]) { eta[i] = -Infinity; if (!pw || pw[i] > 0) rowsAtZero++; continue; }
@@ -216,12 +226,11 @@ export function expandFit(design: Design, pm: PatternMerge, f: GlmFit): GlmFit {
     eta[i] = e;
     mu[i] = Math.exp(e);
     inFit[i] = 1;
-    dev += (pw ? pw[i] : 1) * unitDeviance(design.y[i], mu[i], f.alpha);
   }
   const s = f.setup;
   return {
     ...f,
-    mu, eta, deviance: dev, rowsAtZero,
+    mu, eta, deviance: devianceAt(design.y, mu, eta, pw, inFit, f.alpha), rowsAtZero,
     warnings: driftWarnings(design.y, mu, inFit),
     setup: { status: s.status, inFit, active: s.active, order: s.order, center: s.center, scale: s.scale, rowsAtZero },
   };
