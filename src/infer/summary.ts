@@ -105,7 +105,7 @@ export interface SummaryOptions {
  * Goodness-of-fit figures that do not depend on how the standard errors are
  * made. `negbin` counts alpha as a parameter even when it is estimated at 0.
  */
-export function fitStatistics(design: Design, fit: GlmFit, negbin = fit.alpha > 0) {
+export function fitStatistics(design: Design, fit: Pick<GlmFit, "mu" | "alpha" | "status">, negbin = fit.alpha > 0) {
   const { y, weights } = design;
   let pearson = 0, ll = 0, nEff = 0;
   for (let i = 0; i < y.length; i++) {
