@@ -40,17 +40,22 @@ export function takeJobs(plan: InferencePlan, counter: Int32Array, out: Map<numb
   }
 }
 
-/** Rows the constrained fits run over, below which a second thread costs more than it saves. */
-export const PARALLEL_MIN_ROWS = 20000;
+/**
+ * Below this much work (rows × IRLS passes, about 24 per profile limit pair
+ * and 4 per term test) starting a thread (some 60–100 ms here) costs more
+ * than it saves.
+ */
+export const PARALLEL_MIN_WORK = 5e6;
 /** Above this many rows, copying the design to a worker would cost too much memory. */
 export const PARALLEL_MAX_ROWS = 4000000;
 
-/** Whether to use a worker thread: enough work, a second core, and TALLYFIT_WORKERS not 0. */
+/** Whether to use a worker thread: enough work, a second core, and TALLYFIT_WORKERS not 0 (1 forces it). */
 export function wantWorker(plan: InferencePlan, env: NodeJS.ProcessEnv = process.env): boolean {
   const ctx = plan.profiles ?? plan.terms;
   if (!ctx || plan.jobs.length < 2 || env.TALLYFIT_WORKERS === "0") return false;
   const n = ctx.design.n;
-  return (n >= PARALLEL_MIN_ROWS || env.TALLYFIT_WORKERS === "1") && n <= PARALLEL_MAX_ROWS && availableParallelism() >= 2;
+  const passes = plan.jobs.reduce((a, j) => a + (j.kind === "profile" ? 24 : 4), 0);
+  return (n * passes >= PARALLEL_MIN_WORK || env.TALLYFIT_WORKERS === "1") && n <= PARALLEL_MAX_ROWS && availableParallelism() >= 2;
 }
 
 interface WorkerReply { results?: [number, JobResult][]; error?: { kind: string; message: string } }
