@@ -54,7 +54,8 @@ export function fitFamily(design: Design, family: FamilyName, control?: Partial<
   // (at most an eighth of the rows, so that merging costs less than it saves).
   if (family === "negbin" && !patterns && !poisson && merge !== "never" && design.n >= MERGE_MIN_ROWS) {
     const pm = mergePatterns(design, "covariates", Math.floor(design.n / 8));
-    if (pm) poisson = fitModel(design, { family: "poisson", control, patterns: pm, onIteration });
+    const onStart = onProgress ? (it: number, dev: number) => onProgress(`fitting the Poisson start over ${pm!.patterns.toLocaleString("en")} patterns: IRLS iteration ${it}, deviance ${dev.toPrecision(10)}`) : undefined;
+    if (pm) poisson = fitModel(design, { family: "poisson", control, patterns: pm, onIteration: onStart });
   }
   return fitModel(design, { family, control, patterns, onIteration, poisson: family === "negbin" && !patterns ? poisson : undefined });
 }

@@ -249,10 +249,11 @@ async function runFit(file: string | undefined, opts: FitCliOptions): Promise<nu
   const intervals = oneOf("--intervals", opts.intervals, ["wald", "profile", "both"]) as "wald" | "profile" | "both";
   const testLevel = parseTestLevel(opts.alpha);
   const per = parsePositive("--per", opts.per);
+  const merge = mergeChoice(opts);
   const { design, control, labels, sha256 } = await loadDesign(file, opts, opts.model[0], opts.summaryBy ? [opts.summaryBy] : []);
   if (opts.plot) plotKind(opts.plot);
   const onProgress = fittingProgress(opts, design.n);
-  const { summary, modelFit } = await analyzeFitParallel(design, { family, control, level, intervals, robust: !!opts.robust, testLevel, merge: mergeChoice(opts), onProgress });
+  const { summary, modelFit } = await analyzeFitParallel(design, { family, control, level, intervals, robust: !!opts.robust, testLevel, merge, onProgress });
   if (onProgress) process.stderr.write("\r\x1b[K");
   const wide = opts.format === "text" && !opts.output && process.stdout.isTTY && (process.stdout.columns ?? 0) >= 60;
   const diag = opts.plot || wide ? diagnosticsOf(design, modelFit) : null;
@@ -277,10 +278,11 @@ async function runCheck(file: string | undefined, opts: CommonOptions & { alpha:
   oneOf("--format", opts.format, ["text", "json"]);
   if (opts.family !== "poisson") throw new InputError("check always tests the Poisson model; leave out --family.");
   const testLevel = parseTestLevel(opts.alpha);
+  const merge = mergeChoice(opts);
   const { design, control } = await loadDesign(file, opts, opts.model[0]);
   if (opts.plot) plotKind(opts.plot);
   const onProgress = fittingProgress(opts, design.n);
-  const { check, poisson } = analyzeCheckWithFits(design, { control, testLevel, merge: mergeChoice(opts), onProgress });
+  const { check, poisson } = analyzeCheckWithFits(design, { control, testLevel, merge, onProgress });
   if (onProgress) process.stderr.write("\r\x1b[K");
   if (opts.plot) {
     const summary = summarizeFit(design, poisson, { level: parseLevel(opts.level) });
@@ -340,8 +342,8 @@ async function runCompare(file: string | undefined, opts: Omit<CommonOptions, "f
   if (fams.length !== 1 && fams.length !== opts.model.length)
     throw new InputError(`give --family once (for all models) or once per --model (${opts.model.length} times); got it ${fams.length} times.`);
   for (const f of fams) oneOf("--family", f, ["poisson", "negbin", "quasipoisson"]);
-  const { designs, control } = await loadDesigns(file, { ...opts, family: "poisson" }, opts.model);
   const merge = mergeChoice(opts);
+  const { designs, control } = await loadDesigns(file, { ...opts, family: "poisson" }, opts.model);
   const entries = designs.map((design, i) => ({ design, mf: fitFamily(design, (fams.length === 1 ? fams[0] : fams[i]) as FamilyName, control, merge) }));
   const result = compareModels(entries);
   const content = opts.format === "json" ? renderJson(result) : renderCompareText(result, textLayout(opts));
