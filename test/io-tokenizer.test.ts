@@ -82,3 +82,20 @@ test("tokenizer agrees with csv-parse on factor levels short and long, and on cu
   assert.deepEqual(ward.levels, ["ab", "abc", "abcdefg", "abcdef", "z"], "trimmed 'ab ' is 'ab'; the long token and '-' are missing");
   assert.deepEqual([...ward.codes], [0, 1, 0, 2, 3, -1, -1, 0, 2, 4]);
 });
+
+test("chunks fed from one refilled buffer (as files are read) give the same table: the reader keeps copies, not views", () => {
+  const text = "ward,shift,k\n" + Array.from({ length: 200 }, (_, i) => `w${i % 7},"s ${i % 3}",${i % 5}`).join("\r\n") + "\n";
+  const bytes = new TextEncoder().encode(text);
+  const whole = snapshot(parseTable(text, { source: "t.csv" }));
+  for (const size of [1, 5, 13, 64]) {
+    const r = makeReader({ source: "t.csv" });
+    const buf = new Uint8Array(size);
+    for (let pos = 0; pos < bytes.length; pos += size) {
+      const n = Math.min(size, bytes.length - pos);
+      buf.set(bytes.subarray(pos, pos + n));
+      r.feed(buf.subarray(0, n));
+      buf.fill(0x78); // overwrite, as the next read would
+    }
+    assert.deepEqual(snapshot(r.finish()), whole, `chunks of ${size} bytes`);
+  }
+});

@@ -759,9 +759,9 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
   const pw = data.weights;
   const n = m.n;
 
-  // The offset is copied only when fixed coefficients are added to it.
+  // The offset is copied only when fixed coefficients add to it (columns held at 0, as in term tests, do not).
   let off = data.offset;
-  if (options.fixed) { off = new Float64Array(data.offset); addFixedOffset(m, options.fixed, off); }
+  if (options.fixed && [...options.fixed.values()].some((v) => v !== 0)) { off = new Float64Array(data.offset); addFixedOffset(m, options.fixed, off); }
 
   const cells = cellsOf(m, setup);
   const vals = slotValuesOf(m, setup);

@@ -17,13 +17,10 @@ export interface NegbinPart {
   boundary: boolean;
   logLik: number;
   poissonLogLik: number;
-  /** The Poisson fit beneath: its means (per row) and coefficient status, for the Poisson figures of the report. */
-  poissonFit: PoissonMeans;
+  /** Coefficients of the Poisson fit beneath (estimated or at −∞), for its AIC; its means are not kept (memory). */
+  poissonParameters: number;
   outerIterations: number;
 }
-
-/** What the report needs of a fit to compute its figures (fitStatistics): the means, alpha and which coefficients count. */
-export type PoissonMeans = Pick<GlmFit, "mu" | "alpha" | "status">;
 
 export interface ModelFit {
   family: FamilyName;
@@ -186,7 +183,7 @@ export function fitModel(design: Design, options: FitModelOptions): ModelFit {
       // The NB merge keeps every row's likelihood term, so its figures are exact; the Poisson merge changes the saturated model.
       nullDeviance: pm.by === "covariates" ? nullDeviance(design, 0, control) : inner.nullDeviance,
       control,
-      negbin: inner.negbin ? { ...inner.negbin, poissonFit: { ...inner.negbin.poissonFit, mu: expandMeans(design, pm, inner.negbin.poissonFit.mu) } } : null,
+      negbin: inner.negbin,
       patterns: { merge: pm, fit: inner },
     };
   }
@@ -200,8 +197,7 @@ export function fitModel(design: Design, options: FitModelOptions): ModelFit {
       control,
       negbin: {
         alpha: nb.alpha, alphaStdError: nb.alphaStdError, boundary: nb.boundary, logLik: nb.logLik,
-        // Only the Poisson means are kept (not its linear predictor or setup): memory matters at millions of rows.
-        poissonLogLik: nb.poissonLogLik, poissonFit: { mu: nb.poisson.mu, alpha: 0, status: nb.poisson.status }, outerIterations: nb.outerIterations,
+        poissonLogLik: nb.poissonLogLik, poissonParameters: nb.poisson.status.filter((st) => st === "estimated" || st === "no_events").length, outerIterations: nb.outerIterations,
       },
       patterns: null,
     };
@@ -239,15 +235,6 @@ export function expandFit(design: Design, pm: PatternMerge, f: GlmFit): GlmFit {
     warnings: driftWarnings(design.y, mu, inFit),
     setup: { status: s.status, inFit, active: s.active, order: s.order, center: s.center, scale: s.scale, rowsAtZero },
   };
-}
-
-/** Pattern means stated per row: mu_i = mu_p·exp(offset_i − offset_p) (the NB merge keeps the offset, so mu_i = mu_p). */
-function expandMeans(design: Design, pm: PatternMerge, muP: Float64Array): Float64Array {
-  const n = design.n, pat = pm.pattern, offP = pm.design.offset, off = design.offset;
-  const mu = new Float64Array(n);
-  if (pm.by === "covariates") for (let i = 0; i < n; i++) mu[i] = muP[pat[i]] * Math.exp(off[i] - offP[pat[i]]);
-  else for (let i = 0; i < n; i++) mu[i] = muP[pat[i]];
-  return mu;
 }
 
 /**

@@ -105,7 +105,7 @@ export interface SummaryOptions {
  * Goodness-of-fit figures that do not depend on how the standard errors are
  * made. `negbin` counts alpha as a parameter even when it is estimated at 0.
  */
-export function fitStatistics(design: Design, fit: Pick<GlmFit, "mu" | "alpha" | "status">, negbin = fit.alpha > 0) {
+export function fitStatistics(design: Design, fit: GlmFit, negbin = fit.alpha > 0) {
   const { y, weights } = design;
   let pearson = 0, ll = 0, nEff = 0;
   for (let i = 0; i < y.length; i++) {
@@ -198,11 +198,11 @@ export function summarizeFit(design: Design, mf: ModelFit, options: SummaryOptio
     const zq = normalQuantile(1 - (1 - options.level) / 2);
     const ci: [number, number] | null =
       nb.alphaStdError !== null && nb.alpha > 0 ? [nb.alpha * Math.exp(-zq * (nb.alphaStdError / nb.alpha)), nb.alpha * Math.exp(zq * (nb.alphaStdError / nb.alpha))] : null;
-    const poisStats = fitStatistics(design, nb.poissonFit);
+
     negbin = {
       alpha: nb.alpha, alpha_std_error: nb.alphaStdError, alpha_ci: ci, alpha_ci_method: "wald-log",
       theta: nb.alpha > 0 ? 1 / nb.alpha : null, lr_stat: lr.stat, lr_p_value: lr.p, boundary: nb.boundary,
-      poisson_log_likelihood: nb.poissonLogLik, poisson_aic: poisStats.aic,
+      poisson_log_likelihood: nb.poissonLogLik, poisson_aic: -2 * nb.poissonLogLik + 2 * nb.poissonParameters,
     };
     if (nb.boundary) warnings.push("alpha is estimated at 0: the likelihood is largest with no extra-Poisson variation, so the negative binomial reduces to the Poisson here");
   }

@@ -1,7 +1,6 @@
 // CSV loading: RFC 4180 records (via csv-parse) into typed columns.
 import { createRequire } from "node:module";
-import { readFile, stat } from "node:fs/promises";
-import { createReadStream } from "node:fs";
+import { open, readFile, stat } from "node:fs/promises";
 import { createHash } from "node:crypto";
 import { isUtf8 } from "node:buffer";
 import { ColumnReader } from "./tokenizer.js";
@@ -205,9 +204,23 @@ export async function loadTableStream(path: string, options: Omit<LoadOptions, "
     progress?.(reader.bytesRead, reader.rows);
   };
   try {
-    if (path !== "-") reader.expectedBytes = (await stat(path)).size;
-    const stream = path === "-" ? process.stdin : createReadStream(path, { highWaterMark: 1 << 22 });
-    for await (const chunk of stream) consume(chunk as Uint8Array);
+    if (path === "-") for await (const chunk of process.stdin) consume(chunk as Uint8Array);
+    else {
+      reader.expectedBytes = (await stat(path)).size;
+      // One 4 MB buffer, refilled: the reader copies what it keeps, so no chunk outlives its read
+      // (a new buffer per chunk would leave hundreds of MB to the garbage collector on a large file).
+      const fh = await open(path, "r");
+      try {
+        const buf = Buffer.allocUnsafe(1 << 22);
+        for (;;) {
+          const { bytesRead } = await fh.read(buf, 0, buf.length, null);
+          if (bytesRead === 0) break;
+          consume(buf.subarray(0, bytesRead));
+        }
+      } finally {
+        await fh.close();
+      }
+    }
   } catch (e) {
     if (e instanceof InputError) throw e;
     const code = (e as NodeJS.ErrnoException).code;

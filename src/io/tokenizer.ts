@@ -35,6 +35,12 @@ export interface StreamOptions {
   select: Set<string> | null;
 }
 
+function copyBytes(b: Uint8Array): Uint8Array {
+  const c = new Uint8Array(b.length);
+  c.set(b);
+  return c;
+}
+
 function grow<T extends Float64Array | Int32Array>(a: T, need: number, estimate = 0): T {
   if (need <= a.length) return a;
   const size = estimate >= need ? estimate : Math.max(need, a.length * 2);
@@ -104,7 +110,8 @@ export class ColumnReader {
     }
     const consumed = this.records(buf, last);
     this.validated = Math.max(0, upto - consumed);
-    this.carry = consumed < buf.length ? buf.slice(consumed) : null;
+    // Copies, never views: the caller may refill its buffer.
+    this.carry = consumed < buf.length ? copyBytes(buf.subarray(consumed)) : null;
   }
 
   /** Tokenize records in buf; returns the offset after the last complete record. */
@@ -297,7 +304,7 @@ export class ColumnReader {
   private newLevel(bd: Builder, b: Uint8Array, s: number, e: number): number {
     const code = bd.levels.length;
     bd.levels.push(this.decoder.decode(b.subarray(s, e)));
-    bd.levelBytes.push(b.slice(s, e));
+    bd.levelBytes.push(copyBytes(b.subarray(s, e)));
     return code;
   }
 
