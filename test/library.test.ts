@@ -15,3 +15,17 @@ test("every stage is usable from the package entry point", () => {
   assert.match(text, /90% intervals/);
   assert.equal(JSON.parse(tf.renderJson(summary)).level, 0.9);
 });
+
+test("merged patterns and the parallel analysis through the entry point", async () => {
+  let csv = "g,e,y\n";
+  for (let i = 0; i < 60; i++) csv += `${i % 3 ? "a" : "b"},${1 + (i % 4)},${(i * 7) % 5}\n`;
+  const design = tf.buildDesign(tf.parseTable(csv, { source: "inline" }), tf.parseModel("y ~ g"), { exposure: "e" });
+  const pm = tf.mergePatterns(design, "covariates")!;
+  assert.equal(pm.patterns, 2);
+  const merged = tf.fitModel(design, { family: "poisson", patterns: pm });
+  const rows = tf.fitModel(design, { family: "poisson" });
+  assert.ok(Math.abs(merged.fit.deviance - rows.fit.deviance) < 1e-9 * rows.fit.deviance, "the deviance is stated per row");
+  assert.equal(merged.fit.mu.length, 60);
+  const o = { family: "poisson" as const, level: 0.95, intervals: "both" as const, merge: "always" as const };
+  assert.deepEqual((await tf.analyzeFitParallel(design, o)).summary, tf.analyzeFit(design, o).summary);
+});
