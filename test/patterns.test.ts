@@ -188,3 +188,22 @@ test("CLI: --merge-patterns always says so in the text and JSON reports; a bad v
   assert.equal(bad.code, 2);
   assert.match(bad.stderr, /--merge-patterns must be one of auto, always, never \(got 'sometimes'\)/);
 });
+
+test("merged patterns keep a level with no events (one-sided profile limit) and an aliased column as the rows do", () => {
+  const u = rng(21);
+  let csv = "ward,x,x2,days,falls\n";
+  for (let i = 0; i < 3000; i++) {
+    const ward = ["w1", "w2", "w3", "w_quiet"][i % 4], x = Math.floor(u() * 4), days = 10 + Math.floor(u() * 5) * 5;
+    const y = ward === "w_quiet" ? 0 : negbinDraw(u, (days / 10) * Math.exp(0.2 * x), 0);
+    csv += `${ward},${x},${2 * x},${days},${y}\n`;
+  }
+  const d = designOf(csv, "falls ~ ward + x + x2", { exposure: true });
+  const [m, r] = fitBoth(d, "poisson");
+  assert.ok(m.merged_patterns!.patterns <= 4 * 4 * 5);
+  const quiet = (s: FitSummary) => s.coefficients.find((c) => c.term === "ward=w_quiet")!;
+  assert.equal(quiet(m).status, "no_events");
+  assert.equal(quiet(m).profile![0], 0, "open lower limit");
+  assertRel(quiet(m).profile![1]!, quiet(r).profile![1]!, 1e-8, "upper limit of the level with no events");
+  assert.equal(m.coefficients.find((c) => c.term === "x2")!.status, "aliased");
+  assertSame(m, r, 1e-10);
+});
