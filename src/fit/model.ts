@@ -77,7 +77,7 @@ export interface FitModelOptions {
 
 
 /** Deviance of the model with only an intercept (same offset, weights and alpha): the yardstick for how much the terms explain. */
-export function nullDeviance(design: Design, alpha: number, control: FitControl): number {
+export function nullDeviance(design: Design, alpha: number): number {
   const { y, offset, weights } = design;
   if (design.matrix.interceptCol < 0) {
     let d = 0;
@@ -181,7 +181,7 @@ export function fitModel(design: Design, options: FitModelOptions): ModelFit {
       family: inner.family,
       fit,
       // The NB merge keeps every row's likelihood term, so its figures are exact; the Poisson merge changes the saturated model.
-      nullDeviance: pm.by === "covariates" ? nullDeviance(design, 0, control) : inner.nullDeviance,
+      nullDeviance: pm.by === "covariates" ? nullDeviance(design, 0) : inner.nullDeviance,
       control,
       negbin: inner.negbin,
       patterns: { merge: pm, fit: inner },
@@ -193,7 +193,7 @@ export function fitModel(design: Design, options: FitModelOptions): ModelFit {
     return {
       family: "negbin",
       fit: nb.fit,
-      nullDeviance: nullDeviance(design, nb.alpha, control),
+      nullDeviance: nullDeviance(design, nb.alpha),
       control,
       negbin: {
         alpha: nb.alpha, alphaStdError: nb.alphaStdError, boundary: nb.boundary, logLik: nb.logLik,
@@ -204,7 +204,7 @@ export function fitModel(design: Design, options: FitModelOptions): ModelFit {
   }
   const fit = fitGlm(design.matrix, design, { control, onIteration: options.onIteration });
   requireConverged(fit);
-  return { family: options.family, fit, nullDeviance: nullDeviance(design, 0, control), control, negbin: null, patterns: null };
+  return { family: options.family, fit, nullDeviance: nullDeviance(design, 0), control, negbin: null, patterns: null };
 }
 
 /**

@@ -4,7 +4,6 @@
 import type { ModelMatrix } from "../design/design.js";
 import { FitError } from "../errors.js";
 import { alphaDerivativesFromSums, countIndex, harmonic, harmonicTables, logDensity, maxCount, negbinCountTerms } from "./family.js";
-import { lgamma } from "../infer/distributions.js";
 import { fitGlm, prepareFit, type FitControl, type FitData, type FitSetup, type GlmFit } from "./irls.js";
 
 export interface NegbinFit {
