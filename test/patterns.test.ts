@@ -180,7 +180,7 @@ test("CLI: --merge-patterns always says so in the text and JSON reports; a bad v
   const out = JSON.parse(j.stdout);
   assert.deepEqual(out.merged_patterns, { rows: 600, patterns: 8, by: "covariates" });
   const t = runCli(args, csv);
-  assert.match(t.stdout, /over 8 patterns \(rows sharing all covariate values merged; every figure is per row\)/);
+  assert.match(t.stdout.replace(/\s+/g, " "), /over 8 patterns \(rows sharing all covariate values merged; every figure is per row\)/, "wrapped lines read as one");
   const never = JSON.parse(runCli(["fit", "-", "--model", "falls ~ ward + night", "--exposure", "days", "--format", "json"], csv).stdout);
   assert.equal(never.merged_patterns, null, "600 rows: auto does not merge");
   assertRel(out.deviance, never.deviance, 1e-10, "deviance");

@@ -1,4 +1,5 @@
-// CSV loading: RFC 4180 records (via csv-parse) into typed columns.
+// CSV loading: RFC 4180 records into typed columns, by the byte-level reader
+// (tokenizer.ts), with csv-parse kept as its reference.
 import { createRequire } from "node:module";
 import { open, readFile, stat } from "node:fs/promises";
 import { createHash } from "node:crypto";

@@ -33,6 +33,11 @@ function droppedText(s: FitSummary): string {
   return parts.length ? `, ${s.n_dropped} left out (${parts.join("; ")})` : "";
 }
 
+/** A header line "  label   text", the text wrapped under itself. */
+function labelled(label: string, text: string, width: number): string[] {
+  return wrap(text, width - 10).map((l, k) => `  ${(k === 0 ? label : "").padEnd(8)}${l}`);
+}
+
 /** Where IRLS ran over merged covariate patterns, say so: the figures are still per row. */
 function mergedText(s: FitSummary): string {
   const m = s.merged_patterns;
@@ -56,8 +61,8 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
   out.push(st.heading(`${FAMILY_TITLE[s.family]} rate model for ${s.response}, log link${exposureText}`));
   out.push(`  data    ${s.source}: ${fixed(s.n_rows, 0)} rows, ${fixed(s.n_used, 0)} used${droppedText(s)}`);
   out.push(`  model   ${s.model}${s.weights ? `   (frequency weights: ${s.weights})` : ""}`);
-  out.push(`  fit     ${s.converged ? "converged" : st.bad("did NOT converge")} after ${s.iterations} ${s.family === "negbin" && s.negbin && !s.negbin.boundary ? "rounds of IRLS alternating with a Newton step for alpha" : `IRLS iteration${s.iterations === 1 ? "" : "s"}`}${mergedText(s)}`);
-  if (s.family_choice) out.push(...wrap(`family  ${s.family_choice.used} (--family ${s.family_choice.requested}): ${s.family_choice.reason}`, o.width - 2, "          ").map((l) => "  " + l));
+  out.push(...labelled("fit", `${s.converged ? "converged" : st.bad("did NOT converge")} after ${s.iterations} ${s.family === "negbin" && s.negbin && !s.negbin.boundary ? "rounds of IRLS alternating with a Newton step for alpha" : `IRLS iteration${s.iterations === 1 ? "" : "s"}`}${mergedText(s)}`, o.width));
+  if (s.family_choice) out.push(...labelled("family", `${s.family_choice.used} (--family ${s.family_choice.requested}): ${s.family_choice.reason}`, o.width));
   out.push("");
 
   // Rate ratios, grouped by term.
