@@ -102,7 +102,8 @@ export function nullDeviance(design: Design, alpha: number): number {
     for (let i = 0; i < counts.length; i++) { const k = counts[i]; d += (weights ? weights[i] : 1) * (ylogy[k] - k * (offset[i] + b0)); }
     return 2 * d;
   }
-  return negbinInterceptOnlyDeviance(y, offset, weights, alpha);
+  // The exposures themselves when the offset is only their log (no copy of a column of the rows' length).
+  return negbinInterceptOnlyDeviance(y, offset, weights, alpha, design.exposure && design.offsetName === null ? design.exposure : null);
 }
 
 /**
@@ -111,11 +112,11 @@ export function nullDeviance(design: Design, alpha: number): number {
  * Σw·mu(1 + α·y)/(1 + α·mu)², mu = exposure·e^b0), kept inside a bracket on
  * the sign of the score, from the Poisson value log(Σwy / Σw·exposure).
  */
-function negbinInterceptOnlyDeviance(y: Float64Array, offset: Float64Array, weights: Float64Array | null, alpha: number): number {
+function negbinInterceptOnlyDeviance(y: Float64Array, offset: Float64Array, weights: Float64Array | null, alpha: number, exposure: Float64Array | null): number {
   const n = y.length;
-  const ex = new Float64Array(n);
+  const ex = exposure ?? Float64Array.from(offset, Math.exp);
   let sy = 0, se = 0;
-  for (let i = 0; i < n; i++) { const w = weights ? weights[i] : 1; ex[i] = Math.exp(offset[i]); sy += w * y[i]; se += w * ex[i]; }
+  for (let i = 0; i < n; i++) { const w = weights ? weights[i] : 1; sy += w * y[i]; se += w * ex[i]; }
   let b = Math.log(sy / se), lo = -Infinity, hi = Infinity;
   for (let it = 0; it < 200; it++) {
     const c = Math.exp(b);
