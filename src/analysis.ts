@@ -1,7 +1,7 @@
 // Compositions of the stages that the commands run: fit → infer for one
 // model, with the family chosen by the dispersion check for --family auto.
 import type { Design } from "./design/design.js";
-import { mergePatterns, patternKeyFor, type PatternMerge } from "./design/patterns.js";
+import { estimatePatterns, mergePatterns, patternKeyFor, type PatternMerge } from "./design/patterns.js";
 import type { FitControl } from "./fit/irls.js";
 import { fitModel, type FamilyChoice, type FamilyName, type ModelFit } from "./fit/model.js";
 import { dispersionFlagged, runChecks, type CheckResult } from "./infer/check.js";
@@ -36,13 +36,15 @@ export const MERGE_MIN_ROWS = 10000;
 /**
  * The merged patterns a family's fit may run over: "always" merges, "auto"
  * only when there are at least MERGE_MIN_ROWS rows and the patterns are at
- * most half as many (so each IRLS pass does at most half the work).
+ * most half as many (so each IRLS pass does at most half the work). A sample
+ * of the rows rules out, cheaply, a merge that cannot reach that.
  */
 export function patternsFor(design: Design, family: FamilyName, merge: MergeChoice = "auto"): PatternMerge | null {
   if (merge === "never") return null;
   const key = patternKeyFor(family);
   if (merge === "always") return mergePatterns(design, key);
-  return design.n < MERGE_MIN_ROWS ? null : mergePatterns(design, key, Math.floor(design.n / 2));
+  if (design.n < MERGE_MIN_ROWS || estimatePatterns(design, key) > design.n / 2) return null;
+  return mergePatterns(design, key, Math.floor(design.n / 2));
 }
 
 /** Fit one family, over merged patterns when patternsFor says so. */
@@ -52,7 +54,7 @@ export function fitFamily(design: Design, family: FamilyName, control?: Partial<
   const onIteration = onProgress ? (it: number, dev: number) => onProgress(`fitting the ${family} model${over}: IRLS iteration ${it}, deviance ${dev.toPrecision(10)}`) : undefined;
   // The negative binomial on the rows starts from a Poisson fit: over merged patterns when they are few
   // (at most an eighth of the rows, so that merging costs less than it saves).
-  if (family === "negbin" && !patterns && !poisson && merge !== "never" && design.n >= MERGE_MIN_ROWS) {
+  if (family === "negbin" && !patterns && !poisson && merge !== "never" && design.n >= MERGE_MIN_ROWS && estimatePatterns(design, "covariates") <= design.n / 8) {
     const pm = mergePatterns(design, "covariates", Math.floor(design.n / 8));
     const onStart = onProgress ? (it: number, dev: number) => onProgress(`fitting the Poisson start over ${pm!.patterns.toLocaleString("en")} patterns: IRLS iteration ${it}, deviance ${dev.toPrecision(10)}`) : undefined;
     if (pm) poisson = fitModel(design, { family: "poisson", control, patterns: pm, onIteration: onStart });
@@ -109,7 +111,8 @@ function assemble(design: Design, o: AnalysisOptions, fitted: ReturnType<typeof 
 export function analyzeFit(design: Design, o: AnalysisOptions): FitAnalysis {
   const fitted = fitForAnalysis(design, o);
   const plan = planFor(design, fitted.mf, o);
-  return assemble(design, o, fitted, plan, plan.jobs.map((job) => runJob(plan, job)));
+  const workspace = {};
+  return assemble(design, o, fitted, plan, plan.jobs.map((job) => runJob(plan, job, workspace)));
 }
 
 /**

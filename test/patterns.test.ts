@@ -4,7 +4,7 @@
 import { test } from "node:test";
 import assert from "node:assert/strict";
 import { buildDesign, type Design } from "../src/design/design.js";
-import { mergePatterns } from "../src/design/patterns.js";
+import { estimatePatterns, mergePatterns } from "../src/design/patterns.js";
 import { parseTable } from "../src/io/csv.js";
 import { parseModel } from "../src/model/formula.js";
 import { analyzeCheckWithFits, analyzeFit, MERGE_MIN_ROWS, patternsFor, type MergeChoice } from "../src/analysis.js";
@@ -206,4 +206,14 @@ test("merged patterns keep a level with no events (one-sided profile limit) and 
   assertRel(quiet(m).profile![1]!, quiet(r).profile![1]!, 1e-8, "upper limit of the level with no events");
   assert.equal(m.coefficients.find((c) => c.term === "x2")!.status, "aliased");
   assertSame(m, r, 1e-10);
+});
+
+test("estimatePatterns: exact on small designs, close on a sample of a large one, Infinity when every sampled row differs", () => {
+  const small = designOf(simulate(31, 3000, { alpha: 0, exposure: true }), "falls ~ ward + shift + night + score", { exposure: true });
+  assert.equal(estimatePatterns(small, "covariates"), mergePatterns(small, "covariates")!.patterns, "3,000 rows: every row is read");
+  const big = designOf(simulate(32, 60000, { alpha: 0, exposure: true }), "falls ~ ward + shift + night + score", { exposure: true });
+  const actual = mergePatterns(big, "covariates")!.patterns;
+  const est = estimatePatterns(big, "covariates", 200);
+  assert.ok(Math.abs(est - actual) <= 0.25 * actual, `estimate ${est.toFixed(0)} from 200 rows, actual ${actual}`);
+  assert.equal(estimatePatterns(big, "covariates, offset and count", 500), Infinity, "continuous exposures: no two sampled rows alike");
 });

@@ -51,6 +51,46 @@ function rowKeys(design: Design, by: PatternKey): { factorKey: Float64Array | nu
   return { factorKey, numeric };
 }
 
+/**
+ * An estimate of the number of patterns from an evenly spread sample of m
+ * rows: with d distinct keys among them, the P that solves
+ * d = P(1 − e^(−m/P)), the expected count of distinct values when m draws
+ * fall on P equally likely patterns (the classical occupancy problem;
+ * Feller, An Introduction to Probability Theory, vol. 1, §IV.2). Uneven
+ * frequencies make it an underestimate, so it is used only to skip a merge
+ * that cannot pay (Infinity: every sampled row was distinct).
+ */
+export function estimatePatterns(design: Design, by: PatternKey, sample = 20000): number {
+  const n = design.n;
+  // The same key as rowKeys, read only at the sampled rows.
+  const cols: (Float64Array | Int32Array)[] = [];
+  for (const sl of design.matrix.slots) for (const a of [sl.cols, sl.values]) if (a !== null && !cols.includes(a)) cols.push(a);
+  if (by !== "covariates") cols.push(design.offset, design.y);
+  const m = Math.min(n, sample);
+  // Keys by a 53-bit hash of their words (two FNV-1a variants): a collision among 20,000 keys has odds near 1e-8.
+  const seen = new Set<number>();
+  const bits = new Float64Array(1), words = new Int32Array(bits.buffer);
+  for (let k = 0; k < m; k++) {
+    const i = Math.floor((k * n) / m);
+    let h1 = -2128831035, h2 = 0x12345678;
+    for (const c of cols) {
+      bits[0] = c[i];
+      h1 = Math.imul(h1 ^ words[0], 16777619); h1 = Math.imul(h1 ^ words[1], 16777619);
+      h2 = Math.imul(h2 ^ words[1], 0x01000193 ^ 0x5bd1e995); h2 = Math.imul(h2 ^ words[0], 0x5bd1e995);
+    }
+    seen.add((h1 >>> 0) * 2097152 + ((h2 >>> 11) & 0x1fffff));
+  }
+  const d = seen.size;
+  if (m === n) return d;
+  if (d >= m) return Infinity;
+  let lo = d, hi = 1e15;
+  for (let it = 0; it < 200 && hi - lo > 1e-9 * hi; it++) {
+    const mid = 0.5 * (lo + hi);
+    if (mid * -Math.expm1(-m / mid) < d) lo = mid; else hi = mid;
+  }
+  return hi;
+}
+
 /** Copied keys per round of the partitioned grouping stay within this many bytes. */
 const ROUND_BYTES = 64 << 20;
 

@@ -80,6 +80,18 @@ export interface FitOptions {
   alphaStep?: (mu: Float64Array, alpha: number, derivatives: { g: number; h: number } | null) => number;
   /** Called after each IRLS iteration (progress on a terminal). */
   onIteration?: (iteration: number, deviance: number) => void;
+  /**
+   * Arrays to write eta and mu into, reused from one fit to the next (the
+   * constrained fits of term tests and profiles, which keep only numbers from
+   * each fit): the returned fit's eta and mu are these arrays.
+   */
+  workspace?: Workspace;
+}
+
+/** eta and mu arrays of the rows' length, kept between fits (see FitOptions.workspace). */
+export interface Workspace {
+  eta?: Float64Array;
+  mu?: Float64Array;
 }
 
 /** Screening results: which columns are estimated and how columns are conditioned. */
@@ -230,12 +242,11 @@ export function prepareFit(m: ModelMatrix, data: FitData, fixed?: Map<number, nu
   for (let c = 0; c < p; c++) if (status[c] === "estimated") cand.push(c);
   const candPos = new Int32Array(p).fill(-1);
   cand.forEach((c, k) => (candPos[c] = k));
-  const ones = new Float64Array(n).fill(1);
   const cellsCand = buildCells(m, inFit, candPos, maxCellsFor(n));
   const slotValues = scaledValues(m, center, scale);
   const gram = cellsCand
-    ? crossProductsCells(slotValues, cellsCand, n, cand.length, pw ?? ones, null)
-    : crossProductsCompiled(compileSlots(m, { inFit, active: candPos, q: cand.length, center, scale }), n, cand.length, pw ?? ones, null);
+    ? crossProductsCells(slotValues, cellsCand, n, cand.length, pw, null)
+    : crossProductsCompiled(compileSlots(m, { inFit, active: candPos, q: cand.length, center, scale }), n, cand.length, pw ?? new Float64Array(n).fill(1), null);
   const keep = screenRank(gram.a);
   cand.forEach((c, k) => { if (!keep[k]) status[c] = "aliased"; });
 
@@ -551,8 +562,8 @@ export interface WorkingInputs {
   withResponse: boolean;
 }
 
-/** X'WX and X'Wz from the cell sums (see CellLayout); w and z given as arrays or as their WorkingInputs. */
-export function crossProductsCells(slotVals: (ScaledValues | null)[], L: CellLayout, n: number, q: number, w: Float64Array | WorkingInputs, z: Float64Array | null): { a: SymMatrix; b: Float64Array } {
+/** X'WX and X'Wz from the cell sums (see CellLayout); w and z given as arrays or as their WorkingInputs (w null: every weight 1). */
+export function crossProductsCells(slotVals: (ScaledValues | null)[], L: CellLayout, n: number, q: number, w: Float64Array | WorkingInputs | null, z: Float64Array | null): { a: SymMatrix; b: Float64Array } {
   const M = L.numeric.length;
   const MM = (M * (M + 1)) / 2;
   const C = L.nCells;
@@ -561,14 +572,14 @@ export function crossProductsCells(slotVals: (ScaledValues | null)[], L: CellLay
   const raws = L.numeric.map((s) => slotVals[s]!.raw), cens = L.numeric.map((s) => slotVals[s]!.center), scs = L.numeric.map((s) => slotVals[s]!.scale);
   const cell = L.cell;
   const vi = new Float64Array(M);
-  const work = w instanceof Float64Array ? null : w;
+  const work = w instanceof Float64Array || w === null ? null : w;
   const wArr = w instanceof Float64Array ? w : null;
   const alpha = work ? work.alpha : 0, pw = work ? work.pw : null;
   for (let i = 0; i < n; i++) {
     const c = cell[i];
     if (c < 0) continue;
     let wi: number, zi: number;
-    if (work === null) { wi = wArr![i]; zi = z === null ? 0 : z[i]; }
+    if (work === null) { wi = wArr === null ? 1 : wArr[i]; zi = z === null ? 0 : z[i]; }
     else {
       const m = work.mu[i];
       const base = alpha === 0 ? m : m / (1 + alpha * m);
@@ -778,8 +789,10 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
     expInto(e_, inFit, m_);
     return totalDeviance(y, m_, e_, pw, inFit, alpha, dtab);
   };
-  const eta = new Float64Array(n);
-  const mu = new Float64Array(n);
+  const ws = options.workspace;
+  const eta = ws?.eta?.length === n ? ws.eta : new Float64Array(n);
+  const mu = ws?.mu?.length === n ? ws.mu : new Float64Array(n);
+  if (ws) { ws.eta = eta; ws.mu = mu; }
   let betaS: Float64Array = new Float64Array(q);
   let haveBeta = false;
   if (options.start) {

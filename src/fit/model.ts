@@ -5,7 +5,7 @@ import type { Design } from "../design/design.js";
 import type { PatternMerge } from "../design/patterns.js";
 import { FitError } from "../errors.js";
 import { countIndex, maxCount, unitDeviance } from "./family.js";
-import { DEFAULT_CONTROL, deriveSetup, devianceAt, driftWarnings, fitGlm, linearPredictorFrom, prepareFit, type FitControl, type FitSetup, type GlmFit } from "./irls.js";
+import { DEFAULT_CONTROL, deriveSetup, devianceAt, driftWarnings, fitGlm, linearPredictorFrom, prepareFit, type FitControl, type FitSetup, type GlmFit, type Workspace } from "./irls.js";
 import { fitNegbin, negbinLogLik } from "./negbin.js";
 
 export type FamilyName = "poisson" | "negbin" | "quasipoisson";
@@ -244,7 +244,7 @@ export function expandFit(design: Design, pm: PatternMerge, f: GlmFit): GlmFit {
  * binomial (for the Poisson this is the deviance difference D(b) − D̂).
  * Warm-starts each fit from the previous one.
  */
-export function constrainedStatistic(design: Design, mf: FitBase, col: number): (b: number) => number {
+export function constrainedStatistic(design: Design, mf: FitBase, col: number, workspace?: Workspace): (b: number) => number {
   let setup: FitSetup | null = null;
   let start: Float64Array = new Float64Array(mf.fit.beta);
   const control = { maxIter: 100, tolerance: mf.control.tolerance };
@@ -255,7 +255,7 @@ export function constrainedStatistic(design: Design, mf: FitBase, col: number): 
     const nbSetup = col === design.matrix.interceptCol ? prepareFit(design.matrix, design, new Map([[col, 0]])) : deriveSetup(mf.fit.setup, [col]);
     return (b: number) => {
       const fixed = new Map([[col, b]]);
-      const nb = fitNegbin(design.matrix, design, { control, fixed, start, startAlpha: alpha, warm: true, likelihoodOnly: true, setup: nbSetup });
+      const nb = fitNegbin(design.matrix, design, { control, fixed, start, startAlpha: alpha, warm: true, likelihoodOnly: true, setup: nbSetup, workspace });
       if (nb.fit.warnings.length === 0) { start = nb.fit.beta; if (nb.alpha > 0) alpha = nb.alpha; }
       return Math.max(0, 2 * (llHat - nb.logLik));
     };
@@ -263,7 +263,7 @@ export function constrainedStatistic(design: Design, mf: FitBase, col: number): 
   return (b: number) => {
     const fixed = new Map([[col, b]]);
     if (setup === null) setup = prepareFit(design.matrix, design, fixed);
-    const f = fitGlm(design.matrix, design, { fixed, setup, start, control, alpha: 0, skipCovariance: true, stopOnPredicted: true });
+    const f = fitGlm(design.matrix, design, { fixed, setup, start, control, alpha: 0, skipCovariance: true, stopOnPredicted: true, workspace });
     if (f.warnings.length === 0) start = f.beta;
     return Math.max(0, f.deviance - mf.fit.deviance);
   };

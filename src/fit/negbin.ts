@@ -4,7 +4,7 @@
 import type { ModelMatrix } from "../design/design.js";
 import { FitError } from "../errors.js";
 import { alphaDerivativesFromSums, countIndex, harmonic, harmonicTables, logDensity, maxCount, negbinCountTerms } from "./family.js";
-import { fitGlm, prepareFit, type FitControl, type FitData, type FitSetup, type GlmFit } from "./irls.js";
+import { fitGlm, prepareFit, type FitControl, type FitData, type FitSetup, type GlmFit, type Workspace } from "./irls.js";
 
 export interface NegbinFit {
   fit: GlmFit;
@@ -123,6 +123,8 @@ export interface NegbinOptions {
   onIteration?: (iteration: number, deviance: number) => void;
   /** A converged Poisson fit of the same rows and fixed columns, to start from instead of fitting one. */
   poisson?: GlmFit;
+  /** Arrays the fits made here write eta and mu into (see FitOptions.workspace); the result's means are these. */
+  workspace?: Workspace;
 }
 
 /**
@@ -145,7 +147,7 @@ export function fitNegbin(m: ModelMatrix, data: FitData, o: NegbinOptions): Negb
   let pois: GlmFit | null = o.poisson ?? null;
   let poisLL = pois ? negbinLogLik(data.y, pois.mu, pw, 0) : NaN;
   const poissonFit = () => {
-    if (!pois) { pois = fitGlm(m, data, { control: o.control, fixed: o.fixed, start: o.start, setup, alpha: 0, onIteration: o.onIteration }); poisLL = negbinLogLik(data.y, pois.mu, pw, 0); }
+    if (!pois) { pois = fitGlm(m, data, { control: o.control, fixed: o.fixed, start: o.start, setup, alpha: 0, onIteration: o.onIteration, workspace: o.workspace }); poisLL = negbinLogLik(data.y, pois.mu, pw, 0); }
     return pois;
   };
   const atBoundary = (evals: number): NegbinFit => {
@@ -173,7 +175,7 @@ export function fitNegbin(m: ModelMatrix, data: FitData, o: NegbinOptions): Negb
     const start0 = warm ? o.start! : poissonFit().beta;
     let joint: GlmFit | null = null;
     try {
-      joint = fitGlm(m, data, { control: { ...o.control, maxIter: Math.max(o.control.maxIter, 100) }, fixed: o.fixed, start: start0, setup, alpha: a0, alphaStep, skipCovariance: !!o.likelihoodOnly, onIteration: o.onIteration });
+      joint = fitGlm(m, data, { control: { ...o.control, maxIter: Math.max(o.control.maxIter, 100) }, fixed: o.fixed, start: start0, setup, alpha: a0, alphaStep, skipCovariance: !!o.likelihoodOnly, onIteration: o.onIteration, workspace: o.workspace });
     } catch (e) {
       if (!(e instanceof FitError)) throw e;
     }
@@ -198,7 +200,7 @@ export function fitNegbin(m: ModelMatrix, data: FitData, o: NegbinOptions): Negb
   // Profile score in θ = log alpha and its approximate derivative.
   const score = (theta: number): { f: number; df: number; fit: GlmFit } => {
     const a = Math.exp(theta);
-    const fit = fitGlm(m, data, { control: o.control, fixed: o.fixed, start: beta, setup, alpha: a, skipCovariance: true, stopOnPredicted: true });
+    const fit = fitGlm(m, data, { control: o.control, fixed: o.fixed, start: beta, setup, alpha: a, skipCovariance: true, stopOnPredicted: true, workspace: o.workspace });
     evals++;
     if (fit.converged) beta = fit.beta;
     last = fit;
@@ -243,7 +245,7 @@ export function fitNegbin(m: ModelMatrix, data: FitData, o: NegbinOptions): Negb
   }
   const alpha = Math.exp(theta);
   // The information matrix at the estimate (a last IRLS fit from the converged point), unless only the likelihood is wanted.
-  const fit = o.likelihoodOnly ? last : fitGlm(m, data, { control: o.control, fixed: o.fixed, start: beta, setup, alpha });
+  const fit = o.likelihoodOnly ? last : fitGlm(m, data, { control: o.control, fixed: o.fixed, start: beta, setup, alpha, workspace: o.workspace });
   const { h } = alphaDerivatives(data.y, fit.mu, pw, alpha);
   const se = h < 0 ? 1 / Math.sqrt(-h) : null;
   return { fit, alpha, alphaStdError: se, logLik: negbinLogLik(data.y, fit.mu, pw, alpha), boundary: false, outerIterations: evals, poisson: pois ?? fit, poissonLogLik: pois ? poisLL : NaN };

@@ -1,6 +1,7 @@
 // Profile-likelihood limits for every coefficient of a fitted model.
 import type { Design } from "../design/design.js";
 import { constrainedStatistic, fitBaseOf, noEventsGuess, type FitBase, type ModelFit } from "../fit/model.js";
+import type { Workspace } from "../fit/irls.js";
 import { chiSquareQuantile, normalQuantile, studentQuantile } from "./distributions.js";
 import { quasiPhi, residualDf } from "./summary.js";
 import { profileLimits, profileUpperFromMinusInfinity, type ProfileResult } from "./profile.js";
@@ -44,9 +45,9 @@ export function profileContext(design: Design, mf: ModelFit, level: number): Pro
 }
 
 /** Profile limits on the log scale for design column c. */
-export function profileOf(ctx: ProfileContext, c: number): ProfileResult {
+export function profileOf(ctx: ProfileContext, c: number, workspace?: Workspace): ProfileResult {
   const { design, base, phi, crit } = ctx;
-  const stat = constrainedStatistic(design, base, c);
+  const stat = constrainedStatistic(design, base, c, workspace);
   if (base.fit.status[c] === "no_events") return profileUpperFromMinusInfinity((b) => stat(b) / phi, noEventsGuess(design, base, c, crit * phi), crit);
   return profileLimits((b) => stat(b) / phi, base.fit.beta[c], ctx.zq * ctx.se[c], crit);
 }
@@ -54,5 +55,6 @@ export function profileOf(ctx: ProfileContext, c: number): ProfileResult {
 /** Profile limits for each design column that was estimated or has no events. */
 export function profileAll(design: Design, mf: ModelFit, level: number): Map<number, ProfileResult> {
   const ctx = profileContext(design, mf, level);
-  return new Map(ctx.columns.map((c) => [c, profileOf(ctx, c)]));
+  const workspace: Workspace = {};
+  return new Map(ctx.columns.map((c) => [c, profileOf(ctx, c, workspace)]));
 }

@@ -6,6 +6,7 @@
 import { availableParallelism } from "node:os";
 import { Worker } from "node:worker_threads";
 import { FitError, InputError } from "../errors.js";
+import type { Workspace } from "../fit/irls.js";
 import { profileOf, type ProfileContext } from "./intervals.js";
 import type { ProfileResult } from "./profile.js";
 import { termTestOf, type TermTest, type TermTestContext } from "./terms.js";
@@ -27,16 +28,18 @@ export function inferencePlan(profiles: ProfileContext | null, terms: TermTestCo
   return { profiles, terms, jobs };
 }
 
-export function runJob(plan: InferencePlan, job: InferenceJob): JobResult {
-  return job.kind === "profile" ? profileOf(plan.profiles!, job.col) : termTestOf(plan.terms!, job.index);
+/** One job; a thread passes the same workspace to all its jobs, so their fits reuse one pair of row-length arrays. */
+export function runJob(plan: InferencePlan, job: InferenceJob, workspace?: Workspace): JobResult {
+  return job.kind === "profile" ? profileOf(plan.profiles!, job.col, workspace) : termTestOf(plan.terms!, job.index, workspace);
 }
 
 /** Take jobs from the shared counter until none are left; results by job index. */
 export function takeJobs(plan: InferencePlan, counter: Int32Array, out: Map<number, JobResult>): void {
+  const workspace: Workspace = {};
   for (;;) {
     const j = Atomics.add(counter, 0, 1);
     if (j >= plan.jobs.length) return;
-    out.set(j, runJob(plan, plan.jobs[j]));
+    out.set(j, runJob(plan, plan.jobs[j], workspace));
   }
 }
 

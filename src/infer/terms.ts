@@ -6,7 +6,7 @@
 // not tested on its own (marginality): with treatment coding such a test
 // would depend on the reference levels.
 import type { Design } from "../design/design.js";
-import { columnSums, deriveSetup, fitGlm } from "../fit/irls.js";
+import { columnSums, deriveSetup, fitGlm, type Workspace } from "../fit/irls.js";
 import { fitBaseOf, type FitBase, type ModelFit } from "../fit/model.js";
 import { fitNegbin } from "../fit/negbin.js";
 import { chiSquareUpperTail, fUpperTail } from "./distributions.js";
@@ -61,7 +61,7 @@ export function termTestContext(design: Design, mf: ModelFit): TermTestContext {
 }
 
 /** The test for dropping term ti. Centring stays valid while the intercept is free, which term tests never change. */
-export function termTestOf(ctx: TermTestContext, ti: number): TermTest {
+export function termTestOf(ctx: TermTestContext, ti: number, workspace?: Workspace): TermTest {
   const { design: fd, base: fm, quasi } = ctx;
   const label = ctx.labels[ti];
   const test = quasi ? ("F" as const) : ("LR chi-square" as const);
@@ -72,11 +72,11 @@ export function termTestOf(ctx: TermTestContext, ti: number): TermTest {
   let stat: number, p: number;
   const start = warmStart(fd, fm, cols);
   if (fm.family === "negbin" && fm.negbin && !fm.negbin.boundary) {
-    const nb = fitNegbin(fd.matrix, fd, { control: fm.control, fixed, startAlpha: fm.negbin.alpha, start, warm: true, likelihoodOnly: true, setup: deriveSetup(fm.fit.setup, cols) });
+    const nb = fitNegbin(fd.matrix, fd, { control: fm.control, fixed, startAlpha: fm.negbin.alpha, start, warm: true, likelihoodOnly: true, setup: deriveSetup(fm.fit.setup, cols), workspace });
     stat = Math.max(0, 2 * (ctx.llFull - nb.logLik));
     p = chiSquareUpperTail(stat, cols.length);
   } else {
-    const r = fitGlm(fd.matrix, fd, { control: fm.control, fixed, skipCovariance: true, start, stopOnPredicted: true, setup: deriveSetup(fm.fit.setup, cols) });
+    const r = fitGlm(fd.matrix, fd, { control: fm.control, fixed, skipCovariance: true, start, stopOnPredicted: true, setup: deriveSetup(fm.fit.setup, cols), workspace });
     const dd = Math.max(0, r.deviance - fm.fit.deviance);
     if (quasi) { stat = dd / cols.length / ctx.phi; p = fUpperTail(stat, cols.length, ctx.df); }
     else { stat = dd; p = chiSquareUpperTail(stat, cols.length); }
@@ -86,7 +86,8 @@ export function termTestOf(ctx: TermTestContext, ti: number): TermTest {
 
 export function termTests(design: Design, mf: ModelFit): TermTest[] {
   const ctx = termTestContext(design, mf);
-  return ctx.plan.map((_, ti) => termTestOf(ctx, ti));
+  const workspace: Workspace = {};
+  return ctx.plan.map((_, ti) => termTestOf(ctx, ti, workspace));
 }
 
 /**
