@@ -450,11 +450,13 @@ function cellCoefficients(L: CellLayout, slotVals: (ScaledValues | null)[], beta
     for (let s = 0; s < k; s++) {
       const p = L.cellPos[c * k + s];
       if (p < 0) continue;
-      if (slotVals[s] === null) cst[c] += betaS[p];
-      else coef[c * M + L.numericIndex[s]] = betaS[p];
+      // A numeric slot's coefficient is divided by its scale here, so the row pass needs no division: β'(x − c)/s = (β'/s)(x − c).
+      const sv = slotVals[s];
+      if (sv === null) cst[c] += betaS[p];
+      else coef[c * M + L.numericIndex[s]] = betaS[p] / sv.scale;
     }
   const vals = L.numeric.map((s) => slotVals[s]!);
-  return { M, cst, coef, raws: vals.map((v) => v.raw), cens: Float64Array.from(vals, (v) => v.center), scs: Float64Array.from(vals, (v) => v.scale) };
+  return { M, cst, coef, raws: vals.map((v) => v.raw), cens: Float64Array.from(vals, (v) => v.center) };
 }
 
 /**
@@ -464,9 +466,9 @@ function cellCoefficients(L: CellLayout, slotVals: (ScaledValues | null)[], beta
  * they are separate so that each stays a tight loop.
  */
 function predictCellsPoisson(L: CellLayout, slotVals: (ScaledValues | null)[], betaS: Float64Array, off: Float64Array, eta: Float64Array, mu: Float64Array, pw: Float64Array | null, tab: DevianceTable): number {
-  const { M, cst, coef, raws, cens, scs } = cellCoefficients(L, slotVals, betaS);
-  const r0 = M > 0 ? raws[0] : off, c0 = M > 0 ? cens[0] : 0, s0 = M > 0 ? scs[0] : 1;
-  const r1 = M > 1 ? raws[1] : off, c1 = M > 1 ? cens[1] : 0, s1 = M > 1 ? scs[1] : 1;
+  const { M, cst, coef, raws, cens } = cellCoefficients(L, slotVals, betaS);
+  const r0 = M > 0 ? raws[0] : off, c0 = M > 0 ? cens[0] : 0;
+  const r1 = M > 1 ? raws[1] : off, c1 = M > 1 ? cens[1] : 0;
   const cell = L.cell, yl = tab.ylogy, cnt = tab.counts;
   const n = off.length;
   let d = 0;
@@ -474,9 +476,9 @@ function predictCellsPoisson(L: CellLayout, slotVals: (ScaledValues | null)[], b
     const c = cell[i];
     if (c < 0) { eta[i] = -Infinity; mu[i] = 0; continue; }
     let e = off[i] + cst[c];
-    if (M === 1) e += coef[c] * ((r0[i] - c0) / s0);
-    else if (M === 2) e += coef[2 * c] * ((r0[i] - c0) / s0) + coef[2 * c + 1] * ((r1[i] - c1) / s1);
-    else for (let m = 0; m < M; m++) e += coef[c * M + m] * ((raws[m][i] - cens[m]) / scs[m]);
+    if (M === 1) e += coef[c] * (r0[i] - c0);
+    else if (M === 2) e += coef[2 * c] * (r0[i] - c0) + coef[2 * c + 1] * (r1[i] - c1);
+    else for (let m = 0; m < M; m++) e += coef[c * M + m] * (raws[m][i] - cens[m]);
     eta[i] = e;
     const mi = Math.exp(e);
     mu[i] = mi;
@@ -514,9 +516,9 @@ function predictCellsNegbin(
   eta: Float64Array, mu: Float64Array, pw: Float64Array | null, alpha: number, tab: DevianceTable,
   sums: AlphaSums,
 ): number {
-  const { M, cst, coef, raws, cens, scs } = cellCoefficients(L, slotVals, betaS);
-  const r0 = M > 0 ? raws[0] : off, c0 = M > 0 ? cens[0] : 0, s0 = M > 0 ? scs[0] : 1;
-  const r1 = M > 1 ? raws[1] : off, c1 = M > 1 ? cens[1] : 0, s1 = M > 1 ? scs[1] : 1;
+  const { M, cst, coef, raws, cens } = cellCoefficients(L, slotVals, betaS);
+  const r0 = M > 0 ? raws[0] : off, c0 = M > 0 ? cens[0] : 0;
+  const r1 = M > 1 ? raws[1] : off, c1 = M > 1 ? cens[1] : 0;
   const cell = L.cell, yl = tab.ylogy, cnt = tab.counts, nb = tab.nb!, r = 1 / alpha;
   const hd = sums.d, he = sums.e, lt = sums.lgammaTerms, want = sums.want, logAlpha = Math.log(alpha);
   const n = off.length;
@@ -525,9 +527,9 @@ function predictCellsNegbin(
     const c = cell[i];
     if (c < 0) { eta[i] = -Infinity; mu[i] = 0; continue; }
     let e = off[i] + cst[c];
-    if (M === 1) e += coef[c] * ((r0[i] - c0) / s0);
-    else if (M === 2) e += coef[2 * c] * ((r0[i] - c0) / s0) + coef[2 * c + 1] * ((r1[i] - c1) / s1);
-    else for (let m = 0; m < M; m++) e += coef[c * M + m] * ((raws[m][i] - cens[m]) / scs[m]);
+    if (M === 1) e += coef[c] * (r0[i] - c0);
+    else if (M === 2) e += coef[2 * c] * (r0[i] - c0) + coef[2 * c + 1] * (r1[i] - c1);
+    else for (let m = 0; m < M; m++) e += coef[c * M + m] * (raws[m][i] - cens[m]);
     eta[i] = e;
     const mi = Math.exp(e);
     mu[i] = mi;
@@ -569,7 +571,7 @@ export function crossProductsCells(slotVals: (ScaledValues | null)[], L: CellLay
   const C = L.nCells;
   const s0 = new Float64Array(C), s1 = new Float64Array(C * M), s2 = new Float64Array(C * MM);
   const z0 = new Float64Array(C), z1 = new Float64Array(C * M);
-  const raws = L.numeric.map((s) => slotVals[s]!.raw), cens = L.numeric.map((s) => slotVals[s]!.center), scs = L.numeric.map((s) => slotVals[s]!.scale);
+  const raws = L.numeric.map((s) => slotVals[s]!.raw), cens = L.numeric.map((s) => slotVals[s]!.center), inv = L.numeric.map((s) => 1 / slotVals[s]!.scale);
   const cell = L.cell;
   const vi = new Float64Array(M);
   const work = w instanceof Float64Array || w === null ? null : w;
@@ -591,7 +593,7 @@ export function crossProductsCells(slotVals: (ScaledValues | null)[], L: CellLay
     z0[c] += wi * zi;
     let t = c * MM;
     for (let m = 0; m < M; m++) {
-      const v = (raws[m][i] - cens[m]) / scs[m];
+      const v = (raws[m][i] - cens[m]) * inv[m];
       vi[m] = v;
       const wv = wi * v;
       s1[c * M + m] += wv;
