@@ -11,6 +11,7 @@ import { profileContext } from "../src/infer/intervals.js";
 import { termTestContext } from "../src/infer/terms.js";
 import { fitModel } from "../src/fit/model.js";
 import { negbinDraw, rng, runCli } from "./helpers.js";
+import { FitError } from "../src/errors.js";
 
 function wardsCsv(seed: number, n: number, alpha: number): string {
   const u = rng(seed);
@@ -58,4 +59,16 @@ test("CLI: the report is byte-identical with the worker forced on and off", () =
   const on = runCli(args, csv, { TALLYFIT_WORKERS: "1" }), off = runCli(args, csv, { TALLYFIT_WORKERS: "0" });
   assert.equal(on.code, 0, on.stderr);
   assert.equal(on.stdout, off.stdout);
+});
+
+test("a FitError in a job on the worker reaches the caller as the same FitError (exit code 3 in the CLI)", async () => {
+  const design = designOf(wardsCsv(9, 300, 0), "falls ~ ward + staff");
+  const mf = fitModel(design, { family: "poisson" });
+  const plan = inferencePlan(null, termTestContext(design, mf));
+  // Offsets no fitted mean can survive: the refits overflow.
+  plan.terms!.design = { ...plan.terms!.design, offset: new Float64Array(design.n).fill(1e308) };
+  let here: unknown = null;
+  try { runJob(plan, plan.jobs[0]); } catch (e) { here = e; }
+  assert.ok(here instanceof FitError, "on this thread");
+  await assert.rejects(runJobs(plan, true, true), (e: unknown) => e instanceof FitError && e.message === (here as FitError).message && e.exitCode === 3);
 });
