@@ -44,11 +44,16 @@ function rowKeys(design: Design, by: PatternKey): { factorKey: Float64Array | nu
       if (radix > 2 ** 53) return null;
     }
   }
+  return { factorKey, numeric: numericKeys(design, by) };
+}
+
+/** The numeric arrays of a row's key, each once: slot values, and for the NB also the offset and the count. */
+function numericKeys(design: Design, by: PatternKey): Float64Array[] {
   const numeric: Float64Array[] = [];
   const add = (a: Float64Array | null) => { if (a !== null && !numeric.includes(a)) numeric.push(a); };
   for (const s of design.matrix.slots) add(s.values);
   if (by !== "covariates") { add(design.offset); add(design.y); }
-  return { factorKey, numeric };
+  return numeric;
 }
 
 /**
@@ -62,10 +67,8 @@ function rowKeys(design: Design, by: PatternKey): { factorKey: Float64Array | nu
  */
 export function estimatePatterns(design: Design, by: PatternKey, sample = 20000): number {
   const n = design.n;
-  // The same key as rowKeys, read only at the sampled rows.
-  const cols: (Float64Array | Int32Array)[] = [];
-  for (const sl of design.matrix.slots) for (const a of [sl.cols, sl.values]) if (a !== null && !cols.includes(a)) cols.push(a);
-  if (by !== "covariates") cols.push(design.offset, design.y);
+  // The key of rowKeys, with each factor slot's columns read directly, only at the sampled rows.
+  const cols: (Float64Array | Int32Array)[] = [...design.matrix.slots.flatMap((sl) => (sl.cols ? [sl.cols] : [])), ...numericKeys(design, by)];
   const m = Math.min(n, sample);
   // Keys by a 53-bit hash of their words (two FNV-1a variants): a collision among 20,000 keys has odds near 1e-8.
   const seen = new Set<number>();

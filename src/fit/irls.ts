@@ -425,23 +425,6 @@ function recellPositions(m: ModelMatrix, parent: CellLayout, active: Int32Array)
   return { ...parent, cellPos };
 }
 
-/** eta = offset + X·beta' from the cells: a constant per cell plus the numeric slots. */
-function linearPredictorCells(L: CellLayout, slotVals: (ScaledValues | null)[], betaS: Float64Array, off: Float64Array, eta: Float64Array): void {
-  const k = slotVals.length;
-  const cst = new Float64Array(L.nCells);
-  for (let c = 0; c < L.nCells; c++)
-    for (let s = 0; s < k; s++) { const p = L.cellPos[c * k + s]; if (p >= 0 && slotVals[s] === null) cst[c] += betaS[p]; }
-  for (let i = 0; i < off.length; i++) { const c = L.cell[i]; eta[i] = c < 0 ? -Infinity : off[i] + cst[c]; }
-  for (const s of L.numeric) {
-    const { raw, center, scale } = slotVals[s]!;
-    const coef = new Float64Array(L.nCells);
-    let any = false;
-    for (let c = 0; c < L.nCells; c++) { const p = L.cellPos[c * k + s]; coef[c] = p >= 0 ? betaS[p] : 0; if (p >= 0) any = true; }
-    if (!any) continue;
-    for (let i = 0; i < off.length; i++) { const c = L.cell[i]; if (c >= 0) eta[i] += coef[c] * ((raw[i] - center) / scale); }
-  }
-}
-
 /** The per-cell constants of eta = offset + X·beta' (see CellLayout): the indicator part and each numeric slot's coefficient. */
 function cellCoefficients(L: CellLayout, slotVals: (ScaledValues | null)[], betaS: Float64Array) {
   const k = slotVals.length, C = L.nCells, M = L.numeric.length;
@@ -459,28 +442,35 @@ function cellCoefficients(L: CellLayout, slotVals: (ScaledValues | null)[], beta
   return { M, cst, coef, raws: vals.map((v) => v.raw), cens: Float64Array.from(vals, (v) => v.center) };
 }
 
-/**
- * eta = offset + X·beta', mu = exp(eta) and the Poisson deviance (see
- * totalDeviance) in one pass over the rows, from the cells: the pass that
- * follows every IRLS step and step-halving. The NB2 twin is predictCellsNegbin;
- * they are separate so that each stays a tight loop.
- */
-function predictCellsPoisson(L: CellLayout, slotVals: (ScaledValues | null)[], betaS: Float64Array, off: Float64Array, eta: Float64Array, mu: Float64Array, pw: Float64Array | null, tab: DevianceTable): number {
+/** eta = offset + X·beta' from the cells: a constant per cell plus the numeric slots (−∞ for rows out of the fit). */
+function linearPredictorCells(L: CellLayout, slotVals: (ScaledValues | null)[], betaS: Float64Array, off: Float64Array, eta: Float64Array): void {
   const { M, cst, coef, raws, cens } = cellCoefficients(L, slotVals, betaS);
   const r0 = M > 0 ? raws[0] : off, c0 = M > 0 ? cens[0] : 0;
   const r1 = M > 1 ? raws[1] : off, c1 = M > 1 ? cens[1] : 0;
-  const cell = L.cell, yl = tab.ylogy, cnt = tab.counts;
-  const n = off.length;
-  let d = 0;
+  const cell = L.cell, n = off.length;
   for (let i = 0; i < n; i++) {
     const c = cell[i];
-    if (c < 0) { eta[i] = -Infinity; mu[i] = 0; continue; }
+    if (c < 0) { eta[i] = -Infinity; continue; }
     let e = off[i] + cst[c];
     if (M === 1) e += coef[c] * (r0[i] - c0);
     else if (M === 2) e += coef[2 * c] * (r0[i] - c0) + coef[2 * c + 1] * (r1[i] - c1);
     else for (let m = 0; m < M; m++) e += coef[c * M + m] * (raws[m][i] - cens[m]);
     eta[i] = e;
-    const mi = Math.exp(e);
+  }
+}
+
+/**
+ * eta (see linearPredictorCells), mu = exp(eta) and the Poisson deviance (see
+ * totalDeviance): the pass that follows every IRLS step and step-halving.
+ * The NB2 twin is predictCellsNegbin.
+ */
+function predictCellsPoisson(L: CellLayout, slotVals: (ScaledValues | null)[], betaS: Float64Array, off: Float64Array, eta: Float64Array, mu: Float64Array, pw: Float64Array | null, tab: DevianceTable): number {
+  linearPredictorCells(L, slotVals, betaS, off, eta);
+  const cell = L.cell, yl = tab.ylogy, cnt = tab.counts;
+  let d = 0;
+  for (let i = 0; i < eta.length; i++) {
+    if (cell[i] < 0) { mu[i] = 0; continue; }
+    const e = eta[i], mi = Math.exp(e);
     mu[i] = mi;
     const y = cnt[i];
     const u = yl[y] - y * e - (y - mi);
@@ -516,22 +506,13 @@ function predictCellsNegbin(
   eta: Float64Array, mu: Float64Array, pw: Float64Array | null, alpha: number, tab: DevianceTable,
   sums: AlphaSums,
 ): number {
-  const { M, cst, coef, raws, cens } = cellCoefficients(L, slotVals, betaS);
-  const r0 = M > 0 ? raws[0] : off, c0 = M > 0 ? cens[0] : 0;
-  const r1 = M > 1 ? raws[1] : off, c1 = M > 1 ? cens[1] : 0;
+  linearPredictorCells(L, slotVals, betaS, off, eta);
   const cell = L.cell, yl = tab.ylogy, cnt = tab.counts, nb = tab.nb!, r = 1 / alpha;
   const hd = sums.d, he = sums.e, lt = sums.lgammaTerms, want = sums.want, logAlpha = Math.log(alpha);
-  const n = off.length;
   let d = 0, a1 = 0, a2 = 0, a3 = 0, a4 = 0, a5 = 0, ll = 0;
-  for (let i = 0; i < n; i++) {
-    const c = cell[i];
-    if (c < 0) { eta[i] = -Infinity; mu[i] = 0; continue; }
-    let e = off[i] + cst[c];
-    if (M === 1) e += coef[c] * (r0[i] - c0);
-    else if (M === 2) e += coef[2 * c] * (r0[i] - c0) + coef[2 * c + 1] * (r1[i] - c1);
-    else for (let m = 0; m < M; m++) e += coef[c * M + m] * (raws[m][i] - cens[m]);
-    eta[i] = e;
-    const mi = Math.exp(e);
+  for (let i = 0; i < eta.length; i++) {
+    if (cell[i] < 0) { mu[i] = 0; continue; }
+    const e = eta[i], mi = Math.exp(e);
     mu[i] = mi;
     const y = cnt[i];
     const wi = pw === null ? 1 : pw[i];
