@@ -27,12 +27,18 @@ function arg(name: string, dflt: number): number {
   return k >= 0 ? Number(process.argv[k + 1]) : dflt;
 }
 
-interface Timing { seconds: number; rssMB: number | null; stdout: string }
+interface Timing {
+  seconds: number;
+  rssMB: number | null;
+  stdout: string;
+}
 
 function run(cmd: string, args: string[]): Timing {
   const useTime = existsSync("/usr/bin/time");
   const t0 = process.hrtime.bigint();
-  const r = useTime ? spawnSync("/usr/bin/time", ["-f", "%M", cmd, ...args], { encoding: "utf8", maxBuffer: 1 << 28 }) : spawnSync(cmd, args, { encoding: "utf8", maxBuffer: 1 << 28 });
+  const r = useTime
+    ? spawnSync("/usr/bin/time", ["-f", "%M", cmd, ...args], { encoding: "utf8", maxBuffer: 1 << 28 })
+    : spawnSync(cmd, args, { encoding: "utf8", maxBuffer: 1 << 28 });
   const seconds = Number(process.hrtime.bigint() - t0) / 1e9;
   if (r.status !== 0) throw new Error(`${cmd} ${args.join(" ")} exited ${r.status}: ${r.stderr}`);
   const kb = useTime ? Number(r.stderr.trim().split("\n").pop()) : NaN;
@@ -56,8 +62,9 @@ function byteScan(file: string): number {
   const t0 = process.hrtime.bigint();
   const fd = openSync(file, "r");
   const buf = Buffer.allocUnsafe(1 << 22);
-  let lines = 0, n: number;
-  while ((n = readSync(fd, buf, 0, buf.length, null)) > 0) for (let i = 0; i < n; i++) if (buf[i] === 10) lines++;
+  let lines = 0;
+  for (let n = readSync(fd, buf, 0, buf.length, null); n > 0; n = readSync(fd, buf, 0, buf.length, null))
+    for (let i = 0; i < n; i++) if (buf[i] === 10) lines++;
   closeSync(fd);
   void lines;
   return Number(process.hrtime.bigint() - t0) / 1e9;
@@ -68,23 +75,46 @@ async function bench(rows: number, reps: number, withYardstick: boolean): Promis
   const file = join(DATA, `bench_${rows}.csv`);
   if (!existsSync(file)) await writeBenchFile(file, rows, 1);
   const mb = statSync(file).size / 1e6;
-  console.log(`\n${rows.toLocaleString("en")} rows, ${mb.toFixed(1)} MB (${file}); ${reps} alternating run${reps === 1 ? "" : "s"} each, medians`);
+  console.log(
+    `\n${rows.toLocaleString("en")} rows, ${mb.toFixed(1)} MB (${file}); ${reps} alternating run${reps === 1 ? "" : "s"} each, medians`,
+  );
   const base = ["fit", file, "--model", MODEL, "--exposure", "exposure", "--format", "json", "--quiet"];
   const cases: [string, string, string[]][] = [
     ["tallyfit poisson (Wald)", process.execPath, [BIN, ...base, "--intervals", "wald"]],
     ["tallyfit negbin (Wald)", process.execPath, [BIN, ...base, "--family", "negbin", "--intervals", "wald"]],
   ];
   if (rows <= 100000)
-    cases.push(["tallyfit poisson, profile limits, 30 coef.", process.execPath, [BIN, "fit", file, "--model", MODEL + " + sex:insured + sex:score", "--exposure", "exposure", "--format", "json", "--quiet", "--intervals", "both"]]);
+    cases.push([
+      "tallyfit poisson, profile limits, 30 coef.",
+      process.execPath,
+      [
+        BIN,
+        "fit",
+        file,
+        "--model",
+        `${MODEL} + sex:insured + sex:score`,
+        "--exposure",
+        "exposure",
+        "--format",
+        "json",
+        "--quiet",
+        "--intervals",
+        "both",
+      ],
+    ]);
   if (withYardstick) cases.unshift(["yardstick pandas+numpy poisson", PYTHON, [YARDSTICK, file]]);
   const results = new Map<string, Timing[]>();
   for (let r = 0; r < reps; r++)
     for (const [name, cmd, args] of cases) results.set(name, [...(results.get(name) ?? []), run(cmd, args)]);
   const med = (name: string) => median(results.get(name)!.map((t) => t.seconds));
-  const rss = (name: string) => { const t = results.get(name)!; return t[0].rssMB === null ? null : median(t.map((x) => x.rssMB!)); };
+  const rss = (name: string) => {
+    const t = results.get(name)!;
+    return t[0].rssMB === null ? null : median(t.map((x) => x.rssMB!));
+  };
   const ref = withYardstick ? "yardstick pandas+numpy poisson" : "tallyfit poisson (Wald)";
   for (const [name] of cases) {
-    const sec = med(name), m = rss(name);
+    const sec = med(name),
+      m = rss(name);
     console.log(
       `  ${name.padEnd(44)} ${sec.toFixed(2).padStart(7)} s  ${(rows / sec / 1e3).toFixed(0).padStart(6)}k rows/s  ${(mb / sec).toFixed(1).padStart(6)} MB/s  ` +
         `${m === null ? "" : `${m.toFixed(0).padStart(6)} MB peak`}   time ×${(sec / med(ref)).toFixed(2)}${m !== null && rss(ref) !== null ? `, memory ×${(m / rss(ref)!).toFixed(2)}` : ""} of ${withYardstick ? "the yardstick" : "Poisson"}`,
@@ -94,14 +124,22 @@ async function bench(rows: number, reps: number, withYardstick: boolean): Promis
     // Both programs must agree on the fit they time.
     const y = JSON.parse(results.get("yardstick pandas+numpy poisson")![0].stdout);
     const t = JSON.parse(results.get("tallyfit poisson (Wald)")![0].stdout);
-    console.log(`  deviance: tallyfit ${t.deviance.toFixed(4)}, yardstick ${y.deviance.toFixed(4)} (relative difference ${(Math.abs(t.deviance - y.deviance) / y.deviance).toExponential(1)})`);
+    console.log(
+      `  deviance: tallyfit ${t.deviance.toFixed(4)}, yardstick ${y.deviance.toFixed(4)} (relative difference ${(Math.abs(t.deviance - y.deviance) / y.deviance).toExponential(1)})`,
+    );
   }
   const scan = byteScan(file);
   const t0 = process.hrtime.bigint();
-  const { table } = await loadTableStream(file, { select: ["region", "agegrp", "sex", "insured", "score", "exposure", "visits"] });
+  const { table } = await loadTableStream(file, {
+    select: ["region", "agegrp", "sex", "insured", "score", "exposure", "visits"],
+  });
   const load = Number(process.hrtime.bigint() - t0) / 1e9;
-  console.log(`  loader alone (in process): ${load.toFixed(3)} s, ${(table.nRows / load / 1e6).toFixed(2)}M rows/s, ${(mb / load).toFixed(0)} MB/s`);
-  console.log(`  byte scan (read + count newlines): ${scan.toFixed(3)} s, ${(mb / scan).toFixed(0)} MB/s, the floor for any CSV reader here; the loader is ×${(load / scan).toFixed(1)} of it`);
+  console.log(
+    `  loader alone (in process): ${load.toFixed(3)} s, ${(table.nRows / load / 1e6).toFixed(2)}M rows/s, ${(mb / load).toFixed(0)} MB/s`,
+  );
+  console.log(
+    `  byte scan (read + count newlines): ${scan.toFixed(3)} s, ${(mb / scan).toFixed(0)} MB/s, the floor for any CSV reader here; the loader is ×${(load / scan).toFixed(1)} of it`,
+  );
 }
 
 /**
@@ -117,11 +155,25 @@ async function big(): Promise<void> {
   if (!existsSync(file)) await writeBenchFile(file, rows, 1);
   const mb = statSync(file).size / 1e6;
   console.log(`\n${rows.toLocaleString("en")} rows, ${mb.toFixed(1)} MB (${file}); one run each`);
-  const base = ["fit", file, "--model", MODEL, "--exposure", "exposure", "--format", "json", "--quiet", "--intervals", "wald"];
+  const base = [
+    "fit",
+    file,
+    "--model",
+    MODEL,
+    "--exposure",
+    "exposure",
+    "--format",
+    "json",
+    "--quiet",
+    "--intervals",
+    "wald",
+  ];
   for (const family of ["poisson", "negbin"]) {
     const t = run(process.execPath, [BIN, ...base, "--family", family]);
     const out = JSON.parse(t.stdout);
-    const merged = out.merged_patterns ? `IRLS over ${out.merged_patterns.patterns.toLocaleString("en")} patterns` : "IRLS over the rows";
+    const merged = out.merged_patterns
+      ? `IRLS over ${out.merged_patterns.patterns.toLocaleString("en")} patterns`
+      : "IRLS over the rows";
     console.log(
       `  tallyfit ${family.padEnd(8)} (Wald) ${t.seconds.toFixed(1).padStart(6)} s  ${(rows / t.seconds / 1e3).toFixed(0).padStart(5)}k rows/s  ${(mb / t.seconds).toFixed(1).padStart(5)} MB/s  ` +
         `${t.rssMB === null ? "" : `${t.rssMB.toFixed(0)} MB peak (${t.rssMB < 1536 ? "under" : "OVER"} 1.5 GB)`}  ${merged}`,
@@ -131,16 +183,39 @@ async function big(): Promise<void> {
   const c = await collapseBenchFile(file, collapsed);
   const tight = ["--tolerance", "1e-13", "--max-iter", "100"];
   const full = JSON.parse(run(process.execPath, [BIN, ...base, ...tight]).stdout);
-  const small = JSON.parse(run(process.execPath, [BIN, "fit", collapsed, "--model", MODEL, "--exposure", "exposure", "--format", "json", "--quiet", "--intervals", "wald", "--merge-patterns", "never", ...tight]).stdout);
-  let est = 0, se = 0;
+  const small = JSON.parse(
+    run(process.execPath, [
+      BIN,
+      "fit",
+      collapsed,
+      "--model",
+      MODEL,
+      "--exposure",
+      "exposure",
+      "--format",
+      "json",
+      "--quiet",
+      "--intervals",
+      "wald",
+      "--merge-patterns",
+      "never",
+      ...tight,
+    ]).stdout,
+  );
+  let est = 0,
+    se = 0;
   full.coefficients.forEach((x: { term: string; estimate: number; std_error: number }, k: number) => {
     const y = small.coefficients[k];
     if (y.term !== x.term) throw new Error(`term order differs: ${x.term} vs ${y.term}`);
     est = Math.max(est, Math.abs(x.estimate - y.estimate) / Math.abs(y.estimate));
     se = Math.max(se, Math.abs(x.std_error - y.std_error) / y.std_error);
   });
-  console.log(`  collapsed outside tallyfit: ${c.rows.toLocaleString("en")} rows → ${c.patterns.toLocaleString("en")} patterns (${collapsed})`);
-  console.log(`  Poisson, every row vs the collapsed file: estimates agree to ${est.toExponential(1)}, standard errors to ${se.toExponential(1)} (largest relative difference)`);
+  console.log(
+    `  collapsed outside tallyfit: ${c.rows.toLocaleString("en")} rows → ${c.patterns.toLocaleString("en")} patterns (${collapsed})`,
+  );
+  console.log(
+    `  Poisson, every row vs the collapsed file: estimates agree to ${est.toExponential(1)}, standard errors to ${se.toExponential(1)} (largest relative difference)`,
+  );
 }
 
 async function main(): Promise<void> {
@@ -148,11 +223,17 @@ async function main(): Promise<void> {
   const py = yardstickPython();
   const withYardstick = py !== null;
   if (py) PYTHON = py;
-  if (!withYardstick) console.log("python3 with numpy and pandas not found: the yardstick is skipped (on Debian: apt-get install python3-numpy python3-pandas)");
+  if (!withYardstick)
+    console.log(
+      "python3 with numpy and pandas not found: the yardstick is skipped (on Debian: apt-get install python3-numpy python3-pandas)",
+    );
   // 100,000 rows: negative binomial and profile limits against the Poisson fit; 1,000,000 rows: against the yardstick.
   if (!process.argv.includes("--rows")) await bench(100000, arg("--reps", 3), false);
   await bench(arg("--rows", 1000000), arg("--reps", 3), withYardstick);
   if (process.argv.includes("--big")) await big();
 }
 
-main().catch((e) => { console.error(e); process.exitCode = 1; });
+main().catch((e) => {
+  console.error(e);
+  process.exitCode = 1;
+});

@@ -4,7 +4,7 @@ import("../dist/src/cli/main.js")
   .then((m) => m.main(process.argv))
   .catch((e) => {
     process.stderr.write(
-      `tallyfit: cannot start (${e && e.message ? e.message : e}). Run \`npm install\` in the project folder; it builds the program.\n`,
+      `tallyfit: cannot start (${e?.message ? e.message : e}). Run \`npm install\` in the project folder; it builds the program.\n`,
     );
     process.exitCode = 1;
   });

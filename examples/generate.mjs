@@ -8,7 +8,12 @@ import { writeFileSync } from "node:fs";
 import { dirname, join } from "node:path";
 import { fileURLToPath } from "node:url";
 // The project's own seeded generator and samplers (built by npm ci / npm run build).
-import { negbinDraw as negbin, normalDraw as normal, poissonDraw as poisson, uniformGenerator as rng } from "../dist/src/infer/random.js";
+import {
+  negbinDraw as negbin,
+  normalDraw as normal,
+  poissonDraw as poisson,
+  uniformGenerator as rng,
+} from "../dist/src/math/random.js";
 
 const here = dirname(fileURLToPath(import.meta.url));
 
@@ -30,14 +35,14 @@ function clinicVisits(weeks = [1, 48], seed = 20261201, excess = null) {
         const staff = Math.max(1, Math.round(3 + (clinic === "harbour" ? 1 : 0) + normal(u) * 0.8));
         const rate = Math.exp(Math.log(2.1) + eff + dayEffect[wd] + 0.25 * flu + 0.04 * (staff - 3));
         const boost = excess && excess.clinic === clinic && excess.weekday === wd ? excess.factor : 1;
-        let visits = hours === 0 ? 0 : negbin(u, boost * rate * hours, 0.04);
+        const visits = hours === 0 ? 0 : negbin(u, boost * rate * hours, 0.04);
         let staffText = String(staff);
         if (!excess && u() < 0.004) staffText = "NA"; // staffing not recorded
         lines.push(`${date},${week},${wd},${clinic},${hours},${staffText},${flu},${visits}`);
       }
     }
   }
-  return lines.join("\n") + "\n";
+  return `${lines.join("\n")}\n`;
 }
 
 function wardFalls() {
@@ -53,11 +58,14 @@ function wardFalls() {
       lines.push(`${month},${ward},${beds},${ratio},${poisson(u, rate * beds)}`);
     }
   }
-  return lines.join("\n") + "\n";
+  return `${lines.join("\n")}\n`;
 }
 
 writeFileSync(join(here, "clinic_visits.csv"), clinicVisits());
 // The next week, for the weekly prediction run: Harbour on Wednesday sees three times its usual rate.
-writeFileSync(join(here, "clinic_visits_week49.csv"), clinicVisits([49, 49], 49, { clinic: "harbour", weekday: "wed", factor: 3 }));
+writeFileSync(
+  join(here, "clinic_visits_week49.csv"),
+  clinicVisits([49, 49], 49, { clinic: "harbour", weekday: "wed", factor: 3 }),
+);
 writeFileSync(join(here, "ward_falls.csv"), wardFalls());
 console.log("wrote examples/clinic_visits.csv, clinic_visits_week49.csv and ward_falls.csv");

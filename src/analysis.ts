@@ -3,7 +3,7 @@
 import type { Design } from "./design/design.js";
 import { estimatePatterns, mergePatterns, patternKeyFor, type PatternMerge } from "./design/patterns.js";
 import type { FitControl } from "./fit/irls.js";
-import { fitModel, type FamilyChoice, type FamilyName, type ModelFit } from "./fit/model.js";
+import { fitCounts, type FamilyChoice, type FamilyName, type CountFit } from "./fit/count-fit.js";
 import { dispersionFlagged, runChecks, type CheckResult } from "./infer/check.js";
 import { profileContext } from "./infer/intervals.js";
 import { inferencePlan, runJob, runJobs, type InferencePlan, type JobResult } from "./infer/parallel.js";
@@ -48,28 +48,59 @@ export function patternsFor(design: Design, family: FamilyName, merge: MergeChoi
 }
 
 /** Fit one family, over merged patterns when patternsFor says so. */
-export function fitFamily(design: Design, family: FamilyName, control?: Partial<FitControl>, merge: MergeChoice = "auto", onProgress?: (message: string) => void, poisson?: ModelFit): ModelFit {
+export function fitFamily(
+  design: Design,
+  family: FamilyName,
+  control?: Partial<FitControl>,
+  merge: MergeChoice = "auto",
+  onProgress?: (message: string) => void,
+  poisson?: CountFit,
+): CountFit {
   const patterns = patternsFor(design, family, merge);
   const over = patterns ? ` over ${patterns.patterns.toLocaleString("en")} patterns` : "";
-  const onIteration = onProgress ? (it: number, dev: number) => onProgress(`fitting the ${family} model${over}: IRLS iteration ${it}, deviance ${dev.toPrecision(10)}`) : undefined;
+  const onIteration = onProgress
+    ? (it: number, dev: number) =>
+        onProgress(`fitting the ${family} model${over}: IRLS iteration ${it}, deviance ${dev.toPrecision(10)}`)
+    : undefined;
   // The negative binomial on the rows starts from a Poisson fit: over merged patterns when they are few
   // (at most an eighth of the rows, so that merging costs less than it saves).
-  if (family === "negbin" && !patterns && !poisson && merge !== "never" && design.n >= MERGE_MIN_ROWS && estimatePatterns(design, "covariates") <= design.n / 8) {
+  if (
+    family === "negbin" &&
+    !patterns &&
+    !poisson &&
+    merge !== "never" &&
+    design.n >= MERGE_MIN_ROWS &&
+    estimatePatterns(design, "covariates") <= design.n / 8
+  ) {
     const pm = mergePatterns(design, "covariates", Math.floor(design.n / 8));
-    const onStart = onProgress ? (it: number, dev: number) => onProgress(`fitting the Poisson start over ${pm!.patterns.toLocaleString("en")} patterns: IRLS iteration ${it}, deviance ${dev.toPrecision(10)}`) : undefined;
-    if (pm) poisson = fitModel(design, { family: "poisson", control, patterns: pm, onIteration: onStart });
+    const onStart = onProgress
+      ? (it: number, dev: number) =>
+          onProgress(
+            `fitting the Poisson start over ${pm!.patterns.toLocaleString("en")} patterns: IRLS iteration ${it}, deviance ${dev.toPrecision(10)}`,
+          )
+      : undefined;
+    if (pm) poisson = fitCounts(design, { family: "poisson", control, patterns: pm, onIteration: onStart });
   }
-  return fitModel(design, { family, control, patterns, onIteration, poisson: family === "negbin" && !patterns ? poisson : undefined });
+  return fitCounts(design, {
+    family,
+    control,
+    patterns,
+    onIteration,
+    poisson: family === "negbin" && !patterns ? poisson : undefined,
+  });
 }
 
 export interface FitAnalysis {
-  modelFit: ModelFit;
+  countFit: CountFit;
   summary: FitSummary;
   check: CheckResult | null;
 }
 
 /** The fit (for --family auto: both fits, and the check that chose between them). */
-function fitForAnalysis(design: Design, o: AnalysisOptions): { mf: ModelFit; check: CheckResult | null; familyChoice?: { requested: string; reason: string } } {
+function fitForAnalysis(
+  design: Design,
+  o: AnalysisOptions,
+): { mf: CountFit; check: CheckResult | null; familyChoice?: { requested: string; reason: string } } {
   if (o.family !== "auto") return { mf: fitFamily(design, o.family, o.control, o.merge, o.onProgress), check: null };
   const pois = fitFamily(design, "poisson", o.control, o.merge, o.onProgress);
   const nb = fitFamily(design, "negbin", o.control, o.merge, o.onProgress, pois);
@@ -80,31 +111,43 @@ function fitForAnalysis(design: Design, o: AnalysisOptions): { mf: ModelFit; che
     check,
     familyChoice: {
       requested: "auto",
-      reason: flagged.length > 0
-        ? `the dispersion check flagged (${flagged.map((t) => t.short).join(", ")}) at ${o.testLevel ?? 0.05}, so the negative binomial is used`
-        : `no dispersion test flagged at ${o.testLevel ?? 0.05}, so the Poisson model is kept`,
+      reason:
+        flagged.length > 0
+          ? `the dispersion check flagged (${flagged.map((t) => t.short).join(", ")}) at ${o.testLevel ?? 0.05}, so the negative binomial is used`
+          : `no dispersion test flagged at ${o.testLevel ?? 0.05}, so the Poisson model is kept`,
     },
   };
 }
 
 /** The profile limits and term tests the options ask for, as independent jobs. */
-function planFor(design: Design, mf: ModelFit, o: AnalysisOptions): InferencePlan {
+function planFor(design: Design, mf: CountFit, o: AnalysisOptions): InferencePlan {
   return inferencePlan(
     o.intervals === "wald" ? null : profileContext(design, mf, o.level),
     o.termTests !== false && design.model.terms.length > 0 ? termTestContext(design, mf) : null,
   );
 }
 
-function assemble(design: Design, o: AnalysisOptions, fitted: ReturnType<typeof fitForAnalysis>, plan: InferencePlan, results: JobResult[]): FitAnalysis {
+function assemble(
+  design: Design,
+  o: AnalysisOptions,
+  fitted: ReturnType<typeof fitForAnalysis>,
+  plan: InferencePlan,
+  results: JobResult[],
+): FitAnalysis {
   const profiles = plan.profiles ? new Map<number, ProfileResult>() : undefined;
   const tests: TermTest[] = [];
   plan.jobs.forEach((job, j) => {
     if (job.kind === "profile") profiles!.set(job.col, results[j] as ProfileResult);
     else tests.push(results[j] as TermTest);
   });
-  const summary = summarizeFit(design, fitted.mf, { level: o.level, profiles, robust: o.robust, familyChoice: fitted.familyChoice });
+  const summary = summarizeFit(design, fitted.mf, {
+    level: o.level,
+    profiles,
+    robust: o.robust,
+    familyChoice: fitted.familyChoice,
+  });
   if (plan.terms) summary.term_tests = tests;
-  return { modelFit: fitted.mf, summary, check: fitted.check };
+  return { countFit: fitted.mf, summary, check: fitted.check };
 }
 
 /** Fit one model and summarise it; --family auto fits both and lets the check decide. */
@@ -112,7 +155,13 @@ export function analyzeFit(design: Design, o: AnalysisOptions): FitAnalysis {
   const fitted = fitForAnalysis(design, o);
   const plan = planFor(design, fitted.mf, o);
   const workspace = {};
-  return assemble(design, o, fitted, plan, plan.jobs.map((job) => runJob(plan, job, workspace)));
+  return assemble(
+    design,
+    o,
+    fitted,
+    plan,
+    plan.jobs.map((job) => runJob(plan, job, workspace)),
+  );
 }
 
 /**
@@ -123,26 +172,35 @@ export function analyzeFit(design: Design, o: AnalysisOptions): FitAnalysis {
 export async function analyzeFitParallel(design: Design, o: AnalysisOptions): Promise<FitAnalysis> {
   const fitted = fitForAnalysis(design, o);
   const plan = planFor(design, fitted.mf, o);
-  const nProfiles = plan.jobs.filter((j) => j.kind === "profile").length, nTerms = plan.jobs.length - nProfiles;
+  const nProfiles = plan.jobs.filter((j) => j.kind === "profile").length,
+    nTerms = plan.jobs.length - nProfiles;
   if (plan.jobs.length > 0)
-    o.onProgress?.(`refitting for ${[nProfiles ? `${nProfiles} profile limits` : "", nTerms ? `${nTerms} term tests` : ""].filter(Boolean).join(" and ")}…`);
+    o.onProgress?.(
+      `refitting for ${[nProfiles ? `${nProfiles} profile limits` : "", nTerms ? `${nTerms} term tests` : ""].filter(Boolean).join(" and ")}…`,
+    );
   return assemble(design, o, fitted, plan, await runJobs(plan));
 }
 
 /** The dispersion and zero-count check of a model. */
-export function analyzeCheck(design: Design, o: { control?: Partial<FitControl>; testLevel: number; merge?: MergeChoice }): CheckResult {
+export function analyzeCheck(
+  design: Design,
+  o: { control?: Partial<FitControl>; testLevel: number; merge?: MergeChoice },
+): CheckResult {
   return analyzeCheckWithFits(design, o).check;
 }
 
 /** The check together with the Poisson and negative-binomial fits it used. */
-export function analyzeCheckWithFits(design: Design, o: { control?: Partial<FitControl>; testLevel: number; merge?: MergeChoice; onProgress?: (message: string) => void }): { check: CheckResult; poisson: ModelFit; negbin: ModelFit } {
+export function analyzeCheckWithFits(
+  design: Design,
+  o: { control?: Partial<FitControl>; testLevel: number; merge?: MergeChoice; onProgress?: (message: string) => void },
+): { check: CheckResult; poisson: CountFit; negbin: CountFit } {
   const poisson = fitFamily(design, "poisson", o.control, o.merge, o.onProgress);
   const negbin = fitFamily(design, "negbin", o.control, o.merge, o.onProgress, poisson);
   return { check: runChecks(design, poisson, negbin, o.testLevel), poisson, negbin };
 }
 
 /** What the diagnostic picture shows, for a fit: rootogram, residuals, fitted means. */
-export function diagnosticsOf(design: Design, mf: ModelFit, seed = 1) {
+export function diagnosticsOf(design: Design, mf: CountFit, seed = 1) {
   const alpha = mf.family === "negbin" ? mf.fit.alpha : 0;
   return {
     rootogram: rootogram(design.y, mf.fit.mu, alpha, design.weights),

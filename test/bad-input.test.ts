@@ -18,7 +18,10 @@ for (const c of CASES) {
 }
 
 test("perfectly collinear predictors are reported as aliased, not as an error", () => {
-  const r = runCli(["fit", "-", "--model", "y ~ x + z", "--format", "json"], "x,z,y\n1,2,3\n2,4,1\n3,6,4\n4,8,2\n5,10,6\n");
+  const r = runCli(
+    ["fit", "-", "--model", "y ~ x + z", "--format", "json"],
+    "x,z,y\n1,2,3\n2,4,1\n3,6,4\n4,8,2\n5,10,6\n",
+  );
   assert.equal(r.code, 0, r.stderr);
   const z = JSON.parse(r.stdout).coefficients.find((c: { term: string }) => c.term === "z");
   assert.equal(z.aliased, true);
@@ -27,16 +30,31 @@ test("perfectly collinear predictors are reported as aliased, not as an error", 
 
 test("extreme magnitudes (counts near 1e12, exposures near 1e-12) give finite results", () => {
   let csv = "g,e,y\n";
-  for (let i = 0; i < 40; i++) csv += `${i % 2 ? "a" : "b"},${1e-12 * (1 + (i % 3))},${Math.round(1e12 * (1 + (i % 5)) * (i % 2 ? 1 : 2))}\n`;
+  for (let i = 0; i < 40; i++)
+    csv += `${i % 2 ? "a" : "b"},${1e-12 * (1 + (i % 3))},${Math.round(1e12 * (1 + (i % 5)) * (i % 2 ? 1 : 2))}\n`;
   const r = runCli(["fit", "-", "--model", "y ~ g", "--exposure", "e", "--format", "json"], csv);
   assert.equal(r.code, 0, r.stderr);
   const j = JSON.parse(r.stdout);
-  for (const c of j.coefficients) assert.ok(Number.isFinite(c.estimate) && Number.isFinite(c.std_error) && Number.isFinite(c.profile[0]));
+  for (const c of j.coefficients)
+    assert.ok(Number.isFinite(c.estimate) && Number.isFinite(c.std_error) && Number.isFinite(c.profile[0]));
   assert.ok(Number.isFinite(j.log_likelihood) && Number.isFinite(j.deviance));
 });
 
 test("writing into a pipe that closes early (| head) ends quietly, without a stack trace", async () => {
-  const child = spawn(process.execPath, [BIN, "fit", "examples/clinic_visits.csv", "--model", "visits ~ clinic + weekday", "--exposure", "open_hours", "--quiet"], { cwd: ROOT, stdio: ["ignore", "pipe", "pipe"] });
+  const child = spawn(
+    process.execPath,
+    [
+      BIN,
+      "fit",
+      "examples/clinic_visits.csv",
+      "--model",
+      "visits ~ clinic + weekday",
+      "--exposure",
+      "open_hours",
+      "--quiet",
+    ],
+    { cwd: ROOT, stdio: ["ignore", "pipe", "pipe"] },
+  );
   let err = "";
   child.stderr.on("data", (d) => (err += d));
   child.stdout.once("data", () => child.stdout.destroy());

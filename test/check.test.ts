@@ -7,13 +7,13 @@ import { join } from "node:path";
 import { analyzeCheck } from "../src/analysis.js";
 import { buildDesign } from "../src/design/design.js";
 import { parseTable } from "../src/io/csv.js";
-import { parseModel } from "../src/model/formula.js";
+import { parseFormula } from "../src/formula/formula.js";
 import { binomialLimits, rng, runCli, simulateRates } from "./helpers.js";
 
 const DISPERSION = ["pearson", "deviance", "cameron_trivedi", "dean_lawless", "lr_negbin"];
 
 function check(csv: string) {
-  const design = buildDesign(parseTable(csv, { source: "sim.csv" }), parseModel("y ~ g + x"), { exposure: "e" });
+  const design = buildDesign(parseTable(csv, { source: "sim.csv" }), parseFormula("y ~ g + x"), { exposure: "e" });
   return analyzeCheck(design, { testLevel: 0.05 });
 }
 
@@ -25,7 +25,8 @@ test("size by simulation (seeded): on 400 Poisson data sets (n = 400, means abou
     for (const t of res.tests) if (t.name in flags && t.flagged) flags[t.name]++;
   }
   const [lo, hi] = binomialLimits(400, 0.05);
-  for (const k of DISPERSION) assert.ok(flags[k] >= lo && flags[k] <= hi, `${k} flagged ${flags[k]}/400, limits ${lo}–${hi}`);
+  for (const k of DISPERSION)
+    assert.ok(flags[k] >= lo && flags[k] <= hi, `${k} flagged ${flags[k]}/400, limits ${lo}–${hi}`);
 });
 
 test("power by simulation (seeded): on NB data with alpha 0.5 and n = 500 each dispersion test flags in at least 90% of data sets", () => {
@@ -46,7 +47,7 @@ test("zero-count check: structural zeros are flagged as more zeros than either m
   const base = simulateRates(u, 600, 0, 4).trim().split("\n").slice(1);
   base.forEach((line, i) => {
     const [g, x, e] = line.split(",");
-    csv += i % 4 === 0 ? `${g},${x},${e},0\n` : line + "\n";
+    csv += i % 4 === 0 ? `${g},${x},${e},0\n` : `${line}\n`;
   });
   const res = check(csv);
   const z = res.tests.find((t) => t.name === "zero_inflation")!;
@@ -72,14 +73,17 @@ test("CLI: check exits 0 on Poisson data and 4 on overdispersed data; JSON carri
   const j = JSON.parse(b.stdout);
   assert.equal(j.schema, "tallyfit.check/1");
   assert.equal(j.check.verdict.code, "overdispersed");
-  for (const t of j.check.tests) for (const k of ["name", "statistic", "df", "p_value", "flagged"]) assert.ok(k in t, k);
+  for (const t of j.check.tests)
+    for (const k of ["name", "statistic", "df", "p_value", "flagged"]) assert.ok(k in t, k);
   assert.equal(runCli(["check", over, "--model", "y ~ g + x", "--exposure", "e", "--alpha", "2"]).code, 2);
 });
 
 test("CLI: --family auto picks the Poisson on Poisson data and the negative binomial on overdispersed data, and says why", () => {
   const pois = writeTmp("p.csv", simulateRates(rng(3), 300, 0, 3));
   const over = writeTmp("o.csv", simulateRates(rng(3), 300, 0.5, 3));
-  const a = JSON.parse(runCli(["fit", pois, "--model", "y ~ g + x", "--exposure", "e", "--family", "auto", "--format", "json"]).stdout);
+  const a = JSON.parse(
+    runCli(["fit", pois, "--model", "y ~ g + x", "--exposure", "e", "--family", "auto", "--format", "json"]).stdout,
+  );
   assert.equal(a.family, "poisson");
   assert.match(a.family_choice.reason, /no dispersion test flagged/);
   const b = runCli(["fit", over, "--model", "y ~ g + x", "--exposure", "e", "--family", "auto"]);

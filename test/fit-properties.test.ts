@@ -29,7 +29,8 @@ test("closed form: one factor with exposure, fitted rate = Σcount/Σexposure pe
   // Natural order: east, north, south, west9, west10 ("west9" < "west10").
   assert.deepEqual(design.factors[0].levels, ["east", "north", "south", "west9", "west10"]);
   assertRel(summary.baseline!.rate, rate("east"), 1e-10, "baseline rate");
-  for (const s of ["north", "south", "west9", "west10"]) assertRel(coef(`site=${s}`).rate_ratio!, rate(s) / rate("east"), 1e-10, s);
+  for (const s of ["north", "south", "west9", "west10"])
+    assertRel(coef(`site=${s}`).rate_ratio!, rate(s) / rate("east"), 1e-10, s);
 });
 
 test("closed form: a saturated model has deviance 0", () => {
@@ -42,7 +43,7 @@ test("closed form: a saturated model has deviance 0", () => {
 test("invariance: multiplying the exposure by c shifts only the intercept, by log c", () => {
   const { csv, rows } = oneFactorData(5);
   const c = 1000;
-  const scaled = "site,exposure,x,y\n" + rows.map((r) => `${r.site},${r.e * c},${r.x},${r.y}`).join("\n") + "\n";
+  const scaled = `site,exposure,x,y\n${rows.map((r) => `${r.site},${r.e * c},${r.x},${r.y}`).join("\n")}\n`;
   const a = fitCsv(csv, "y ~ site + x", { exposure: "exposure" }).summary;
   const b = fitCsv(scaled, "y ~ site + x", { exposure: "exposure" }).summary;
   a.coefficients.forEach((ca, k) => {
@@ -56,10 +57,14 @@ test("invariance: multiplying the exposure by c shifts only the intercept, by lo
 
 test("invariance: permuting rows changes nothing", () => {
   const { rows } = oneFactorData(8);
-  const toCsv = (rs: typeof rows) => "site,exposure,x,y\n" + rs.map((r) => `${r.site},${r.e},${r.x},${r.y}`).join("\n") + "\n";
+  const toCsv = (rs: typeof rows) =>
+    `site,exposure,x,y\n${rs.map((r) => `${r.site},${r.e},${r.x},${r.y}`).join("\n")}\n`;
   const u = rng(99);
   const shuffled = [...rows];
-  for (let i = shuffled.length - 1; i > 0; i--) { const j = Math.floor(u() * (i + 1)); [shuffled[i], shuffled[j]] = [shuffled[j], shuffled[i]]; }
+  for (let i = shuffled.length - 1; i > 0; i--) {
+    const j = Math.floor(u() * (i + 1));
+    [shuffled[i], shuffled[j]] = [shuffled[j], shuffled[i]];
+  }
   const a = fitCsv(toCsv(rows), "y ~ site * x", { exposure: "exposure" }).summary;
   const b = fitCsv(toCsv(shuffled), "y ~ site * x", { exposure: "exposure" }).summary;
   a.coefficients.forEach((ca, k) => assertRel(b.coefficients[k].estimate!, ca.estimate!, 1e-9, ca.term));
@@ -69,8 +74,8 @@ test("invariance: permuting rows changes nothing", () => {
 test("invariance: scaling a numeric predictor by c divides its coefficient by c", () => {
   const { rows } = oneFactorData(21);
   const c = 60;
-  const csv1 = "site,exposure,x,y\n" + rows.map((r) => `${r.site},${r.e},${r.x},${r.y}`).join("\n") + "\n";
-  const csv2 = "site,exposure,x,y\n" + rows.map((r) => `${r.site},${r.e},${r.x * c},${r.y}`).join("\n") + "\n";
+  const csv1 = `site,exposure,x,y\n${rows.map((r) => `${r.site},${r.e},${r.x},${r.y}`).join("\n")}\n`;
+  const csv2 = `site,exposure,x,y\n${rows.map((r) => `${r.site},${r.e},${r.x * c},${r.y}`).join("\n")}\n`;
   const a = fitCsv(csv1, "y ~ site + x", { exposure: "exposure" });
   const b = fitCsv(csv2, "y ~ site + x", { exposure: "exposure" });
   assertRel(b.coef("x").estimate!, a.coef("x").estimate! / c, 1e-9, "x");
@@ -84,7 +89,10 @@ test("numeric:numeric is a product and factor:numeric without its main effect gi
   const slopes = summary.coefficients.filter((c) => c.kind === "slope").map((c) => c.term);
   assert.deepEqual(slopes, ["site=east:x", "site=north:x", "site=south:x", "site=west9:x", "site=west10:x"]);
   const prod = fitCsv(csv, "y ~ x:exposure").summary;
-  assert.deepEqual(prod.coefficients.map((c) => c.term), ["intercept", "x:exposure"]);
+  assert.deepEqual(
+    prod.coefficients.map((c) => c.term),
+    ["intercept", "x:exposure"],
+  );
 });
 
 test("a factor level with no events is reported as not estimable, with a finite upper profile limit only", () => {
@@ -100,14 +108,21 @@ test("a factor level with no events is reported as not estimable, with a finite 
   assert.equal(q.profile![0], 0, "open lower limit reported as 0");
   assert.ok(q.profile![1]! > 0 && q.profile![1]! < 1, `finite upper limit ${q.profile![1]}`);
   // The other levels keep their closed-form rate ratios.
-  const total = (lv: string) => csv.split("\n").filter((l) => l.startsWith(lv + ",")).reduce((a, l) => a + Number(l.split(",")[2]), 0);
+  const total = (lv: string) =>
+    csv
+      .split("\n")
+      .filter((l) => l.startsWith(`${lv},`))
+      .reduce((a, l) => a + Number(l.split(",")[2]), 0);
   assertRel(coef("ward=b").rate_ratio!, total("b") / total("a"), 1e-10, "b unaffected");
 });
 
 test("an aliased column is reported and left out", () => {
   let csv = "x,x2,e,y\n";
   const u = rng(2);
-  for (let i = 0; i < 40; i++) { const x = u(); csv += `${x},${2 * x + 1},1,${poissonDraw(u, 3 + x)}\n`; }
+  for (let i = 0; i < 40; i++) {
+    const x = u();
+    csv += `${x},${2 * x + 1},1,${poissonDraw(u, 3 + x)}\n`;
+  }
   const { coef, summary } = fitCsv(csv, "y ~ x + x2", { exposure: "e" });
   assert.equal(coef("x2").status, "aliased");
   assert.equal(coef("x2").estimate, null);
@@ -126,7 +141,8 @@ test("zero-exposure zero-count rows are left out with a notice", () => {
 
 test("frequency weights give the estimates of the expanded rows", () => {
   const u = rng(17);
-  let expanded = "g,x,y\n", weighted = "g,x,y,w\n";
+  let expanded = "g,x,y\n",
+    weighted = "g,x,y,w\n";
   for (let i = 0; i < 40; i++) {
     const g = i % 3 === 0 ? "p" : "q";
     const x = Math.round(u() * 10) / 10;

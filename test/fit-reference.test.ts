@@ -18,7 +18,10 @@ test("Doll and Hill British doctors, coronary deaths (Breslow and Day 1987; Dobs
   const { summary } = fitCsv(csv, "deaths ~ smoke + agecat + agesq + smoke:agecat", { exposure: "person_years" });
   const est = summary.coefficients.map((c) => +c.estimate!.toFixed(4));
   const se = summary.coefficients.map((c) => +c.std_error!.toFixed(4));
-  assert.deepEqual(summary.coefficients.map((c) => c.term), ["intercept", "smoke", "agecat", "agesq", "smoke:agecat"]);
+  assert.deepEqual(
+    summary.coefficients.map((c) => c.term),
+    ["intercept", "smoke", "agecat", "agesq", "smoke:agecat"],
+  );
   assert.deepEqual(est, [-10.7918, 1.441, 2.3765, -0.1977, -0.3075]);
   assert.deepEqual(se, [0.4501, 0.3722, 0.2079, 0.0274, 0.097]);
   assert.equal(+summary.deviance.toFixed(4), 1.6354);
@@ -49,6 +52,10 @@ for (const key of ["poisson_design", "poisson_year"]) {
 
 test("conditioning: the uncentred year fixture has counts near 1e6", () => {
   assert.ok(expected.poisson_year.max_count > 5e5);
-  const { summary } = fitCsv(readFileSync(join(FIXTURES, "scipy", "poisson_year.csv"), "utf8"), "cases ~ year + region", { exposure: "population" });
+  const { summary } = fitCsv(
+    readFileSync(join(FIXTURES, "scipy", "poisson_year.csv"), "utf8"),
+    "cases ~ year + region",
+    { exposure: "population" },
+  );
   assert.ok(summary.converged);
 });

@@ -35,7 +35,7 @@ function run(c: GoldenCase): Promise<{ code: number | null; stdout: Buffer; stde
     child.on("close", (code) => resolve({ code, stdout: Buffer.concat(out), stderr: err, file }));
     if (c.stdinFile) {
       const lines = readFileSync(join(ROOT, c.stdinFile), "utf8").split("\n").slice(0, c.stdinHeadLines);
-      child.stdin.end(lines.join("\n") + "\n");
+      child.stdin.end(`${lines.join("\n")}\n`);
     } else child.stdin.end();
   });
 }

@@ -4,26 +4,46 @@ import { dirname, join, resolve } from "node:path";
 import { fileURLToPath } from "node:url";
 import { buildDesign, type DesignOptions } from "../src/design/design.js";
 import { parseTable } from "../src/io/csv.js";
-import { parseModel } from "../src/model/formula.js";
-import type { FamilyChoice } from "../src/fit/model.js";
+import { parseFormula } from "../src/formula/formula.js";
+import type { FamilyChoice } from "../src/fit/count-fit.js";
 import { analyzeFit } from "../src/analysis.js";
-import { uniformGenerator } from "../src/infer/random.js";
-import { negbinDraw } from "../src/infer/random.js";
-export { gammaDraw, negbinDraw, normalDraw, poissonDraw } from "../src/infer/random.js";
+import { uniformGenerator } from "../src/math/random.js";
+import { negbinDraw } from "../src/math/random.js";
+export { gammaDraw, negbinDraw, normalDraw, poissonDraw } from "../src/math/random.js";
 
 export const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), "..", "..");
 export const FIXTURES = join(ROOT, "test", "fixtures");
 export const BIN = join(ROOT, "bin", "tallyfit.js");
 
-export function fitCsv(csv: string, model: string, options: DesignOptions & { factors?: string[]; family?: FamilyChoice; intercept?: boolean; profile?: boolean; robust?: boolean } = {}) {
+export function fitCsv(
+  csv: string,
+  model: string,
+  options: DesignOptions & {
+    factors?: string[];
+    family?: FamilyChoice;
+    intercept?: boolean;
+    profile?: boolean;
+    robust?: boolean;
+  } = {},
+) {
   const table = parseTable(csv, { source: "test.csv", factors: options.factors });
-  const design = buildDesign(table, parseModel(model, { intercept: options.intercept }), options);
-  const { modelFit: mf, summary } = analyzeFit(design, { family: options.family ?? "poisson", level: 0.95, intervals: options.profile ? "both" : "wald", robust: options.robust });
+  const design = buildDesign(table, parseFormula(model, { intercept: options.intercept }), options);
+  const { countFit: mf, summary } = analyzeFit(design, {
+    family: options.family ?? "poisson",
+    level: 0.95,
+    intervals: options.profile ? "both" : "wald",
+    robust: options.robust,
+  });
   return { table, design, mf, summary, coef: (term: string) => summary.coefficients.find((c) => c.term === term)! };
 }
 
 export function runCli(args: string[], input?: string, env: NodeJS.ProcessEnv = {}) {
-  const r = spawnSync(process.execPath, [BIN, ...args], { input, encoding: "utf8", cwd: ROOT, env: { ...process.env, NO_COLOR: "1", ...env } });
+  const r = spawnSync(process.execPath, [BIN, ...args], {
+    input,
+    encoding: "utf8",
+    cwd: ROOT,
+    env: { ...process.env, NO_COLOR: "1", ...env },
+  });
   return { code: r.status, stdout: r.stdout, stderr: r.stderr };
 }
 
@@ -34,7 +54,9 @@ export function relClose(a: number, b: number, tol: number): boolean {
 
 export function assertRel(actual: number, expected: number, tol: number, what: string): void {
   if (!relClose(actual, expected, tol))
-    throw new Error(`${what}: ${actual} differs from ${expected} by ${(Math.abs(actual - expected) / Math.abs(expected)).toExponential(2)} relative (tolerance ${tol})`);
+    throw new Error(
+      `${what}: ${actual} differs from ${expected} by ${(Math.abs(actual - expected) / Math.abs(expected)).toExponential(2)} relative (tolerance ${tol})`,
+    );
 }
 
 /** A seeded uniform generator for simulated data in tests (the project's own, src/infer/random.ts). */
@@ -49,10 +71,18 @@ export function binomialLimits(n: number, p: number, level = 0.999): [number, nu
     pmf.push(Math.exp(logc + k * Math.log(p) + (n - k) * Math.log(1 - p)));
   }
   const tail = (1 - level) / 2;
-  let lo = 0, acc = 0;
-  while (acc + pmf[lo] < tail) { acc += pmf[lo]; lo++; }
-  let hi = n; acc = 0;
-  while (acc + pmf[hi] < tail) { acc += pmf[hi]; hi--; }
+  let lo = 0,
+    acc = 0;
+  while (acc + pmf[lo] < tail) {
+    acc += pmf[lo];
+    lo++;
+  }
+  let hi = n;
+  acc = 0;
+  while (acc + pmf[hi] < tail) {
+    acc += pmf[hi];
+    hi--;
+  }
   return [lo, hi];
 }
 

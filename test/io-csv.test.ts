@@ -1,10 +1,12 @@
 // The loader: RFC 4180 quoting, dialects, typing and input errors.
 import { test } from "node:test";
 import assert from "node:assert/strict";
-import { parseTable, firstInvalidUtf8 } from "../src/io/csv.js";
+import { parseTable } from "../src/io/csv.js";
+import { firstInvalidUtf8 } from "../src/io/source-bytes.js";
 import { InputError } from "../src/errors.js";
 
-const load = (text: string | Uint8Array, extra: Record<string, unknown> = {}) => parseTable(text, { source: "t.csv", ...extra });
+const load = (text: string | Uint8Array, extra: Record<string, unknown> = {}) =>
+  parseTable(text, { source: "t.csv", ...extra });
 
 test("quoted fields, doubled quotes, embedded delimiters and newlines, CRLF and a BOM", () => {
   const t = load('\ufeffname,"n"\r\n"a, b",1\r\n"say ""hi""",2\r\n"two\nlines",3\r\n');
@@ -21,7 +23,12 @@ test("missing tokens: empty, NA, NaN, null and '.' by default; --na replaces the
   const t = load("x\n1\nNA\n\nnull\n.\nNaN\n2\n");
   const x = t.columns.get("x")!;
   assert.equal(x.kind, "numeric");
-  if (x.kind === "numeric") assert.equal([...x.values].filter(Number.isNaN).length, 4, "the blank line is skipped, the four tokens are missing");
+  if (x.kind === "numeric")
+    assert.equal(
+      [...x.values].filter(Number.isNaN).length,
+      4,
+      "the blank line is skipped, the four tokens are missing",
+    );
   const t2 = load("x\n1\n-99\n2\n", { na: ["-99"] });
   const x2 = t2.columns.get("x")!;
   if (x2.kind === "numeric") assert.ok(Number.isNaN(x2.values[1]));
@@ -59,7 +66,12 @@ test("input errors name the file, the row and what to do", () => {
     ["a,b\n1,2,3\n", /row 2 .*3 fields where the header has 2/],
     ['a,b\n"1,2\n', /line \d+: a quoted field is never closed/],
   ];
-  for (const [text, re] of cases) assert.throws(() => load(text), (e: unknown) => e instanceof InputError && re.test(e.message), text);
+  for (const [text, re] of cases)
+    assert.throws(
+      () => load(text),
+      (e: unknown) => e instanceof InputError && re.test(e.message),
+      text,
+    );
 });
 
 test("invalid UTF-8 is an input error naming the line and byte", () => {

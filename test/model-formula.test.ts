@@ -1,29 +1,35 @@
 // The model string: Wilkinson–Rogers operators +, :, * and error carets.
 import { test } from "node:test";
 import assert from "node:assert/strict";
-import { parseModel } from "../src/model/formula.js";
+import { parseFormula } from "../src/formula/formula.js";
 import { InputError } from "../src/errors.js";
 
-const terms = (s: string) => parseModel(s).terms.map((t) => t.variables.join(":"));
+const terms = (s: string) => parseFormula(s).terms.map((t) => t.variables.join(":"));
 
 test("a*b expands to a + b + a:b; terms are ordered by degree", () => {
   assert.deepEqual(terms("y ~ a*b"), ["a", "b", "a:b"]);
   assert.deepEqual(terms("y ~ a:b + c"), ["c", "a:b"]);
   assert.deepEqual(terms("y ~ a*b*c"), ["a", "b", "c", "a:b", "a:c", "b:c", "a:b:c"]);
   assert.deepEqual(terms("y ~ (a + b):c"), ["a:c", "b:c"]);
-  assert.deepEqual(terms("y ~ a + a + b:a"), ["a", "b:a"].map((t) => t), "duplicates collapse; written order kept");
+  assert.deepEqual(
+    terms("y ~ a + a + b:a"),
+    ["a", "b:a"].map((t) => t),
+    "duplicates collapse; written order kept",
+  );
   assert.deepEqual(terms("y ~ 1"), []);
   assert.deepEqual(terms("y ~ `open hours` + b"), ["open hours", "b"]);
 });
 
 test("--no-intercept is carried on the spec", () => {
-  assert.equal(parseModel("y ~ a").intercept, true);
-  assert.equal(parseModel("y ~ a", { intercept: false }).intercept, false);
+  assert.equal(parseFormula("y ~ a").intercept, true);
+  assert.equal(parseFormula("y ~ a", { intercept: false }).intercept, false);
 });
 
 test("syntax errors show the string with a caret under the fault", () => {
   const caret = (s: string) => {
-    try { parseModel(s); } catch (e) {
+    try {
+      parseFormula(s);
+    } catch (e) {
       assert.ok(e instanceof InputError);
       const lines = e.message.split("\n");
       return lines[2].indexOf("^") - 2;
@@ -36,5 +42,5 @@ test("syntax errors show the string with a caret under the fault", () => {
   assert.equal(caret("y a + b"), 2);
   assert.equal(caret("y ~ (a + b"), 10);
   assert.equal(caret("y ~ a b"), 6);
-  assert.throws(() => parseModel("y ~ a + y"), /also appears among the terms/);
+  assert.throws(() => parseFormula("y ~ a + y"), /also appears among the terms/);
 });

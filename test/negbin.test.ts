@@ -5,8 +5,8 @@ import { readFileSync } from "node:fs";
 import { join } from "node:path";
 import { FIXTURES, assertRel, fitCsv, negbinDraw, rng, simulateRates } from "./helpers.js";
 import { fitGlm } from "../src/fit/irls.js";
-import { nullDeviance } from "../src/fit/model.js";
-import { digamma, lgamma, trigamma } from "../src/infer/distributions.js";
+import { nullDeviance } from "../src/fit/count-fit.js";
+import { digamma, lgamma, trigamma } from "../src/math/distributions.js";
 import { lgammaRatio } from "../src/fit/family.js";
 
 const expected = JSON.parse(readFileSync(join(FIXTURES, "scipy", "expected.json"), "utf8"));
@@ -86,7 +86,8 @@ test("fact of the trade (common practice, no source): for Poisson data the Pears
 test(`sandwich: HC0 matches a direct matrix computation (${expected.source}) to 1e-6`, () => {
   const ref = expected.sandwich_hc0;
   const { coef } = fitCsv(fixture(ref.data), ref.model, { exposure: ref.exposure, robust: true });
-  for (const [term, se] of Object.entries(ref.robust_std_error) as [string, number][]) assertRel(coef(term).std_error!, se, 1e-6, term);
+  for (const [term, se] of Object.entries(ref.robust_std_error) as [string, number][])
+    assertRel(coef(term).std_error!, se, 1e-6, term);
 });
 
 test("sandwich: for a correctly specified Poisson model on large data, robust and model SEs agree within a few percent", () => {
@@ -108,7 +109,12 @@ test(`special functions from @stdlib agree with scipy.special (${expected.source
     assertRel(trigamma(x), sp.trigamma[i], 1e-12, `trigamma(${x})`);
   });
   // Our exact small-y form of log Γ(y + r) − log Γ(r) agrees with the lgamma difference.
-  for (const [y, r] of [[3, 0.7], [40, 12.5], [64, 1e3]]) assertRel(lgammaRatio(y, r), lgamma(y + r) - lgamma(r), 1e-11, `ratio ${y},${r}`);
+  for (const [y, r] of [
+    [3, 0.7],
+    [40, 12.5],
+    [64, 1e3],
+  ])
+    assertRel(lgammaRatio(y, r), lgamma(y + r) - lgamma(r), 1e-11, `ratio ${y},${r}`);
 });
 
 test("intercept-only deviances (NB2 by a one-coefficient Newton, Poisson in closed form) equal a general IRLS fit of the intercept", () => {
@@ -120,7 +126,12 @@ test("intercept-only deviances (NB2 by a one-coefficient Newton, Poisson in clos
   }
   const { design, mf } = fitCsv(csv, "y ~ g", { exposure: "e", weights: "w", family: "negbin" });
   const alpha = mf.negbin!.alpha;
-  const interceptOnly = { n: design.n, p: 1, slots: [{ term: -1, colStart: 0, colCount: 1, cols: null, values: null }], interceptCol: 0 };
+  const interceptOnly = {
+    n: design.n,
+    p: 1,
+    slots: [{ term: -1, colStart: 0, colCount: 1, cols: null, values: null }],
+    interceptCol: 0,
+  };
   const general = fitGlm(interceptOnly, design, { alpha, control: { tolerance: 1e-15, maxIter: 100 } });
   assertRel(nullDeviance(design, alpha), general.deviance, 1e-10, "intercept-only deviance");
   // The Poisson closed form, the same way.

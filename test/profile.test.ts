@@ -4,8 +4,8 @@ import assert from "node:assert/strict";
 import { readFileSync } from "node:fs";
 import { join } from "node:path";
 import { FIXTURES, assertRel, fitCsv, poissonDraw, rng } from "./helpers.js";
-import { brentRoot } from "../src/infer/roots.js";
-import { chiSquareQuantile, lgamma } from "../src/infer/distributions.js";
+import { brentRoot } from "../src/math/roots.js";
+import { chiSquareQuantile, lgamma } from "../src/math/distributions.js";
 
 const expected = JSON.parse(readFileSync(join(FIXTURES, "scipy", "expected.json"), "utf8"));
 const fixture = (name: string) => readFileSync(join(FIXTURES, "scipy", name), "utf8");
@@ -28,7 +28,10 @@ test(`zero-event level: lower limit 0 (open), upper limit finite and matching th
   assert.equal(c.status, "no_events");
   assert.equal(c.profile![0], 0);
   assertRel(c.profile![1]!, ref.upper, 1e-4, "upper limit");
-  assert.ok(!summary.warnings.some((w) => w.includes("lower profile limit")), "the open lower side is expected, not warned about");
+  assert.ok(
+    !summary.warnings.some((w) => w.includes("lower profile limit")),
+    "the open lower side is expected, not warned about",
+  );
 });
 
 test("closed form: single-factor Poisson profile limits equal those of the one-dimensional likelihood of two rates", () => {
@@ -39,16 +42,18 @@ test("closed form: single-factor Poisson profile limits equal those of the one-d
     const g = i % 2 ? "b" : "a";
     const e = 1 + 3 * u();
     const y = poissonDraw(u, e * (g === "a" ? 0.8 : 1.5));
-    sums[g as "a" | "b"][0] += y; sums[g as "a" | "b"][1] += e;
+    sums[g as "a" | "b"][0] += y;
+    sums[g as "a" | "b"][1] += e;
     csv += `${g},${e},${y}\n`;
   }
-  const [ya, ea] = sums.a, [yb, eb] = sums.b;
+  const [ya, ea] = sums.a,
+    [yb, eb] = sums.b;
   // With the intercept profiled out: e^{b0} = (ya + yb)/(ea + eb·e^β), so ℓ(β) is one-dimensional.
   const ll = (beta: number) => {
     const r0 = (ya + yb) / (ea + eb * Math.exp(beta));
     return ya * Math.log(r0 * ea) - r0 * ea + yb * Math.log(r0 * eb * Math.exp(beta)) - r0 * eb * Math.exp(beta);
   };
-  const bhat = Math.log((yb / eb) / (ya / ea));
+  const bhat = Math.log(yb / eb / (ya / ea));
   const crit = chiSquareQuantile(0.95, 1);
   const f = (b: number) => 2 * (ll(bhat) - ll(b)) - crit;
   const lo = Math.exp(brentRoot(f, bhat - 3, bhat, 1e-13));
@@ -62,7 +67,10 @@ test("closed form: single-factor Poisson profile limits equal those of the one-d
 test("agreement: with large counts profile and Wald limits agree within 1%", () => {
   const u = rng(13);
   let csv = "g,x,e,y\n";
-  for (let i = 0; i < 300; i++) { const x = u(); csv += `${i % 3},${x},${100},${poissonDraw(u, 100 * (1 + (i % 3) * 0.2) * Math.exp(0.3 * x))}\n`; }
+  for (let i = 0; i < 300; i++) {
+    const x = u();
+    csv += `${i % 3},${x},${100},${poissonDraw(u, 100 * (1 + (i % 3) * 0.2) * Math.exp(0.3 * x))}\n`;
+  }
   const { summary } = fitCsv(csv, "y ~ g + x", { exposure: "e", factors: ["g"], profile: true });
   for (const c of summary.coefficients) {
     assertRel(c.profile![0]!, c.wald![0]!, 0.01, `${c.term} lower`);
@@ -73,7 +81,8 @@ test("agreement: with large counts profile and Wald limits agree within 1%", () 
 test("coverage by simulation (seeded, a known property, common practice): with means 1 to 4, profile intervals cover within ±3 points of 95% and closer than Wald", () => {
   const u = rng(2026);
   const trueRR = 2;
-  let coverP = 0, coverW = 0;
+  let coverP = 0,
+    coverW = 0;
   const reps = 400;
   for (let r = 0; r < reps; r++) {
     let csv = "g,e,y\n";
@@ -81,13 +90,18 @@ test("coverage by simulation (seeded, a known property, common practice): with m
       const e = 1 + u() * 3; // means 1 to 4 in the reference group, 2 to 8 in the other
       csv += `a,${e},${poissonDraw(u, e)}\nb,${e},${poissonDraw(u, trueRR * e)}\n`;
     }
-    let s;
-    try { s = fitCsv(csv, "y ~ g", { exposure: "e", profile: true }).coef("g=b"); } catch { continue; }
+    let s: ReturnType<ReturnType<typeof fitCsv>["coef"]>;
+    try {
+      s = fitCsv(csv, "y ~ g", { exposure: "e", profile: true }).coef("g=b");
+    } catch {
+      continue;
+    }
     if (s.status !== "estimated") continue;
     if (s.profile![0]! <= trueRR && trueRR <= (s.profile![1] ?? Infinity)) coverP++;
     if (s.wald![0]! <= trueRR && trueRR <= s.wald![1]!) coverW++;
   }
-  const pP = (100 * coverP) / reps, pW = (100 * coverW) / reps;
+  const pP = (100 * coverP) / reps,
+    pW = (100 * coverW) / reps;
   assert.ok(Math.abs(pP - 95) <= 3, `profile coverage ${pP}%`);
   assert.ok(Math.abs(pP - 95) <= Math.abs(pW - 95), `profile ${pP}% should be closer to 95% than Wald ${pW}%`);
 });

@@ -11,7 +11,9 @@ import { BIN, ROOT } from "./helpers.js";
 
 const SCRIPT = "/usr/bin/script"; // util-linux: runs a command on a pseudo-terminal
 
-test("IRLS progress appears on a terminal's stderr for 100,000 rows, and not with --quiet or on a pipe", { skip: existsSync(SCRIPT) ? false : `${SCRIPT} is not installed` }, async () => {
+test("IRLS progress appears on a terminal's stderr for 100,000 rows, and not with --quiet or on a pipe", {
+  skip: existsSync(SCRIPT) ? false : `${SCRIPT} is not installed`,
+}, async () => {
   const dir = mkdtempSync(join(tmpdir(), "tallyfit-progress-"));
   try {
     const file = join(dir, "rows.csv");
@@ -28,7 +30,23 @@ test("IRLS progress appears on a terminal's stderr for 100,000 rows, and not wit
     const quiet = spawnSync(SCRIPT, ["-qec", cmd("--quiet"), "/dev/null"], { cwd: ROOT, encoding: "utf8" });
     assert.equal(quiet.status, 0);
     assert.doesNotMatch(quiet.stdout, /IRLS iteration/);
-    const pipe = spawnSync(process.execPath, [BIN, "fit", file, "--model", "visits ~ region + agegrp + sex", "--exposure", "exposure", "--intervals", "wald", "--format", "json"], { cwd: ROOT, encoding: "utf8" });
+    const pipe = spawnSync(
+      process.execPath,
+      [
+        BIN,
+        "fit",
+        file,
+        "--model",
+        "visits ~ region + agegrp + sex",
+        "--exposure",
+        "exposure",
+        "--intervals",
+        "wald",
+        "--format",
+        "json",
+      ],
+      { cwd: ROOT, encoding: "utf8" },
+    );
     assert.equal(pipe.status, 0);
     assert.doesNotMatch(pipe.stderr, /IRLS iteration/);
     assert.equal(JSON.parse(pipe.stdout).n_used, 100000, "stdout holds only the report");

@@ -2,19 +2,21 @@
 import { Command, CommanderError, Option } from "commander";
 import { readFileSync } from "node:fs";
 import type { Table } from "../io/table.js";
-import { loadSavedModel } from "../io/model-file.js";
+import { loadModelFile } from "../io/model-file.js";
 import { buildPredictionDesign } from "../design/predict-design.js";
 import { predictRows } from "../infer/predict.js";
 import { summarizeGroups, type GroupSummary } from "../infer/groups.js";
 import { naturalCompare } from "../design/naming.js";
-import { savedModelOf } from "../report/model-file.js";
+import { modelFileOf } from "../report/model-file.js";
 import { renderPredictCsv, renderPredictText } from "../report/predict.js";
 import { EXIT, FitError, InputError } from "../errors.js";
-import { DEFAULT_NA, loadTableStream, parseRecords, parseTable, readSource } from "../io/csv.js";
-import { parseModel, termVariables } from "../model/formula.js";
+import { loadTableStream, parseRecords, parseTable } from "../io/csv.js";
+import { DEFAULT_NA } from "../io/dialect.js";
+import { readSource } from "../io/source-bytes.js";
+import { parseFormula, termVariables } from "../formula/formula.js";
 import { buildDesign } from "../design/design.js";
 import type { Design } from "../design/design.js";
-import type { FamilyChoice, FamilyName } from "../fit/model.js";
+import type { FamilyChoice, FamilyName } from "../fit/count-fit.js";
 import { compareModels } from "../infer/compare.js";
 import { renderCompareText } from "../report/compare-text.js";
 import { analyzeCheckWithFits, analyzeFitParallel, diagnosticsOf, fitFamily, type MergeChoice } from "../analysis.js";
@@ -55,7 +57,8 @@ function parseRefs(list: string[]): Record<string, string> {
   const refs: Record<string, string> = {};
   for (const r of list) {
     const k = r.indexOf("=");
-    if (k <= 0 || k === r.length - 1) throw new InputError(`--ref takes COLUMN=LEVEL, such as --ref clinic=central (got '${r}').`);
+    if (k <= 0 || k === r.length - 1)
+      throw new InputError(`--ref takes COLUMN=LEVEL, such as --ref clinic=central (got '${r}').`);
     refs[r.slice(0, k)] = r.slice(k + 1);
   }
   return refs;
@@ -92,14 +95,29 @@ interface CommonOptions {
 }
 
 function addCommonOptions(cmd: Command, multiModel = false): Command {
-  const withModel = cmd.option("--model <spec>", multiModel ? 'a model "COUNT ~ TERMS" (give two or more)' : 'response column and terms, as "COUNT ~ a + b + a:b"', collect, []);
+  const withModel = cmd.option(
+    "--model <spec>",
+    multiModel ? 'a model "COUNT ~ TERMS" (give two or more)' : 'response column and terms, as "COUNT ~ a + b + a:b"',
+    collect,
+    [],
+  );
   const withFamily = multiModel
-    ? withModel.option("--family <name>", "poisson, negbin or quasipoisson: once for all models, or once per --model in order", collect, [])
+    ? withModel.option(
+        "--family <name>",
+        "poisson, negbin or quasipoisson: once for all models, or once per --model in order",
+        collect,
+        [],
+      )
     : withModel.addOption(new Option("--family <name>", "poisson, negbin, quasipoisson or auto").default("poisson"));
   return withFamily
     .option("--exposure <col>", "exposure column (person-time, open hours, bed-days); its log becomes the offset")
     .option("--offset <col>", "an offset column already on the log scale")
-    .option("--factor <cols>", "treat these numeric-looking columns as categorical (comma-separated, repeatable)", collect, [])
+    .option(
+      "--factor <cols>",
+      "treat these numeric-looking columns as categorical (comma-separated, repeatable)",
+      collect,
+      [],
+    )
     .option("--ref <col=level>", "reference level of a factor (repeatable)", collect, [])
     .option("--weights <col>", "frequency weights (a row stands for that many identical rows)")
     .option("--no-intercept", "drop the intercept")
@@ -113,7 +131,12 @@ function addCommonOptions(cmd: Command, multiModel = false): Command {
     .option("--na <tokens>", "comma-separated missing-value tokens (default: empty, NA, NaN, null, .)")
     .option("--max-iter <n>", "IRLS iteration limit", "50")
     .option("--tolerance <x>", "IRLS convergence tolerance on the relative change in deviance", "1e-10")
-    .addOption(new Option("--merge-patterns <when>", "run IRLS over rows merged by covariate pattern: auto (10,000+ rows, at most half as many patterns), always or never").default("auto"))
+    .addOption(
+      new Option(
+        "--merge-patterns <when>",
+        "run IRLS over rows merged by covariate pattern: auto (10,000+ rows, at most half as many patterns), always or never",
+      ).default("auto"),
+    )
     .option("--quiet", "no notices on stderr")
     .option("--no-color", "no colour")
     .option("--debug", "show a stack trace on internal errors");
@@ -141,32 +164,75 @@ interface Loaded {
  * the alsoRead columns on the first design's rows), so its columns can be
  * freed before fitting.
  */
-async function loadDesigns(file: string | undefined, opts: CommonOptions, modelTexts: string[], alsoRead: string[] = []): Promise<{ designs: Design[]; control: Loaded["control"]; labels: Map<string, string[]>; sha256: string }> {
-  const control = { maxIter: parsePositiveInt("--max-iter", opts.maxIter), tolerance: parsePositive("--tolerance", opts.tolerance) };
-  const specs = modelTexts.map((t) => parseModel(t, { intercept: opts.intercept }));
+async function loadDesigns(
+  file: string | undefined,
+  opts: CommonOptions,
+  modelTexts: string[],
+  alsoRead: string[] = [],
+): Promise<{ designs: Design[]; control: Loaded["control"]; labels: Map<string, string[]>; sha256: string }> {
+  const control = {
+    maxIter: parsePositiveInt("--max-iter", opts.maxIter),
+    tolerance: parsePositive("--tolerance", opts.tolerance),
+  };
+  const specs = modelTexts.map((t) => parseFormula(t, { intercept: opts.intercept }));
   const refs = parseRefs(opts.ref);
-  const factors = opts.factor.flatMap((f) => f.split(",").map((s) => s.trim()).filter(Boolean));
+  const factors = opts.factor.flatMap((f) =>
+    f
+      .split(",")
+      .map((s) => s.trim())
+      .filter(Boolean),
+  );
   const path = file ?? "-";
-  if (path === "-" && process.stdin.isTTY) throw new InputError("no input: give a CSV file, or pipe one in (a FILE of - reads standard input).");
+  if (path === "-" && process.stdin.isTTY)
+    throw new InputError("no input: give a CSV file, or pipe one in (a FILE of - reads standard input).");
   const vars = [...new Set(specs.flatMap((spec) => [spec.response, ...termVariables(spec)]))];
-  const select = [...vars, ...[opts.exposure, opts.offset, opts.weights].filter((x): x is string => !!x), ...Object.keys(refs), ...alsoRead];
+  const select = [
+    ...vars,
+    ...[opts.exposure, opts.offset, opts.weights].filter((x): x is string => !!x),
+    ...Object.keys(refs),
+    ...alsoRead,
+  ];
   const name = path === "-" ? "<stdin>" : path;
   const progress = opts.quiet || !process.stderr.isTTY ? undefined : readingProgress();
-  const { table, sha256 } = await loadTableStream(path, { delimiter: opts.delimiter, na: parseNa(opts.na), factors, select }, progress);
+  const { table, sha256 } = await loadTableStream(
+    path,
+    { delimiter: opts.delimiter, na: parseNa(opts.na), factors, select },
+    progress,
+  );
   if (progress) process.stderr.write("\r\x1b[K");
   for (const f of factors)
-    if (!table.header.includes(f)) throw new InputError(`${name}: --factor column '${f}' is not in the file. The columns are ${table.header.map((h) => `'${h}'`).join(", ")}.`);
+    if (!table.header.includes(f))
+      throw new InputError(
+        `${name}: --factor column '${f}' is not in the file. The columns are ${table.header.map((h) => `'${h}'`).join(", ")}.`,
+      );
   const designs = specs.map((spec) => {
-    const ownRefs = Object.fromEntries(Object.entries(refs).filter(([k]) => termVariables(spec).includes(k) || specs.length === 1));
-    return buildDesign(table, spec, { exposure: opts.exposure, offset: opts.offset, weights: opts.weights, refs: ownRefs, complete: specs.length > 1 ? vars : undefined });
+    const ownRefs = Object.fromEntries(
+      Object.entries(refs).filter(([k]) => termVariables(spec).includes(k) || specs.length === 1),
+    );
+    return buildDesign(table, spec, {
+      exposure: opts.exposure,
+      offset: opts.offset,
+      weights: opts.weights,
+      refs: ownRefs,
+      complete: specs.length > 1 ? vars : undefined,
+    });
   });
   for (const n of designs[0].notices) notice(opts, n);
-  for (const c of alsoRead) if (!table.columns.has(c)) throw new InputError(`${name}: --summary-by column '${c}' is not in the file. The columns are ${table.header.map((h) => `'${h}'`).join(", ")}.`);
+  for (const c of alsoRead)
+    if (!table.columns.has(c))
+      throw new InputError(
+        `${name}: --summary-by column '${c}' is not in the file. The columns are ${table.header.map((h) => `'${h}'`).join(", ")}.`,
+      );
   const labels = new Map(alsoRead.map((c) => [c, groupLabels(table, c, designs[0].rowIndex)]));
   return { designs, control, labels, sha256 };
 }
 
-async function loadDesign(file: string | undefined, opts: CommonOptions, modelText: string, alsoRead: string[] = []): Promise<Loaded & { labels: Map<string, string[]>; sha256: string }> {
+async function loadDesign(
+  file: string | undefined,
+  opts: CommonOptions,
+  modelText: string,
+  alsoRead: string[] = [],
+): Promise<Loaded & { labels: Map<string, string[]>; sha256: string }> {
   const { designs, control, labels, sha256 } = await loadDesigns(file, opts, [modelText], alsoRead);
   return { design: designs[0], control, labels, sha256 };
 }
@@ -227,7 +293,13 @@ function plotKind(path: string): "svg" | "png" {
   throw new InputError(`--plot takes a file name ending in .svg or .png (got '${path}').`);
 }
 
-async function writePlot(opts: CommonOptions, path: string, title: string, d: ReturnType<typeof diagnosticsOf>, summary: FitSummary): Promise<void> {
+async function writePlot(
+  opts: CommonOptions,
+  path: string,
+  title: string,
+  d: ReturnType<typeof diagnosticsOf>,
+  summary: FitSummary,
+): Promise<void> {
   const svg = renderSvg({ title, rootogram: d.rootogram, fitted: d.fitted, residuals: d.residuals, summary });
   await writeAtomic(path, plotKind(path) === "svg" ? svg : svgToPng(svg));
   notice(opts, `picture written to ${path}`);
@@ -235,14 +307,20 @@ async function writePlot(opts: CommonOptions, path: string, title: string, d: Re
 
 function parseTestLevel(v: string): number {
   const x = Number(v);
-  if (!(x > 0 && x < 1)) throw new InputError(`--alpha is the test level, a number between 0 and 1 such as 0.05 (got '${v}').`);
+  if (!(x > 0 && x < 1))
+    throw new InputError(`--alpha is the test level, a number between 0 and 1 such as 0.05 (got '${v}').`);
   return x;
 }
 
 type FitCliOptions = CommonOptions & { alpha: string; saveModel?: string; summaryBy?: string; per: string };
 
 async function runFit(file: string | undefined, opts: FitCliOptions): Promise<number> {
-  if (opts.model.length !== 1) throw new InputError(opts.model.length === 0 ? 'fit needs --model "COUNT ~ TERMS".' : "fit takes one --model; use `tallyfit compare` for several.");
+  if (opts.model.length !== 1)
+    throw new InputError(
+      opts.model.length === 0
+        ? 'fit needs --model "COUNT ~ TERMS".'
+        : "fit takes one --model; use `tallyfit compare` for several.",
+    );
   const level = parseLevel(opts.level);
   oneOf("--format", opts.format, ["text", "json", "csv", "markdown"]);
   const family = oneOf("--family", opts.family, ["poisson", "quasipoisson", "negbin", "auto"]) as FamilyChoice;
@@ -250,25 +328,53 @@ async function runFit(file: string | undefined, opts: FitCliOptions): Promise<nu
   const testLevel = parseTestLevel(opts.alpha);
   const per = parsePositive("--per", opts.per);
   const merge = mergeChoice(opts);
-  const { design, control, labels, sha256 } = await loadDesign(file, opts, opts.model[0], opts.summaryBy ? [opts.summaryBy] : []);
+  const { design, control, labels, sha256 } = await loadDesign(
+    file,
+    opts,
+    opts.model[0],
+    opts.summaryBy ? [opts.summaryBy] : [],
+  );
   if (opts.plot) plotKind(opts.plot);
   const onProgress = fittingProgress(opts, design.n);
-  const { summary, modelFit } = await analyzeFitParallel(design, { family, control, level, intervals, robust: !!opts.robust, testLevel, merge, onProgress });
+  const { summary, countFit } = await analyzeFitParallel(design, {
+    family,
+    control,
+    level,
+    intervals,
+    robust: !!opts.robust,
+    testLevel,
+    merge,
+    onProgress,
+  });
   if (onProgress) process.stderr.write("\r\x1b[K");
   const wide = opts.format === "text" && !opts.output && process.stdout.isTTY && (process.stdout.columns ?? 0) >= 60;
-  const diag = opts.plot || wide ? diagnosticsOf(design, modelFit) : null;
+  const diag = opts.plot || wide ? diagnosticsOf(design, countFit) : null;
   if (opts.plot && diag) await writePlot(opts, opts.plot, `${summary.family} fit of ${summary.model}`, diag, summary);
   if (opts.summaryBy)
-    summary.summary_by = summarizeGroups(opts.summaryBy, labels.get(opts.summaryBy)!, design.y, modelFit.fit.mu, design.exposure, per, level, naturalCompare);
+    summary.summary_by = summarizeGroups(
+      opts.summaryBy,
+      labels.get(opts.summaryBy)!,
+      design.y,
+      countFit.fit.mu,
+      design.exposure,
+      per,
+      level,
+      naturalCompare,
+    );
   if (opts.saveModel) {
-    await writeAtomic(opts.saveModel, renderJson(savedModelOf(design, modelFit, { version: VERSION, sha256 })));
+    await writeAtomic(opts.saveModel, renderJson(modelFileOf(design, countFit, { version: VERSION, sha256 })));
     notice(opts, `model saved to ${opts.saveModel}`);
   }
   let content: string;
   if (opts.format === "json") content = renderJson(summary);
   else if (opts.format === "csv") content = renderFitCsv(summary);
   else if (opts.format === "markdown") content = renderFitMarkdown(summary);
-  else content = renderFitText(summary, { ...textLayout(opts), intervals, rootogram: wide && diag ? diag.rootogram : undefined });
+  else
+    content = renderFitText(summary, {
+      ...textLayout(opts),
+      intervals,
+      rootogram: wide && diag ? diag.rootogram : undefined,
+    });
   await emit(opts, content);
   return EXIT.ok;
 }
@@ -286,65 +392,111 @@ async function runCheck(file: string | undefined, opts: CommonOptions & { alpha:
   if (onProgress) process.stderr.write("\r\x1b[K");
   if (opts.plot) {
     const summary = summarizeFit(design, poisson, { level: parseLevel(opts.level) });
-    await writePlot(opts, opts.plot, `Poisson fit of ${summary.model} (check)`, diagnosticsOf(design, poisson), summary);
+    await writePlot(
+      opts,
+      opts.plot,
+      `Poisson fit of ${summary.model} (check)`,
+      diagnosticsOf(design, poisson),
+      summary,
+    );
   }
-  const content = opts.format === "json" ? renderJson({ schema: check.schema, check }) : renderCheckText(check, textLayout(opts));
+  const content =
+    opts.format === "json" ? renderJson({ schema: check.schema, check }) : renderCheckText(check, textLayout(opts));
   await emit(opts, content);
   return check.flagged ? EXIT.flagged : EXIT.ok;
 }
 
 interface PredictCliOptions {
-  modelFile: string; level: string; flagLevel: string; draws: string; seed: string; failOnFlag?: boolean;
-  summaryBy?: string; per: string; format: string; output?: string; delimiter?: string; na?: string; quiet?: boolean; color: boolean;
+  modelFile: string;
+  level: string;
+  flagLevel: string;
+  draws: string;
+  seed: string;
+  failOnFlag?: boolean;
+  summaryBy?: string;
+  per: string;
+  format: string;
+  output?: string;
+  delimiter?: string;
+  na?: string;
+  quiet?: boolean;
+  color: boolean;
 }
 
 async function runPredict(file: string | undefined, opts: PredictCliOptions): Promise<number> {
   oneOf("--format", opts.format, ["csv", "json", "text"]);
   const level = parseLevel(opts.level);
   const flagLevel = Number(opts.flagLevel);
-  if (!(flagLevel > 0 && flagLevel < 1)) throw new InputError(`--flag-level must be between 0 and 1, such as 0.99 (got '${opts.flagLevel}').`);
+  if (!(flagLevel > 0 && flagLevel < 1))
+    throw new InputError(`--flag-level must be between 0 and 1, such as 0.99 (got '${opts.flagLevel}').`);
   const draws = parsePositiveInt("--draws", opts.draws);
   const seed = Number(opts.seed);
-  if (!Number.isInteger(seed) || seed < 0) throw new InputError(`--seed must be a whole number ≥ 0 (got '${opts.seed}').`);
+  if (!Number.isInteger(seed) || seed < 0)
+    throw new InputError(`--seed must be a whole number ≥ 0 (got '${opts.seed}').`);
   const per = parsePositive("--per", opts.per);
-  const saved = await loadSavedModel(opts.modelFile);
+  const saved = await loadModelFile(opts.modelFile);
   const path = file ?? "-";
-  if (path === "-" && process.stdin.isTTY) throw new InputError("no input: give a CSV file of new rows, or pipe one in.");
+  if (path === "-" && process.stdin.isTTY)
+    throw new InputError("no input: give a CSV file of new rows, or pipe one in.");
   const { bytes, name } = await readSource(path);
   const factors = saved.factors.map((f) => f.name);
   const table = parseTable(bytes, { source: name, delimiter: opts.delimiter, na: parseNa(opts.na), factors });
-  if (opts.summaryBy && !table.columns.has(opts.summaryBy)) throw new InputError(`${name}: --summary-by column '${opts.summaryBy}' is not in the file.`);
+  if (opts.summaryBy && !table.columns.has(opts.summaryBy))
+    throw new InputError(`${name}: --summary-by column '${opts.summaryBy}' is not in the file.`);
   const pd = buildPredictionDesign(table, saved);
   const result = predictRows(pd, saved, { level, flagLevel, draws, seed });
   let groups: GroupSummary | undefined;
   if (opts.summaryBy) {
     const idx = Int32Array.from({ length: pd.n }, (_, i) => i);
-    groups = summarizeGroups(opts.summaryBy, groupLabels(table, opts.summaryBy, idx), pd.observed, result.rows.map((r) => r.expected), pd.exposure, per, level, naturalCompare);
+    groups = summarizeGroups(
+      opts.summaryBy,
+      groupLabels(table, opts.summaryBy, idx),
+      pd.observed,
+      result.rows.map((r) => r.expected),
+      pd.exposure,
+      per,
+      level,
+      naturalCompare,
+    );
   }
   let content: string;
   if (opts.format === "json") content = renderJson(groups ? { ...result, summary_by: groups } : result);
-  else if (opts.format === "csv") content = renderPredictCsv(parseRecords(bytes, { source: name, delimiter: table.delimiter }), result);
+  else if (opts.format === "csv")
+    content = renderPredictCsv(parseRecords(bytes, { source: name, delimiter: table.delimiter }), result);
   else {
     const idx = Int32Array.from({ length: pd.n }, (_, i) => i);
     const cols = saved.factors.map((f) => groupLabels(table, f.name, idx));
     const labels = Array.from({ length: pd.n }, (_, i) => cols.map((c) => c[i]).join(" "));
-    content = renderPredictText(result, groups, { ...textLayout(opts), labels, labelHeading: saved.factors.map((f) => f.name).join(" ") });
+    content = renderPredictText(result, groups, {
+      ...textLayout(opts),
+      labels,
+      labelHeading: saved.factors.map((f) => f.name).join(" "),
+    });
   }
   await emit(opts, content);
-  if (result.n_flagged > 0) notice(opts, `${result.n_flagged} row${result.n_flagged === 1 ? "" : "s"} flagged above the ${flagLevel} limit`);
+  if (result.n_flagged > 0)
+    notice(opts, `${result.n_flagged} row${result.n_flagged === 1 ? "" : "s"} flagged above the ${flagLevel} limit`);
   return opts.failOnFlag && result.n_flagged > 0 ? EXIT.flagged : EXIT.ok;
 }
 
-async function runCompare(file: string | undefined, opts: Omit<CommonOptions, "family"> & { family: string[] }): Promise<number> {
+async function runCompare(
+  file: string | undefined,
+  opts: Omit<CommonOptions, "family"> & { family: string[] },
+): Promise<number> {
   if (opts.model.length < 2) throw new InputError("compare needs two or more --model options.");
   oneOf("--format", opts.format, ["text", "json"]);
   const fams = opts.family.length === 0 ? ["poisson"] : opts.family;
   if (fams.length !== 1 && fams.length !== opts.model.length)
-    throw new InputError(`give --family once (for all models) or once per --model (${opts.model.length} times); got it ${fams.length} times.`);
+    throw new InputError(
+      `give --family once (for all models) or once per --model (${opts.model.length} times); got it ${fams.length} times.`,
+    );
   for (const f of fams) oneOf("--family", f, ["poisson", "negbin", "quasipoisson"]);
   const merge = mergeChoice(opts);
   const { designs, control } = await loadDesigns(file, { ...opts, family: "poisson" }, opts.model);
-  const entries = designs.map((design, i) => ({ design, mf: fitFamily(design, (fams.length === 1 ? fams[0] : fams[i]) as FamilyName, control, merge) }));
+  const entries = designs.map((design, i) => ({
+    design,
+    mf: fitFamily(design, (fams.length === 1 ? fams[0] : fams[i]) as FamilyName, control, merge),
+  }));
   const result = compareModels(entries);
   const content = opts.format === "json" ? renderJson(result) : renderCompareText(result, textLayout(opts));
   await emit(opts, content);
@@ -360,7 +512,12 @@ export function buildProgram(onResult: (code: number) => void): Command {
     .exitOverride()
     .configureOutput({ writeErr: (s) => process.stderr.write(s), writeOut: (s) => process.stdout.write(s) })
     .showHelpAfterError("(run tallyfit --help for the commands and options)");
-  addCommonOptions(program.command("fit").description("fit one model and print the report").argument("[file]", "CSV file, or - for standard input"))
+  addCommonOptions(
+    program
+      .command("fit")
+      .description("fit one model and print the report")
+      .argument("[file]", "CSV file, or - for standard input"),
+  )
     .option("--alpha <p>", "test level of the dispersion check used by --family auto", "0.05")
     .option("--save-model <file>", "write everything predict needs to FILE (JSON, schema tallyfit.model/1)")
     .option("--summary-by <col>", "observed and expected totals by group, with exact O/E limits")
@@ -393,19 +550,25 @@ export function buildProgram(onResult: (code: number) => void): Command {
       .argument("[file]", "CSV file, or - for standard input"),
   )
     .option("--alpha <p>", "test level: a test flags when its p-value is below this", "0.05")
-    .action(async (file: string | undefined, opts: CommonOptions & { alpha: string }) => onResult(await runCheck(file, opts)));
+    .action(async (file: string | undefined, opts: CommonOptions & { alpha: string }) =>
+      onResult(await runCheck(file, opts)),
+    );
   addCommonOptions(
     program
       .command("compare")
       .description("nested-model tests and information criteria for two or more models on the same rows")
       .argument("[file]", "CSV file, or - for standard input"),
     true,
-  ).action(async (file: string | undefined, opts: Omit<CommonOptions, "family"> & { family: string[] }) => onResult(await runCompare(file, opts)));
+  ).action(async (file: string | undefined, opts: Omit<CommonOptions, "family"> & { family: string[] }) =>
+    onResult(await runCompare(file, opts)),
+  );
   return program;
 }
 
+const ESC = String.fromCharCode(27);
+
 function stripAnsi(s: string): string {
-  return s.replace(/\x1b\[[0-9;]*m/g, "");
+  return s.replace(new RegExp(`${ESC}\\[[0-9;]*m`, "g"), "");
 }
 
 export async function main(argv: string[]): Promise<void> {
@@ -426,15 +589,20 @@ export async function main(argv: string[]): Promise<void> {
     await program.parseAsync(argv);
   } catch (e) {
     if (e instanceof CommanderError) {
-      code = e.code === "commander.helpDisplayed" || e.code === "commander.version" || e.code === "commander.help" ? EXIT.ok : EXIT.input;
+      code =
+        e.code === "commander.helpDisplayed" || e.code === "commander.version" || e.code === "commander.help"
+          ? EXIT.ok
+          : EXIT.input;
     } else if (e instanceof InputError || e instanceof FitError) {
       const kind = e instanceof FitError ? "the model could not be fitted" : "error";
       process.stderr.write(`tallyfit: ${kind}: ${stripAnsi(e.message)}\n`);
       code = e.exitCode;
     } else {
       const err = e as Error;
-      process.stderr.write(`tallyfit: internal error: ${err?.message ?? String(e)}\nThis is a bug in tallyfit; please report it with the command you ran.${debug ? "" : " (--debug shows the stack trace)"}\n`);
-      if (debug && err?.stack) process.stderr.write(err.stack + "\n");
+      process.stderr.write(
+        `tallyfit: internal error: ${err?.message ?? String(e)}\nThis is a bug in tallyfit; please report it with the command you ran.${debug ? "" : " (--debug shows the stack trace)"}\n`,
+      );
+      if (debug && err?.stack) process.stderr.write(`${err.stack}\n`);
       code = EXIT.internal;
     }
   }

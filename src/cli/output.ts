@@ -14,7 +14,15 @@ export async function writeAtomic(path: string, content: string | Uint8Array): P
     await unlink(tmp).catch(() => undefined);
     const code = (e as NodeJS.ErrnoException).code;
     const why =
-      code === "ENOENT" ? "the folder does not exist" : code === "EACCES" || code === "EPERM" ? "permission denied" : code === "ENOSPC" ? "the disk is full" : code === "EISDIR" ? "it is a folder" : String(code ?? e);
+      code === "ENOENT"
+        ? "the folder does not exist"
+        : code === "EACCES" || code === "EPERM"
+          ? "permission denied"
+          : code === "ENOSPC"
+            ? "the disk is full"
+            : code === "EISDIR"
+              ? "it is a folder"
+              : String(code ?? e);
     throw new InputError(`cannot write ${path} (${why}); any earlier file there is unchanged.`);
   }
 }

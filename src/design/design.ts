@@ -1,11 +1,11 @@
 // Design stage: model terms + typed columns → a row-sparse design matrix with
 // treatment (reference-level) coding, an offset, weights and the rows used.
 import { InputError } from "../errors.js";
-import { guessDelimiter, showDelimiter } from "../io/csv.js";
+import { guessDelimiter, showDelimiter } from "../io/dialect.js";
 import type { Column, FactorColumn, Table } from "../io/table.js";
 import { fileRow } from "../io/table.js";
-import type { ModelSpec } from "../model/formula.js";
-import { termVariables } from "../model/formula.js";
+import type { Formula } from "../formula/formula.js";
+import { termVariables } from "../formula/formula.js";
 import { closestName, listNames, naturalCompare } from "./naming.js";
 
 export interface DesignOptions {
@@ -52,7 +52,7 @@ export interface Slot {
   values: Float64Array | null;
 }
 
-export interface ModelMatrix {
+export interface DesignMatrix {
   n: number;
   p: number;
   slots: Slot[];
@@ -62,7 +62,7 @@ export interface ModelMatrix {
 
 export interface Design {
   source: string;
-  model: ModelSpec;
+  model: Formula;
   /** Data rows in the file. */
   nRows: number;
   /** Rows used in the fit. */
@@ -78,7 +78,7 @@ export interface Design {
   exposureName: string | null;
   offsetName: string | null;
   weightsName: string | null;
-  matrix: ModelMatrix;
+  matrix: DesignMatrix;
   columns: DesignColumn[];
   termLabels: string[];
   /** Design columns of each term. */
@@ -121,7 +121,7 @@ function numericValues(table: Table, col: Column, role: string): Float64Array {
 }
 
 /** Build the design matrix for a model on a table. */
-export function buildDesign(table: Table, model: ModelSpec, options: DesignOptions = {}): Design {
+export function buildDesign(table: Table, model: Formula, options: DesignOptions = {}): Design {
   const get = (name: string, role: string): Column => {
     const c = table.columns.get(name);
     if (!c) throw unknownColumn(table, name, role);
@@ -142,27 +142,40 @@ export function buildDesign(table: Table, model: ModelSpec, options: DesignOptio
     if (!c) throw unknownColumn(table, name, "--ref");
     if (!vars.includes(name)) throw new InputError(`--ref ${name}=...: '${name}' is not one of the model's terms.`);
     if (c.kind !== "factor")
-      throw new InputError(`--ref ${name}=...: '${name}' is numeric; a reference level applies to a factor (add --factor ${name} to treat it as one).`);
+      throw new InputError(
+        `--ref ${name}=...: '${name}' is numeric; a reference level applies to a factor (add --factor ${name} to treat it as one).`,
+      );
   }
 
   // Rows complete in every column the model uses.
   const N = table.nRows;
   const usable = new Uint8Array(N).fill(1);
   const missingIn = (c: Column) => {
-    if (c.kind === "numeric") { for (let i = 0; i < N; i++) if (Number.isNaN(c.values[i])) usable[i] = 0; }
-    else for (let i = 0; i < N; i++) if (c.codes[i] < 0) usable[i] = 0;
+    if (c.kind === "numeric") {
+      for (let i = 0; i < N; i++) if (Number.isNaN(c.values[i])) usable[i] = 0;
+    } else for (let i = 0; i < N; i++) if (c.codes[i] < 0) usable[i] = 0;
   };
   const extra = (options.complete ?? []).filter((c) => !vars.includes(c)).map((c) => get(c, "model"));
   for (const c of [response, ...varCols, exposureCol, offsetCol, weightsCol, ...extra]) if (c) missingIn(c);
   let missing = 0;
   const missingRows: number[] = [];
-  for (let i = 0; i < N; i++) if (!usable[i]) { missing++; if (missingRows.length < 3) missingRows.push(i); }
+  for (let i = 0; i < N; i++)
+    if (!usable[i]) {
+      missing++;
+      if (missingRows.length < 3) missingRows.push(i);
+    }
   const hasMissing = (c: Column): boolean => {
-    if (c.kind === "numeric") { for (let i = 0; i < N; i++) if (Number.isNaN(c.values[i])) return true; }
-    else for (let i = 0; i < N; i++) if (c.codes[i] < 0) return true;
+    if (c.kind === "numeric") {
+      for (let i = 0; i < N; i++) if (Number.isNaN(c.values[i])) return true;
+    } else for (let i = 0; i < N; i++) if (c.codes[i] < 0) return true;
     return false;
   };
-  const missingCols = missing === 0 ? [] : [response, ...varCols, exposureCol, offsetCol, weightsCol, ...extra].filter((c): c is Column => !!c && hasMissing(c)).map((c) => c.name);
+  const missingCols =
+    missing === 0
+      ? []
+      : [response, ...varCols, exposureCol, offsetCol, weightsCol, ...extra]
+          .filter((c): c is Column => !!c && hasMissing(c))
+          .map((c) => c.name);
 
   // Count, exposure and weight checks on complete rows.
   const badCount: number[] = [];
@@ -173,16 +186,32 @@ export function buildDesign(table: Table, model: ModelSpec, options: DesignOptio
   for (let i = 0; i < N; i++) {
     if (!usable[i]) continue;
     const y = yAll[i];
-    if (y < 0 || !Number.isInteger(y)) { badCount.push(i); continue; }
+    if (y < 0 || !Number.isInteger(y)) {
+      badCount.push(i);
+      continue;
+    }
     if (expAll) {
       const e = expAll[i];
-      if (e < 0 || (e === 0 && y > 0)) { badExposure.push(i); continue; }
-      if (e === 0) { usable[i] = 0; zeroExp++; continue; }
+      if (e < 0 || (e === 0 && y > 0)) {
+        badExposure.push(i);
+        continue;
+      }
+      if (e === 0) {
+        usable[i] = 0;
+        zeroExp++;
+        continue;
+      }
     }
     if (wAll) {
       const w = wAll[i];
-      if (w < 0) { negWeight.push(i); continue; }
-      if (w === 0) { usable[i] = 0; zeroW++; }
+      if (w < 0) {
+        negWeight.push(i);
+        continue;
+      }
+      if (w === 0) {
+        usable[i] = 0;
+        zeroW++;
+      }
     }
   }
   if (badCount.length > 0) {
@@ -213,8 +242,14 @@ export function buildDesign(table: Table, model: ModelSpec, options: DesignOptio
     notices.push(
       `${missing} row${missing === 1 ? " has" : "s have"} a missing value in a column the model uses (${[...new Set(missingCols)].join(", ")}; rows ${firstRows(missingRows.map(fileRow))}${missing > 3 ? ", …" : ""}) and ${missing === 1 ? "was" : "were"} left out`,
     );
-  if (zeroExp > 0) notices.push(`${zeroExp} row${zeroExp === 1 ? " has" : "s have"} zero exposure and a zero count; ${zeroExp === 1 ? "it carries" : "they carry"} no information and ${zeroExp === 1 ? "was" : "were"} left out`);
-  if (zeroW > 0) notices.push(`${zeroW} row${zeroW === 1 ? " has" : "s have"} weight 0 and ${zeroW === 1 ? "was" : "were"} left out`);
+  if (zeroExp > 0)
+    notices.push(
+      `${zeroExp} row${zeroExp === 1 ? " has" : "s have"} zero exposure and a zero count; ${zeroExp === 1 ? "it carries" : "they carry"} no information and ${zeroExp === 1 ? "was" : "were"} left out`,
+    );
+  if (zeroW > 0)
+    notices.push(
+      `${zeroW} row${zeroW === 1 ? " has" : "s have"} weight 0 and ${zeroW === 1 ? "was" : "were"} left out`,
+    );
   if (n === 0) {
     throw new InputError(
       `${table.source}: no rows are left to fit (${N} read; ${missing} with missing values, ${zeroExp} with zero exposure and zero count, ${zeroW} with weight 0).`,
@@ -223,7 +258,9 @@ export function buildDesign(table: Table, model: ModelSpec, options: DesignOptio
   let anyEvent = false;
   for (let i = 0; i < N && !anyEvent; i++) if (usable[i] && yAll[i] > 0) anyEvent = true;
   if (!anyEvent)
-    throw new InputError(`${table.source}: the count column '${model.response}' is 0 in every row used (${n} rows); with no events there is no rate to model.`);
+    throw new InputError(
+      `${table.source}: the count column '${model.response}' is 0 in every row used (${n} rows); with no events there is no rate to model.`,
+    );
   const rowIndex = new Int32Array(n);
   for (let i = 0, k = 0; i < N; i++) if (usable[i]) rowIndex[k++] = i;
   // When every row is used the table's own columns serve (no stage writes into its inputs).
@@ -248,9 +285,15 @@ export function buildDesign(table: Table, model: ModelSpec, options: DesignOptio
     factors.set(v, codeFactor(table, c, rowIndex, options.refs?.[v]));
   });
 
-  const { columns, slots, termColumns, interceptCol } = layoutColumns(model, factors, (v) => pick((table.columns.get(v) as { values: Float64Array }).values), n);
+  const { columns, slots, termColumns, interceptCol } = layoutColumns(
+    model,
+    factors,
+    (v) => pick((table.columns.get(v) as { values: Float64Array }).values),
+    n,
+  );
   const p = columns.length;
-  if (p === 0) throw new InputError("--model: the model has no terms and no intercept; add a term or drop --no-intercept.");
+  if (p === 0)
+    throw new InputError("--model: the model has no terms and no intercept; add a term or drop --no-intercept.");
   const nEff = weights ? weights.reduce((a, b) => a + b, 0) : n;
   if (p > nEff) {
     throw new InputError(
@@ -288,7 +331,7 @@ export function buildDesign(table: Table, model: ModelSpec, options: DesignOptio
  * prediction so both lay out columns identically.
  */
 export function layoutColumns(
-  model: ModelSpec,
+  model: Formula,
   factors: Map<string, { coding: FactorCoding; codes: Int32Array }>,
   numeric: (name: string) => Float64Array,
   n: number,
@@ -309,7 +352,10 @@ export function layoutColumns(
       const f = factors.get(v);
       if (!f) return { kind: "numeric" as const, name: v, values: numeric(v) };
       // Contrasts when the term without this factor is in the model (its margin), else full indicators.
-      const rest = term.variables.filter((u) => u !== v).sort().join("\u0000");
+      const rest = term.variables
+        .filter((u) => u !== v)
+        .sort()
+        .join("\u0000");
       const contrast = termKeys.has(rest);
       const coded = contrast ? f.coding.levels.filter((l) => l !== f.coding.reference) : f.coding.levels;
       const refIdx = f.coding.levels.indexOf(f.coding.reference);
@@ -317,7 +363,12 @@ export function layoutColumns(
       return { kind: "factor" as const, name: v, coded, map, codes: f.codes };
     });
     // Column names: Cartesian product of coded levels, first factor varying slowest.
-    const factorParts = parts.filter((p) => p.kind === "factor") as { name: string; coded: string[]; map: number[]; codes: Int32Array }[];
+    const factorParts = parts.filter((p) => p.kind === "factor") as {
+      name: string;
+      coded: string[];
+      map: number[];
+      codes: Int32Array;
+    }[];
     const numericParts = parts.filter((p) => p.kind === "numeric") as { name: string; values: Float64Array }[];
     const sizes = factorParts.map((p) => p.coded.length);
     const total = sizes.reduce((a, b) => a * b, 1);
@@ -326,7 +377,10 @@ export function layoutColumns(
     for (let c = 0; c < total; c++) {
       let rem = c;
       const idx: number[] = new Array(sizes.length);
-      for (let k = sizes.length - 1; k >= 0; k--) { idx[k] = rem % sizes[k]; rem = Math.floor(rem / sizes[k]); }
+      for (let k = sizes.length - 1; k >= 0; k--) {
+        idx[k] = rem % sizes[k];
+        rem = Math.floor(rem / sizes[k]);
+      }
       const levels = factorParts.map((p, k) => ({ factor: p.name, level: p.coded[idx[k]] }));
       const name = parts
         .map((p) => (p.kind === "numeric" ? p.name : `${p.name}=${levels.find((l) => l.factor === p.name)!.level}`))
@@ -355,7 +409,10 @@ export function layoutColumns(
         let none = false;
         for (let f = 0; f < factorParts.length; f++) {
           const m = factorParts[f].map[factorParts[f].codes[k]];
-          if (m < 0) { none = true; break; }
+          if (m < 0) {
+            none = true;
+            break;
+          }
           c = c * sizes[f] + m;
         }
         rowCols[k] = none ? -1 : base + c;
@@ -366,7 +423,12 @@ export function layoutColumns(
   return { columns, slots, termColumns, interceptCol };
 }
 
-function codeFactor(table: Table, c: FactorColumn, rowIndex: Int32Array, ref: string | undefined): { coding: FactorCoding; codes: Int32Array } {
+function codeFactor(
+  table: Table,
+  c: FactorColumn,
+  rowIndex: Int32Array,
+  ref: string | undefined,
+): { coding: FactorCoding; codes: Int32Array } {
   const present = new Uint8Array(c.levels.length);
   for (let k = 0; k < rowIndex.length; k++) present[c.codes[rowIndex[k]]] = 1;
   const levels = c.levels.filter((_, i) => present[i]).sort(naturalCompare);

@@ -48,7 +48,10 @@ export function closestName(name: string, candidates: string[]): string | null {
   let bestD = Infinity;
   for (const c of candidates) {
     const d = editDistance(name.toLowerCase(), c.toLowerCase());
-    if (d < bestD) { bestD = d; best = c; }
+    if (d < bestD) {
+      bestD = d;
+      best = c;
+    }
   }
   if (best === null) return null;
   return bestD <= Math.max(1, Math.floor(name.length / 3)) && bestD < name.length ? best : null;

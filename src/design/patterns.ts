@@ -38,8 +38,12 @@ function rowKeys(design: Design, by: PatternKey): { factorKey: Float64Array | nu
     factorKey = new Float64Array(n);
     let radix = 1;
     for (const s of factorSlots) {
-      const cols = s.cols!, start = s.colStart;
-      for (let i = 0; i < n; i++) { const c = cols[i]; factorKey[i] += (c < 0 ? 0 : c - start + 1) * radix; }
+      const cols = s.cols!,
+        start = s.colStart;
+      for (let i = 0; i < n; i++) {
+        const c = cols[i];
+        factorKey[i] += (c < 0 ? 0 : c - start + 1) * radix;
+      }
       radix *= s.colCount + 1;
       if (radix > 2 ** 53) return null;
     }
@@ -50,9 +54,14 @@ function rowKeys(design: Design, by: PatternKey): { factorKey: Float64Array | nu
 /** The numeric arrays of a row's key, each once: slot values, and for the NB also the offset and the count. */
 function numericKeys(design: Design, by: PatternKey): Float64Array[] {
   const numeric: Float64Array[] = [];
-  const add = (a: Float64Array | null) => { if (a !== null && !numeric.includes(a)) numeric.push(a); };
+  const add = (a: Float64Array | null) => {
+    if (a !== null && !numeric.includes(a)) numeric.push(a);
+  };
   for (const s of design.matrix.slots) add(s.values);
-  if (by !== "covariates") { add(design.offset); add(design.y); }
+  if (by !== "covariates") {
+    add(design.offset);
+    add(design.y);
+  }
   return numeric;
 }
 
@@ -68,28 +77,37 @@ function numericKeys(design: Design, by: PatternKey): Float64Array[] {
 export function estimatePatterns(design: Design, by: PatternKey, sample = 20000): number {
   const n = design.n;
   // The key of rowKeys, with each factor slot's columns read directly, only at the sampled rows.
-  const cols: (Float64Array | Int32Array)[] = [...design.matrix.slots.flatMap((sl) => (sl.cols ? [sl.cols] : [])), ...numericKeys(design, by)];
+  const cols: (Float64Array | Int32Array)[] = [
+    ...design.matrix.slots.flatMap((sl) => (sl.cols ? [sl.cols] : [])),
+    ...numericKeys(design, by),
+  ];
   const m = Math.min(n, sample);
   // Keys by a 53-bit hash of their words (two FNV-1a variants): a collision among 20,000 keys has odds near 1e-8.
   const seen = new Set<number>();
-  const bits = new Float64Array(1), words = new Int32Array(bits.buffer);
+  const bits = new Float64Array(1),
+    words = new Int32Array(bits.buffer);
   for (let k = 0; k < m; k++) {
     const i = Math.floor((k * n) / m);
-    let h1 = -2128831035, h2 = 0x12345678;
+    let h1 = -2128831035,
+      h2 = 0x12345678;
     for (const c of cols) {
       bits[0] = c[i];
-      h1 = Math.imul(h1 ^ words[0], 16777619); h1 = Math.imul(h1 ^ words[1], 16777619);
-      h2 = Math.imul(h2 ^ words[1], 0x01000193 ^ 0x5bd1e995); h2 = Math.imul(h2 ^ words[0], 0x5bd1e995);
+      h1 = Math.imul(h1 ^ words[0], 16777619);
+      h1 = Math.imul(h1 ^ words[1], 16777619);
+      h2 = Math.imul(h2 ^ words[1], 0x01000193 ^ 0x5bd1e995);
+      h2 = Math.imul(h2 ^ words[0], 0x5bd1e995);
     }
     seen.add((h1 >>> 0) * 2097152 + ((h2 >>> 11) & 0x1fffff));
   }
   const d = seen.size;
   if (m === n) return d;
   if (d >= m) return Infinity;
-  let lo = d, hi = 1e15;
+  let lo = d,
+    hi = 1e15;
   for (let it = 0; it < 200 && hi - lo > 1e-9 * hi; it++) {
     const mid = 0.5 * (lo + hi);
-    if (mid * -Math.expm1(-m / mid) < d) lo = mid; else hi = mid;
+    if (mid * -Math.expm1(-m / mid) < d) lo = mid;
+    else hi = mid;
   }
   return hi;
 }
@@ -115,7 +133,8 @@ export function mergePatterns(design: Design, by: PatternKey, maxPatterns = desi
 
   // 1. Row hashes, column by column.
   const hash = new Int32Array(n).fill(-2128831035);
-  const bits = new Float64Array(1), words = new Int32Array(bits.buffer);
+  const bits = new Float64Array(1),
+    words = new Int32Array(bits.buffer);
   for (const col of cols)
     for (let i = 0; i < n; i++) {
       bits[0] = col[i];
@@ -125,7 +144,11 @@ export function mergePatterns(design: Design, by: PatternKey, maxPatterns = desi
     }
   for (let i = 0; i < n; i++) {
     let h = hash[i];
-    h ^= h >>> 16; h = Math.imul(h, 0x85ebca6b); h ^= h >>> 13; h = Math.imul(h, 0xc2b2ae35); h ^= h >>> 16;
+    h ^= h >>> 16;
+    h = Math.imul(h, 0x85ebca6b);
+    h ^= h >>> 13;
+    h = Math.imul(h, 0xc2b2ae35);
+    h ^= h >>> 16;
     hash[i] = h;
   }
 
@@ -143,14 +166,18 @@ export function mergePatterns(design: Design, by: PatternKey, maxPatterns = desi
   let table = new Int32Array(64);
   // 3. Rounds of consecutive partitions whose copied keys fit in ROUND_BYTES.
   for (let b0 = 0; b0 < B; ) {
-    let b1 = b0, rows = 0;
+    let b1 = b0,
+      rows = 0;
     while (b1 < B && (b1 === b0 || (rows + size[b1]) * (K + 2) * 8 <= ROUND_BYTES)) rows += size[b1++];
     const start = new Int32Array(b1 - b0 + 1);
     for (let b = b0; b < b1; b++) start[b - b0 + 1] = start[b - b0] + size[b];
     const next = start.slice(0, b1 - b0);
-    const rowOf = new Int32Array(rows), hashOf = new Int32Array(rows), keyOf = new Float64Array(rows * K);
+    const rowOf = new Int32Array(rows),
+      hashOf = new Int32Array(rows),
+      keyOf = new Float64Array(rows * K);
     for (let i = 0; i < n; i++) {
-      const h = hash[i], b = part(h);
+      const h = hash[i],
+        b = part(h);
       if (b < b0 || b >= b1) continue;
       const at = next[b - b0]++;
       rowOf[at] = i;
@@ -158,26 +185,35 @@ export function mergePatterns(design: Design, by: PatternKey, maxPatterns = desi
       for (let k = 0; k < K; k++) keyOf[at * K + k] = cols[k][i];
     }
     for (let b = b0; b < b1; b++) {
-      const lo = start[b - b0], hi = start[b - b0 + 1];
+      const lo = start[b - b0],
+        hi = start[b - b0 + 1];
       let cap = 16;
       while (cap < 2 * (hi - lo)) cap *= 2;
       if (table.length < cap) table = new Int32Array(cap);
       table.fill(-1, 0, cap);
       for (let at = lo; at < hi; at++) {
         const h = hashOf[at];
-        let slot = h & (cap - 1), id = -1;
+        let slot = h & (cap - 1),
+          id = -1;
         for (;;) {
           const t = table[slot];
           if (t < 0) break;
           let k = 0;
           while (k < K && patKeys[t * K + k] === keyOf[at * K + k]) k++;
-          if (k === K) { id = t; break; }
+          if (k === K) {
+            id = t;
+            break;
+          }
           slot = (slot + 1) & (cap - 1);
         }
         if (id < 0) {
           if (count >= maxPatterns) return null;
           id = count++;
-          if ((id + 1) * K > patKeys.length) { const pk = new Float64Array(patKeys.length * 2); pk.set(patKeys); patKeys = pk; }
+          if ((id + 1) * K > patKeys.length) {
+            const pk = new Float64Array(patKeys.length * 2);
+            pk.set(patKeys);
+            patKeys = pk;
+          }
           for (let k = 0; k < K; k++) patKeys[id * K + k] = keyOf[at * K + k];
           reps.push(rowOf[at]);
           table[slot] = id;
@@ -200,8 +236,16 @@ function patternDesign(design: Design, by: PatternKey, pattern: Int32Array, reps
   const P = reps.length;
   const n = design.n;
   const pw = design.weights;
-  const pickF = (a: Float64Array) => { const o = new Float64Array(P); for (let p = 0; p < P; p++) o[p] = a[reps[p]]; return o; };
-  const pickI = (a: Int32Array) => { const o = new Int32Array(P); for (let p = 0; p < P; p++) o[p] = a[reps[p]]; return o; };
+  const pickF = (a: Float64Array) => {
+    const o = new Float64Array(P);
+    for (let p = 0; p < P; p++) o[p] = a[reps[p]];
+    return o;
+  };
+  const pickI = (a: Int32Array) => {
+    const o = new Int32Array(P);
+    for (let p = 0; p < P; p++) o[p] = a[reps[p]];
+    return o;
+  };
   const shared = new Map<unknown, Float64Array | Int32Array>();
   const once = <T extends Float64Array | Int32Array>(a: T, f: (a: T) => T): T => {
     if (!shared.has(a)) shared.set(a, f(a));
@@ -217,9 +261,16 @@ function patternDesign(design: Design, by: PatternKey, pattern: Int32Array, reps
     // Y = Σ w·y; log E = log Σ w·exp(offset), by log-sum-exp so large offsets cannot overflow.
     y = new Float64Array(P);
     const top = new Float64Array(P).fill(-Infinity);
-    for (let i = 0; i < n; i++) { const p = pattern[i]; y[p] += (pw ? pw[i] : 1) * design.y[i]; if (design.offset[i] > top[p]) top[p] = design.offset[i]; }
+    for (let i = 0; i < n; i++) {
+      const p = pattern[i];
+      y[p] += (pw ? pw[i] : 1) * design.y[i];
+      if (design.offset[i] > top[p]) top[p] = design.offset[i];
+    }
     const sum = new Float64Array(P);
-    for (let i = 0; i < n; i++) { const p = pattern[i]; sum[p] += (pw ? pw[i] : 1) * Math.exp(design.offset[i] - top[p]); }
+    for (let i = 0; i < n; i++) {
+      const p = pattern[i];
+      sum[p] += (pw ? pw[i] : 1) * Math.exp(design.offset[i] - top[p]);
+    }
     offset = new Float64Array(P);
     for (let p = 0; p < P; p++) offset[p] = top[p] + Math.log(sum[p]);
     weights = null;
@@ -239,7 +290,10 @@ function patternDesign(design: Design, by: PatternKey, pattern: Int32Array, reps
     ...design,
     n: P,
     rowIndex: pickI(design.rowIndex),
-    y, offset, weights, exposure,
+    y,
+    offset,
+    weights,
+    exposure,
     matrix: { ...design.matrix, n: P, slots },
   };
 }

@@ -1,7 +1,7 @@
 // Count families with the log link. alpha = 0 is the Poisson; alpha > 0 is the
 // NB2 negative binomial, variance = mu + alpha·mu² (Cameron and Trivedi,
 // Regression Analysis of Count Data, 2nd ed., 2013, §3.3).
-import { digamma, lgamma, trigamma } from "../infer/distributions.js";
+import { digamma, lgamma, trigamma } from "../math/distributions.js";
 
 const maxCounts = new WeakMap<Float64Array, number>();
 const countCodes = new WeakMap<Float64Array, Int32Array | null>();
@@ -22,7 +22,10 @@ export function maxCount(y: Float64Array): number {
     for (let i = 0; i < y.length; i++) {
       const v = y[i];
       if (v > t) t = v;
-      if (v !== Math.floor(v)) { t = Infinity; break; }
+      if (v !== Math.floor(v)) {
+        t = Infinity;
+        break;
+      }
     }
     maxCounts.set(y, t);
   }
@@ -84,8 +87,13 @@ export function lgammaRatio(y: number, r: number): number {
 /** Σ_{j<y} 1/(r+j) and Σ_{j<y} 1/(r+j)², directly for small y, else by digamma/trigamma differences. */
 export function harmonic(y: number, r: number): [number, number] {
   if (y <= 16 || (y <= 256 && r > 1e5)) {
-    let d = 0, e = 0;
-    for (let j = 0; j < y; j++) { const t = 1 / (r + j); d += t; e += t * t; }
+    let d = 0,
+      e = 0;
+    for (let j = 0; j < y; j++) {
+      const t = 1 / (r + j);
+      d += t;
+      e += t * t;
+    }
     return [d, e];
   }
   return [digamma(y + r) - digamma(r), trigamma(r) - trigamma(y + r)];
@@ -93,14 +101,30 @@ export function harmonic(y: number, r: number): [number, number] {
 
 /** Harmonic sums Σ_{j<k} 1/(r+j) and Σ_{j<k} 1/(r+j)² for k = 0 … top. */
 export function harmonicTables(top: number, r: number): { d: Float64Array; e: Float64Array } {
-  const tabD = new Float64Array(top + 1), tabE = new Float64Array(top + 1);
-  let d = 0, e = 0;
+  const tabD = new Float64Array(top + 1),
+    tabE = new Float64Array(top + 1);
+  let d = 0,
+    e = 0;
   for (let k = 0; k <= top; k++) {
-    if (k > 0) { const t = 1 / (r + k - 1); d += t; e += t * t; }
-    tabD[k] = d; tabE[k] = e;
+    if (k > 0) {
+      const t = 1 / (r + k - 1);
+      d += t;
+      e += t * t;
+    }
+    tabD[k] = d;
+    tabE[k] = e;
   }
   // Long running sums drift by rounding: refresh the tail from digamma/trigamma.
-  for (let k = 64; k <= top; k += 64) { const [dd, ee] = harmonic(k, r); tabD[k] = dd; tabE[k] = ee; for (let j = k + 1; j < Math.min(top + 1, k + 64); j++) { const t = 1 / (r + j - 1); tabD[j] = tabD[j - 1] + t; tabE[j] = tabE[j - 1] + t * t; } }
+  for (let k = 64; k <= top; k += 64) {
+    const [dd, ee] = harmonic(k, r);
+    tabD[k] = dd;
+    tabE[k] = ee;
+    for (let j = k + 1; j < Math.min(top + 1, k + 64); j++) {
+      const t = 1 / (r + j - 1);
+      tabD[j] = tabD[j - 1] + t;
+      tabE[j] = tabE[j - 1] + t * t;
+    }
+  }
   return { d: tabD, e: tabE };
 }
 

@@ -2,11 +2,18 @@
 // Wedderburn 1972; McCullagh and Nelder, Generalized Linear Models, 2nd ed.,
 // 1989, §2.5), with step-halving when the deviance rises or turns non-finite
 // and convergence on the relative change in deviance.
-import type { ModelMatrix } from "../design/design.js";
+import type { DesignMatrix } from "../design/design.js";
 import { FitError } from "../errors.js";
-import type { SymMatrix } from "../linalg/dense.js";
-import { cholesky, choleskyInverse, choleskySolve, congruence, screenRank } from "../linalg/dense.js";
-import { alphaDerivativesFromSums, countIndex, harmonicTables, maxCount, negbinCountTerms, unitDeviance } from "./family.js";
+import type { SymMatrix } from "../math/linalg.js";
+import { cholesky, choleskyInverse, choleskySolve, congruence, screenRank } from "../math/linalg.js";
+import {
+  alphaDerivativesFromSums,
+  countIndex,
+  harmonicTables,
+  maxCount,
+  negbinCountTerms,
+  unitDeviance,
+} from "./family.js";
 
 export interface FitControl {
   maxIter: number;
@@ -114,13 +121,20 @@ export interface FitSetup {
   slotValues?: (ScaledValues | null)[];
 }
 
-function compiledOf(m: ModelMatrix, setup: FitSetup): CompiledSlot[] {
-  if (!setup.compiled) setup.compiled = compileSlots(m, { inFit: setup.inFit, active: setup.active, q: setup.order.length, center: setup.center, scale: setup.scale });
+function compiledOf(m: DesignMatrix, setup: FitSetup): CompiledSlot[] {
+  if (!setup.compiled)
+    setup.compiled = compileSlots(m, {
+      inFit: setup.inFit,
+      active: setup.active,
+      q: setup.order.length,
+      center: setup.center,
+      scale: setup.scale,
+    });
   return setup.compiled;
 }
 
 /** off += Σ_c value_c · x_c over the fixed columns, one pass per slot that holds any of them. */
-export function addFixedOffset(m: ModelMatrix, fixed: Map<number, number>, off: Float64Array): void {
+export function addFixedOffset(m: DesignMatrix, fixed: Map<number, number>, off: Float64Array): void {
   for (const s of m.slots) {
     let any = false;
     for (const c of fixed.keys()) if (c >= s.colStart && c < s.colStart + s.colCount) any = true;
@@ -137,7 +151,7 @@ export function addFixedOffset(m: ModelMatrix, fixed: Map<number, number>, off: 
 }
 
 /** Column sums Σ_i x_ic of the given columns, one pass per slot. */
-export function columnSums(m: ModelMatrix, cols: number[]): Map<number, number> {
+export function columnSums(m: DesignMatrix, cols: number[]): Map<number, number> {
   const want = new Set(cols);
   const out = new Map<number, number>(cols.map((c) => [c, 0]));
   for (const s of m.slots) {
@@ -153,7 +167,7 @@ export function columnSums(m: ModelMatrix, cols: number[]): Map<number, number> 
 }
 
 /** Raw values of design column c in every row (0 where the column is absent). */
-export function columnValues(m: ModelMatrix, c: number): Float64Array {
+export function columnValues(m: DesignMatrix, c: number): Float64Array {
   const out = new Float64Array(m.n);
   for (const s of m.slots) {
     if (c < s.colStart || c >= s.colStart + s.colCount) continue;
@@ -177,7 +191,7 @@ export function columnValues(m: ModelMatrix, c: number): Float64Array {
  * 3. Linearly dependent columns are found by a rank-screening Cholesky of the
  *    weighted cross-product matrix and marked `aliased`.
  */
-export function prepareFit(m: ModelMatrix, data: FitData, fixed?: Map<number, number>): FitSetup {
+export function prepareFit(m: DesignMatrix, data: FitData, fixed?: Map<number, number>): FitSetup {
   const { n, p } = m;
   const pw = data.weights;
   const status: CoefStatus[] = new Array(p).fill("estimated");
@@ -201,14 +215,20 @@ export function prepareFit(m: ModelMatrix, data: FitData, fixed?: Map<number, nu
   for (const s of m.slots) {
     if (s.cols === null || s.values !== null) continue;
     for (let c = s.colStart; c < s.colStart + s.colCount; c++)
-      if (count[c] > 0 && sumY[c] === 0 && status[c] === "estimated") { status[c] = "no_events"; dead[c] = 1; }
+      if (count[c] > 0 && sumY[c] === 0 && status[c] === "estimated") {
+        status[c] = "no_events";
+        dead[c] = 1;
+      }
   }
   let rowsAtZero = 0;
   for (const s of m.slots) {
     if (s.cols === null || s.values !== null) continue;
     for (let i = 0; i < n; i++) {
       const c = s.cols[i];
-      if (c >= 0 && dead[c] && inFit[i]) { inFit[i] = 0; rowsAtZero++; }
+      if (c >= 0 && dead[c] && inFit[i]) {
+        inFit[i] = 0;
+        rowsAtZero++;
+      }
     }
   }
 
@@ -219,13 +239,23 @@ export function prepareFit(m: ModelMatrix, data: FitData, fixed?: Map<number, nu
   for (const s of m.slots) {
     if (s.values === null) continue;
     const v = s.values;
-    let sw = 0, sx = 0;
-    for (let i = 0; i < n; i++) if (inFit[i]) { const w = pw ? pw[i] : 1; sw += w; sx += w * v[i]; }
+    let sw = 0,
+      sx = 0;
+    for (let i = 0; i < n; i++)
+      if (inFit[i]) {
+        const w = pw ? pw[i] : 1;
+        sw += w;
+        sx += w * v[i];
+      }
     if (sw === 0) continue;
     if (s.cols === null && freeIntercept) {
       const mean = sx / sw;
       let ss = 0;
-      for (let i = 0; i < n; i++) if (inFit[i]) { const d = v[i] - mean; ss += (pw ? pw[i] : 1) * d * d; }
+      for (let i = 0; i < n; i++)
+        if (inFit[i]) {
+          const d = v[i] - mean;
+          ss += (pw ? pw[i] : 1) * d * d;
+        }
       const sd = Math.sqrt(ss / sw);
       center[s.colStart] = mean;
       scale[s.colStart] = sd > 0 ? sd : 1;
@@ -246,13 +276,25 @@ export function prepareFit(m: ModelMatrix, data: FitData, fixed?: Map<number, nu
   const slotValues = scaledValues(m, center, scale);
   const gram = cellsCand
     ? crossProductsCells(slotValues, cellsCand, n, cand.length, pw, null)
-    : crossProductsCompiled(compileSlots(m, { inFit, active: candPos, q: cand.length, center, scale }), n, cand.length, pw ?? new Float64Array(n).fill(1), null);
+    : crossProductsCompiled(
+        compileSlots(m, { inFit, active: candPos, q: cand.length, center, scale }),
+        n,
+        cand.length,
+        pw ?? new Float64Array(n).fill(1),
+        null,
+      );
   const keep = screenRank(gram.a);
-  cand.forEach((c, k) => { if (!keep[k]) status[c] = "aliased"; });
+  cand.forEach((c, k) => {
+    if (!keep[k]) status[c] = "aliased";
+  });
 
   const active = new Int32Array(p).fill(-1);
   const order: number[] = [];
-  for (let c = 0; c < p; c++) if (status[c] === "estimated") { active[c] = order.length; order.push(c); }
+  for (let c = 0; c < p; c++)
+    if (status[c] === "estimated") {
+      active[c] = order.length;
+      order.push(c);
+    }
   return { status, inFit, active, order, center, scale, rowsAtZero, parentCells: cellsCand, slotValues };
 }
 
@@ -265,8 +307,23 @@ export function deriveSetup(setup: FitSetup, fixedCols: number[]): FitSetup {
   for (const c of fixedCols) status[c] = "fixed";
   const active = new Int32Array(status.length).fill(-1);
   const order: number[] = [];
-  status.forEach((st, c) => { if (st === "estimated") { active[c] = order.length; order.push(c); } });
-  return { status, inFit: setup.inFit, active, order, center: setup.center, scale: setup.scale, rowsAtZero: setup.rowsAtZero, parentCells: setup.cells ?? setup.parentCells ?? null, slotValues: setup.slotValues };
+  status.forEach((st, c) => {
+    if (st === "estimated") {
+      active[c] = order.length;
+      order.push(c);
+    }
+  });
+  return {
+    status,
+    inFit: setup.inFit,
+    active,
+    order,
+    center: setup.center,
+    scale: setup.scale,
+    rowsAtZero: setup.rowsAtZero,
+    parentCells: setup.cells ?? setup.parentCells ?? null,
+    slotValues: setup.slotValues,
+  };
 }
 
 export interface Layout {
@@ -287,21 +344,28 @@ export interface CompiledSlot {
   val: Float64Array | null;
 }
 
-export function compileSlots(m: ModelMatrix, lay: Layout): CompiledSlot[] {
+export function compileSlots(m: DesignMatrix, lay: Layout): CompiledSlot[] {
   const n = m.n;
   return m.slots.map((slot) => {
     const pos = new Int32Array(n);
     const cols = slot.cols;
     const fixed = lay.active[slot.colStart];
     for (let i = 0; i < n; i++) {
-      if (!lay.inFit[i]) { pos[i] = -1; continue; }
+      if (!lay.inFit[i]) {
+        pos[i] = -1;
+        continue;
+      }
       if (cols === null) pos[i] = fixed;
-      else { const c = cols[i]; pos[i] = c < 0 ? -1 : lay.active[c]; }
+      else {
+        const c = cols[i];
+        pos[i] = c < 0 ? -1 : lay.active[c];
+      }
     }
     let val: Float64Array | null = null;
     if (slot.values !== null) {
       // Centre and scale are shared by all columns of a slot.
-      const c0 = lay.center[slot.colStart], s0 = lay.scale[slot.colStart];
+      const c0 = lay.center[slot.colStart],
+        s0 = lay.scale[slot.colStart];
       val = new Float64Array(n);
       const v = slot.values;
       for (let i = 0; i < n; i++) val[i] = (v[i] - c0) / s0;
@@ -314,14 +378,21 @@ export function compileSlots(m: ModelMatrix, lay: Layout): CompiledSlot[] {
  * X'WX and X'Wz over the estimated columns of a fit's setup, in its scaled
  * coordinates: from the setup's cells when it has them, else row by row.
  */
-export function setupCrossProducts(m: ModelMatrix, setup: FitSetup, w: Float64Array, z: Float64Array | null): { a: SymMatrix; b: Float64Array } {
+export function setupCrossProducts(
+  m: DesignMatrix,
+  setup: FitSetup,
+  w: Float64Array,
+  z: Float64Array | null,
+): { a: SymMatrix; b: Float64Array } {
   const q = setup.order.length;
   const cells = cellsOf(m, setup);
-  return cells ? crossProductsCells(slotValuesOf(m, setup), cells, m.n, q, w, z) : crossProductsCompiled(compiledOf(m, setup), m.n, q, w, z);
+  return cells
+    ? crossProductsCells(slotValuesOf(m, setup), cells, m.n, q, w, z)
+    : crossProductsCompiled(compiledOf(m, setup), m.n, q, w, z);
 }
 
 /** The setup's cells, built or derived from its parent's on first use (null: too many to help). */
-function cellsOf(m: ModelMatrix, setup: FitSetup): CellLayout | null {
+function cellsOf(m: DesignMatrix, setup: FitSetup): CellLayout | null {
   if (setup.cells === undefined)
     setup.cells = setup.parentCells
       ? recellPositions(m, setup.parentCells, setup.active)
@@ -331,8 +402,9 @@ function cellsOf(m: ModelMatrix, setup: FitSetup): CellLayout | null {
   return setup.cells;
 }
 
-function slotValuesOf(m: ModelMatrix, setup: FitSetup): (ScaledValues | null)[] {
-  return (setup.slotValues ??= scaledValues(m, setup.center, setup.scale));
+function slotValuesOf(m: DesignMatrix, setup: FitSetup): (ScaledValues | null)[] {
+  if (!setup.slotValues) setup.slotValues = scaledValues(m, setup.center, setup.scale);
+  return setup.slotValues;
 }
 
 /**
@@ -346,9 +418,11 @@ export interface ScaledValues {
   scale: number;
 }
 
-function scaledValues(m: ModelMatrix, center: Float64Array, scale: Float64Array): (ScaledValues | null)[] {
+function scaledValues(m: DesignMatrix, center: Float64Array, scale: Float64Array): (ScaledValues | null)[] {
   // Centre and scale are shared by all columns of a slot.
-  return m.slots.map((s) => (s.values === null ? null : { raw: s.values, center: center[s.colStart], scale: scale[s.colStart] }));
+  return m.slots.map((s) =>
+    s.values === null ? null : { raw: s.values, center: center[s.colStart], scale: scale[s.colStart] },
+  );
 }
 
 /** More cells than this and the row-by-row path is used instead. */
@@ -375,8 +449,14 @@ export interface CellLayout {
   reps: Int32Array;
 }
 
-export function buildCells(m: ModelMatrix, inFit: Uint8Array, active: Int32Array, maxCells: number): CellLayout | null {
-  const n = m.n, k = m.slots.length;
+export function buildCells(
+  m: DesignMatrix,
+  inFit: Uint8Array,
+  active: Int32Array,
+  maxCells: number,
+): CellLayout | null {
+  const n = m.n,
+    k = m.slots.length;
   // The key of a row: the column each factor slot puts it in (0 for none), in mixed radix.
   const varying = m.slots.filter((sl) => sl.cols !== null);
   let radix = 1;
@@ -390,11 +470,18 @@ export function buildCells(m: ModelMatrix, inFit: Uint8Array, active: Int32Array
   const cell = new Int32Array(n);
   const reps: number[] = [];
   const nv = varying.length;
-  const colsOf = varying.map((sl) => sl.cols!), startOf = varying.map((sl) => sl.colStart);
+  const colsOf = varying.map((sl) => sl.cols!),
+    startOf = varying.map((sl) => sl.colStart);
   for (let i = 0; i < n; i++) {
-    if (!inFit[i]) { cell[i] = -1; continue; }
+    if (!inFit[i]) {
+      cell[i] = -1;
+      continue;
+    }
     let key = 0;
-    for (let v = 0; v < nv; v++) { const c = colsOf[v][i]; key += (c < 0 ? 0 : c - startOf[v] + 1) * mult[v]; }
+    for (let v = 0; v < nv; v++) {
+      const c = colsOf[v][i];
+      key += (c < 0 ? 0 : c - startOf[v] + 1) * mult[v];
+    }
     let id = ids.get(key);
     if (id === undefined) {
       id = reps.length;
@@ -407,12 +494,19 @@ export function buildCells(m: ModelMatrix, inFit: Uint8Array, active: Int32Array
   const numeric = m.slots.map((sl, si) => (sl.values !== null ? si : -1)).filter((si) => si >= 0);
   const numericIndex = new Int32Array(k).fill(-1);
   numeric.forEach((si, j) => (numericIndex[si] = j));
-  const layout = { nCells: reps.length, cell, cellPos: new Int32Array(0), numeric, numericIndex, reps: Int32Array.from(reps) };
+  const layout = {
+    nCells: reps.length,
+    cell,
+    cellPos: new Int32Array(0),
+    numeric,
+    numericIndex,
+    reps: Int32Array.from(reps),
+  };
   return recellPositions(m, layout, active);
 }
 
 /** A parent's grouping with the positions of a derived setup (same rows per cell). */
-function recellPositions(m: ModelMatrix, parent: CellLayout, active: Int32Array): CellLayout {
+function recellPositions(m: DesignMatrix, parent: CellLayout, active: Int32Array): CellLayout {
   const k = m.slots.length;
   const cellPos = new Int32Array(parent.nCells * k);
   for (let c = 0; c < parent.nCells; c++) {
@@ -427,8 +521,11 @@ function recellPositions(m: ModelMatrix, parent: CellLayout, active: Int32Array)
 
 /** The per-cell constants of eta = offset + X·beta' (see CellLayout): the indicator part and each numeric slot's coefficient. */
 function cellCoefficients(L: CellLayout, slotVals: (ScaledValues | null)[], betaS: Float64Array) {
-  const k = slotVals.length, C = L.nCells, M = L.numeric.length;
-  const cst = new Float64Array(C), coef = new Float64Array(C * M);
+  const k = slotVals.length,
+    C = L.nCells,
+    M = L.numeric.length;
+  const cst = new Float64Array(C),
+    coef = new Float64Array(C * M);
   for (let c = 0; c < C; c++)
     for (let s = 0; s < k; s++) {
       const p = L.cellPos[c * k + s];
@@ -443,14 +540,26 @@ function cellCoefficients(L: CellLayout, slotVals: (ScaledValues | null)[], beta
 }
 
 /** eta = offset + X·beta' from the cells: a constant per cell plus the numeric slots (−∞ for rows out of the fit). */
-function linearPredictorCells(L: CellLayout, slotVals: (ScaledValues | null)[], betaS: Float64Array, off: Float64Array, eta: Float64Array): void {
+function linearPredictorCells(
+  L: CellLayout,
+  slotVals: (ScaledValues | null)[],
+  betaS: Float64Array,
+  off: Float64Array,
+  eta: Float64Array,
+): void {
   const { M, cst, coef, raws, cens } = cellCoefficients(L, slotVals, betaS);
-  const r0 = M > 0 ? raws[0] : off, c0 = M > 0 ? cens[0] : 0;
-  const r1 = M > 1 ? raws[1] : off, c1 = M > 1 ? cens[1] : 0;
-  const cell = L.cell, n = off.length;
+  const r0 = M > 0 ? raws[0] : off,
+    c0 = M > 0 ? cens[0] : 0;
+  const r1 = M > 1 ? raws[1] : off,
+    c1 = M > 1 ? cens[1] : 0;
+  const cell = L.cell,
+    n = off.length;
   for (let i = 0; i < n; i++) {
     const c = cell[i];
-    if (c < 0) { eta[i] = -Infinity; continue; }
+    if (c < 0) {
+      eta[i] = -Infinity;
+      continue;
+    }
     let e = off[i] + cst[c];
     if (M === 1) e += coef[c] * (r0[i] - c0);
     else if (M === 2) e += coef[2 * c] * (r0[i] - c0) + coef[2 * c + 1] * (r1[i] - c1);
@@ -464,13 +573,28 @@ function linearPredictorCells(L: CellLayout, slotVals: (ScaledValues | null)[], 
  * totalDeviance): the pass that follows every IRLS step and step-halving.
  * The NB2 twin is predictCellsNegbin.
  */
-function predictCellsPoisson(L: CellLayout, slotVals: (ScaledValues | null)[], betaS: Float64Array, off: Float64Array, eta: Float64Array, mu: Float64Array, pw: Float64Array | null, tab: DevianceTable): number {
+function predictCellsPoisson(
+  L: CellLayout,
+  slotVals: (ScaledValues | null)[],
+  betaS: Float64Array,
+  off: Float64Array,
+  eta: Float64Array,
+  mu: Float64Array,
+  pw: Float64Array | null,
+  tab: DevianceTable,
+): number {
   linearPredictorCells(L, slotVals, betaS, off, eta);
-  const cell = L.cell, yl = tab.ylogy, cnt = tab.counts;
+  const cell = L.cell,
+    yl = tab.ylogy,
+    cnt = tab.counts;
   let d = 0;
   for (let i = 0; i < eta.length; i++) {
-    if (cell[i] < 0) { mu[i] = 0; continue; }
-    const e = eta[i], mi = Math.exp(e);
+    if (cell[i] < 0) {
+      mu[i] = 0;
+      continue;
+    }
+    const e = eta[i],
+      mi = Math.exp(e);
     mu[i] = mi;
     const y = cnt[i];
     const u = yl[y] - y * e - (y - mi);
@@ -489,9 +613,16 @@ interface AlphaSums {
   out: Float64Array;
 }
 
-function alphaSumsAt(y: Float64Array, alpha: number, want: boolean, out: Float64Array = new Float64Array(6)): AlphaSums {
-  if (!want) return { alpha, want, d: new Float64Array(0), e: new Float64Array(0), lgammaTerms: new Float64Array(0), out };
-  const top = maxCount(y), r = 1 / alpha;
+function alphaSumsAt(
+  y: Float64Array,
+  alpha: number,
+  want: boolean,
+  out: Float64Array = new Float64Array(6),
+): AlphaSums {
+  if (!want)
+    return { alpha, want, d: new Float64Array(0), e: new Float64Array(0), lgammaTerms: new Float64Array(0), out };
+  const top = maxCount(y),
+    r = 1 / alpha;
   return { alpha, want, ...harmonicTables(top, r), lgammaTerms: negbinCountTerms(top, r), out };
 }
 
@@ -502,30 +633,66 @@ function alphaSumsAt(y: Float64Array, alpha: number, want: boolean, out: Float64
  * computes log(1 + alpha·mu) anyway).
  */
 function predictCellsNegbin(
-  L: CellLayout, slotVals: (ScaledValues | null)[], betaS: Float64Array, off: Float64Array,
-  eta: Float64Array, mu: Float64Array, pw: Float64Array | null, alpha: number, tab: DevianceTable,
+  L: CellLayout,
+  slotVals: (ScaledValues | null)[],
+  betaS: Float64Array,
+  off: Float64Array,
+  eta: Float64Array,
+  mu: Float64Array,
+  pw: Float64Array | null,
+  alpha: number,
+  tab: DevianceTable,
   sums: AlphaSums,
 ): number {
   linearPredictorCells(L, slotVals, betaS, off, eta);
-  const cell = L.cell, yl = tab.ylogy, cnt = tab.counts, nb = tab.nb!, r = 1 / alpha;
-  const hd = sums.d, he = sums.e, lt = sums.lgammaTerms, want = sums.want, logAlpha = Math.log(alpha);
-  let d = 0, a1 = 0, a2 = 0, a3 = 0, a4 = 0, a5 = 0, ll = 0;
+  const cell = L.cell,
+    yl = tab.ylogy,
+    cnt = tab.counts,
+    nb = tab.nb!,
+    r = 1 / alpha;
+  const hd = sums.d,
+    he = sums.e,
+    lt = sums.lgammaTerms,
+    want = sums.want,
+    logAlpha = Math.log(alpha);
+  let d = 0,
+    a1 = 0,
+    a2 = 0,
+    a3 = 0,
+    a4 = 0,
+    a5 = 0,
+    ll = 0;
   for (let i = 0; i < eta.length; i++) {
-    if (cell[i] < 0) { mu[i] = 0; continue; }
-    const e = eta[i], mi = Math.exp(e);
+    if (cell[i] < 0) {
+      mu[i] = 0;
+      continue;
+    }
+    const e = eta[i],
+      mi = Math.exp(e);
     mu[i] = mi;
     const y = cnt[i];
     const wi = pw === null ? 1 : pw[i];
-    const am = alpha * mi, l = Math.log1p(am);
+    const am = alpha * mi,
+      l = Math.log1p(am);
     d += wi * (yl[y] - y * e - nb[y] + (y + r) * l);
     if (want && mi > 0) {
-      const iq = 1 / (1 + am), res = (y - mi) * iq;
-      a1 += wi * (l - hd[y]); a2 += wi * res; a3 += wi * mi * iq; a4 += wi * he[y]; a5 += wi * res * iq * (1 + 2 * am);
+      const iq = 1 / (1 + am),
+        res = (y - mi) * iq;
+      a1 += wi * (l - hd[y]);
+      a2 += wi * res;
+      a3 += wi * mi * iq;
+      a4 += wi * he[y];
+      a5 += wi * res * iq * (1 + 2 * am);
       ll += wi * (lt[y] - r * l + y * (logAlpha + e - l));
     }
   }
   const o = sums.out;
-  o[0] = a1; o[1] = a2; o[2] = a3; o[3] = a4; o[4] = a5; o[5] = ll;
+  o[0] = a1;
+  o[1] = a2;
+  o[2] = a3;
+  o[3] = a4;
+  o[4] = a5;
+  o[5] = ll;
   return 2 * d;
 }
 
@@ -546,24 +713,39 @@ export interface WorkingInputs {
 }
 
 /** X'WX and X'Wz from the cell sums (see CellLayout); w and z given as arrays or as their WorkingInputs (w null: every weight 1). */
-export function crossProductsCells(slotVals: (ScaledValues | null)[], L: CellLayout, n: number, q: number, w: Float64Array | WorkingInputs | null, z: Float64Array | null): { a: SymMatrix; b: Float64Array } {
+export function crossProductsCells(
+  slotVals: (ScaledValues | null)[],
+  L: CellLayout,
+  n: number,
+  q: number,
+  w: Float64Array | WorkingInputs | null,
+  z: Float64Array | null,
+): { a: SymMatrix; b: Float64Array } {
   const M = L.numeric.length;
   const MM = (M * (M + 1)) / 2;
   const C = L.nCells;
-  const s0 = new Float64Array(C), s1 = new Float64Array(C * M), s2 = new Float64Array(C * MM);
-  const z0 = new Float64Array(C), z1 = new Float64Array(C * M);
-  const raws = L.numeric.map((s) => slotVals[s]!.raw), cens = L.numeric.map((s) => slotVals[s]!.center), inv = L.numeric.map((s) => 1 / slotVals[s]!.scale);
+  const s0 = new Float64Array(C),
+    s1 = new Float64Array(C * M),
+    s2 = new Float64Array(C * MM);
+  const z0 = new Float64Array(C),
+    z1 = new Float64Array(C * M);
+  const raws = L.numeric.map((s) => slotVals[s]!.raw),
+    cens = L.numeric.map((s) => slotVals[s]!.center),
+    inv = L.numeric.map((s) => 1 / slotVals[s]!.scale);
   const cell = L.cell;
   const vi = new Float64Array(M);
   const work = w instanceof Float64Array || w === null ? null : w;
   const wArr = w instanceof Float64Array ? w : null;
-  const alpha = work ? work.alpha : 0, pw = work ? work.pw : null;
+  const alpha = work ? work.alpha : 0,
+    pw = work ? work.pw : null;
   for (let i = 0; i < n; i++) {
     const c = cell[i];
     if (c < 0) continue;
     let wi: number, zi: number;
-    if (work === null) { wi = wArr === null ? 1 : wArr[i]; zi = z === null ? 0 : z[i]; }
-    else {
+    if (work === null) {
+      wi = wArr === null ? 1 : wArr[i];
+      zi = z === null ? 0 : z[i];
+    } else {
       const m = work.mu[i];
       const base = alpha === 0 ? m : m / (1 + alpha * m);
       wi = pw === null ? base : pw[i] * base;
@@ -585,13 +767,16 @@ export function crossProductsCells(slotVals: (ScaledValues | null)[], L: CellLay
   const k = slotVals.length;
   const a = new Float64Array(q * q);
   const b = new Float64Array(q);
-  const pos = new Int32Array(k), num = new Int32Array(k);
+  const pos = new Int32Array(k),
+    num = new Int32Array(k);
   for (let c = 0; c < C; c++) {
     let na = 0;
     for (let s = 0; s < k; s++) {
       const p = L.cellPos[c * k + s];
       if (p < 0) continue;
-      pos[na] = p; num[na] = L.numericIndex[s]; na++;
+      pos[na] = p;
+      num[na] = L.numericIndex[s];
+      na++;
     }
     for (let u = 0; u < na; u++) {
       const mu_ = num[u];
@@ -602,9 +787,15 @@ export function crossProductsCells(slotVals: (ScaledValues | null)[], L: CellLay
         if (mu_ < 0 && mv < 0) val = s0[c];
         else if (mu_ < 0) val = s1[c * M + mv];
         else if (mv < 0) val = s1[c * M + mu_];
-        else { const hi = Math.max(mu_, mv), lo = Math.min(mu_, mv); val = s2[c * MM + (hi * (hi + 1)) / 2 + lo]; }
-        const r = pos[u], cc = pos[v];
-        if (r >= cc) a[r * q + cc] += val; else a[cc * q + r] += val;
+        else {
+          const hi = Math.max(mu_, mv),
+            lo = Math.min(mu_, mv);
+          val = s2[c * MM + (hi * (hi + 1)) / 2 + lo];
+        }
+        const r = pos[u],
+          cc = pos[v];
+        if (r >= cc) a[r * q + cc] += val;
+        else a[cc * q + r] += val;
       }
     }
   }
@@ -618,7 +809,13 @@ function onesOf(n: number): Float64Array {
   return onesCache;
 }
 
-export function crossProductsCompiled(cs: CompiledSlot[], n: number, q: number, w: Float64Array, z: Float64Array | null): { a: SymMatrix; b: Float64Array } {
+export function crossProductsCompiled(
+  cs: CompiledSlot[],
+  n: number,
+  q: number,
+  w: Float64Array,
+  z: Float64Array | null,
+): { a: SymMatrix; b: Float64Array } {
   const a = new Float64Array(q * q);
   const b = new Float64Array(q);
   const k = cs.length;
@@ -654,18 +851,47 @@ export function crossProductsCompiled(cs: CompiledSlot[], n: number, q: number, 
 }
 
 /** eta = offset + X·beta' (scaled coordinates) over the rows in the fit. */
-function linearPredictor(cs: CompiledSlot[], inFit: Uint8Array, betaS: Float64Array, off: Float64Array, eta: Float64Array): void {
+function linearPredictor(
+  cs: CompiledSlot[],
+  inFit: Uint8Array,
+  betaS: Float64Array,
+  off: Float64Array,
+  eta: Float64Array,
+): void {
   const n = off.length;
   for (let i = 0; i < n; i++) eta[i] = inFit[i] ? off[i] : -Infinity;
   for (const { pos, val } of cs) {
-    if (val === null) for (let i = 0; i < n; i++) { const p = pos[i]; if (p >= 0) eta[i] += betaS[p]; }
-    else for (let i = 0; i < n; i++) { const p = pos[i]; if (p >= 0) eta[i] += betaS[p] * val[i]; }
+    if (val === null)
+      for (let i = 0; i < n; i++) {
+        const p = pos[i];
+        if (p >= 0) eta[i] += betaS[p];
+      }
+    else
+      for (let i = 0; i < n; i++) {
+        const p = pos[i];
+        if (p >= 0) eta[i] += betaS[p] * val[i];
+      }
   }
 }
 
-function workingValues(n: number, inFit: Uint8Array, mu: Float64Array, eta: Float64Array, off: Float64Array, y: Float64Array, pw: Float64Array | null, alpha: number, w: Float64Array, z: Float64Array): void {
+function workingValues(
+  n: number,
+  inFit: Uint8Array,
+  mu: Float64Array,
+  eta: Float64Array,
+  off: Float64Array,
+  y: Float64Array,
+  pw: Float64Array | null,
+  alpha: number,
+  w: Float64Array,
+  z: Float64Array,
+): void {
   for (let i = 0; i < n; i++) {
-    if (!inFit[i]) { w[i] = 0; z[i] = 0; continue; }
+    if (!inFit[i]) {
+      w[i] = 0;
+      z[i] = 0;
+      continue;
+    }
     const m = mu[i];
     const wi = alpha === 0 ? m : m / (1 + alpha * m);
     w[i] = pw === null ? wi : pw[i] * wi;
@@ -678,7 +904,12 @@ function expInto(eta: Float64Array, inFit: Uint8Array, mu: Float64Array): void {
 }
 
 /** y-only parts of the unit deviance, tabulated by count (null when the counts cannot be tabulated). */
-interface DevianceTable { ylogy: Float64Array; nb: Float64Array | null; alpha: number; counts: Int32Array }
+interface DevianceTable {
+  ylogy: Float64Array;
+  nb: Float64Array | null;
+  alpha: number;
+  counts: Int32Array;
+}
 
 function devianceTable(y: Float64Array, alpha: number): DevianceTable | null {
   const counts = countIndex(y);
@@ -699,22 +930,34 @@ function devianceTable(y: Float64Array, alpha: number): DevianceTable | null {
  * Total deviance Σ w·d(y, mu), using log mu = eta: Poisson 2[y log y − y·eta − (y − mu)],
  * NB2 2[y log y − y·eta − (y + r){log(1 + alpha·y) − log(1 + alpha·mu)}].
  */
-function totalDeviance(y: Float64Array, mu: Float64Array, eta: Float64Array, pw: Float64Array | null, inFit: Uint8Array, alpha: number, tab: DevianceTable | null): number {
+function totalDeviance(
+  y: Float64Array,
+  mu: Float64Array,
+  eta: Float64Array,
+  pw: Float64Array | null,
+  inFit: Uint8Array,
+  alpha: number,
+  tab: DevianceTable | null,
+): number {
   let d = 0;
   if (tab) {
-    const yl = tab.ylogy, cnt = tab.counts;
+    const yl = tab.ylogy,
+      cnt = tab.counts;
     if (alpha === 0) {
       for (let i = 0; i < cnt.length; i++) {
         if (!inFit[i]) continue;
-        const k = cnt[i], m = mu[i];
+        const k = cnt[i],
+          m = mu[i];
         const u = yl[k] - k * eta[i] - (k - m);
         d += pw === null ? u : pw[i] * u;
       }
     } else {
-      const nb = tab.nb!, r = 1 / alpha;
+      const nb = tab.nb!,
+        r = 1 / alpha;
       for (let i = 0; i < cnt.length; i++) {
         if (!inFit[i]) continue;
-        const k = cnt[i], m = mu[i];
+        const k = cnt[i],
+          m = mu[i];
         const u = yl[k] - k * eta[i] - nb[k] + (k + r) * Math.log1p(alpha * m);
         d += pw === null ? u : pw[i] * u;
       }
@@ -726,12 +969,19 @@ function totalDeviance(y: Float64Array, mu: Float64Array, eta: Float64Array, pw:
 }
 
 /** Total deviance Σ w·d(y, mu) over the rows in the fit, given log mu = eta (see totalDeviance). */
-export function devianceAt(y: Float64Array, mu: Float64Array, eta: Float64Array, pw: Float64Array | null, inFit: Uint8Array, alpha: number): number {
+export function devianceAt(
+  y: Float64Array,
+  mu: Float64Array,
+  eta: Float64Array,
+  pw: Float64Array | null,
+  inFit: Uint8Array,
+  alpha: number,
+): number {
   return totalDeviance(y, mu, eta, pw, inFit, alpha, devianceTable(y, alpha));
 }
 
 /** Map scaled-coordinate coefficients of the active columns to the original scale (β = T β'). */
-export function transformMatrix(m: ModelMatrix, setup: FitSetup): Float64Array {
+export function transformMatrix(m: DesignMatrix, setup: FitSetup): Float64Array {
   const q = setup.order.length;
   const t = new Float64Array(q * q);
   const ic = m.interceptCol >= 0 ? setup.active[m.interceptCol] : -1;
@@ -743,7 +993,7 @@ export function transformMatrix(m: ModelMatrix, setup: FitSetup): Float64Array {
 }
 
 /** Fit a Poisson (alpha = 0) or NB2 model with known alpha by IRLS. */
-export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}): GlmFit {
+export function fitGlm(m: DesignMatrix, data: FitData, options: FitOptions = {}): GlmFit {
   let alpha = options.alpha ?? 0;
   const control = { ...DEFAULT_CONTROL, ...options.control };
   const setup = options.setup ?? prepareFit(m, data, options.fixed);
@@ -755,19 +1005,25 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
 
   // The offset is copied only when fixed coefficients add to it (columns held at 0, as in term tests, do not).
   let off = data.offset;
-  if (options.fixed && [...options.fixed.values()].some((v) => v !== 0)) { off = new Float64Array(data.offset); addFixedOffset(m, options.fixed, off); }
+  if (options.fixed && [...options.fixed.values()].some((v) => v !== 0)) {
+    off = new Float64Array(data.offset);
+    addFixedOffset(m, options.fixed, off);
+  }
 
   const cells = cellsOf(m, setup);
   const vals = slotValuesOf(m, setup);
   const cs = cells ? null : compiledOf(m, setup);
-  const linpred = (b_: Float64Array, e_: Float64Array) => (cells ? linearPredictorCells(cells, vals, b_, off, e_) : linearPredictor(cs!, inFit, b_, off, e_));
+  const linpred = (b_: Float64Array, e_: Float64Array) =>
+    cells ? linearPredictorCells(cells, vals, b_, off, e_) : linearPredictor(cs!, inFit, b_, off, e_);
   // Joint alpha: its score sums come out of the same pass as the deviance.
   const joint = !!options.alphaStep && cells !== null && countIndex(y) !== null && alpha > 0;
   let sums = alphaSumsAt(y, alpha, joint);
   /** New eta and mu at b_, and the deviance there. */
   const evaluate = (b_: Float64Array, e_: Float64Array, m_: Float64Array): number => {
     if (cells && dtab)
-      return alpha === 0 ? predictCellsPoisson(cells, vals, b_, off, e_, m_, pw, dtab) : predictCellsNegbin(cells, vals, b_, off, e_, m_, pw, alpha, dtab, sums);
+      return alpha === 0
+        ? predictCellsPoisson(cells, vals, b_, off, e_, m_, pw, dtab)
+        : predictCellsNegbin(cells, vals, b_, off, e_, m_, pw, alpha, dtab, sums);
     linpred(b_, e_);
     expInto(e_, inFit, m_);
     return totalDeviance(y, m_, e_, pw, inFit, alpha, dtab);
@@ -775,7 +1031,10 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
   const ws = options.workspace;
   const eta = ws?.eta?.length === n ? ws.eta : new Float64Array(n);
   const mu = ws?.mu?.length === n ? ws.mu : new Float64Array(n);
-  if (ws) { ws.eta = eta; ws.mu = mu; }
+  if (ws) {
+    ws.eta = eta;
+    ws.mu = mu;
+  }
   let betaS: Float64Array = new Float64Array(q);
   let haveBeta = false;
   if (options.start) {
@@ -789,7 +1048,9 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
     });
     if (ok && m.interceptCol >= 0 && active[m.interceptCol] >= 0) {
       const ic = active[m.interceptCol];
-      order.forEach((c, k) => { if (c !== m.interceptCol) betaS[ic] += setup.center[c] * (betaS[k] / setup.scale[c]); });
+      order.forEach((c, k) => {
+        if (c !== m.interceptCol) betaS[ic] += setup.center[c] * (betaS[k] / setup.scale[c]);
+      });
     }
     haveBeta = ok;
   }
@@ -798,7 +1059,11 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
     for (let i = 0; i < n; i++) mu[i] = inFit[i] ? Math.exp(eta[i]) : 0;
   } else {
     for (let i = 0; i < n; i++) {
-      if (!inFit[i]) { mu[i] = 0; eta[i] = -Infinity; continue; }
+      if (!inFit[i]) {
+        mu[i] = 0;
+        eta[i] = -Infinity;
+        continue;
+      }
       mu[i] = y[i] + 0.1;
       eta[i] = Math.log(mu[i]);
     }
@@ -807,7 +1072,11 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
   let devOld = totalDeviance(y, mu, eta, pw, inFit, alpha, dtab);
   if (!Number.isFinite(devOld) && haveBeta) {
     haveBeta = false;
-    for (let i = 0; i < n; i++) if (inFit[i]) { mu[i] = y[i] + 0.1; eta[i] = Math.log(mu[i]); }
+    for (let i = 0; i < n; i++)
+      if (inFit[i]) {
+        mu[i] = y[i] + 0.1;
+        eta[i] = Math.log(mu[i]);
+      }
     devOld = totalDeviance(y, mu, eta, pw, inFit, alpha, dtab);
   }
   // Working weights and responses are stored only on the row-by-row path; the cells compute them as they go.
@@ -827,17 +1096,26 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
     iter++;
     const { a, b } = workingCrossProducts(true);
     const l = cholesky(a);
-    if (l === null) throw new FitError(`the weighted cross-product matrix is not positive definite at IRLS iteration ${iter}; the model cannot be fitted on these rows.`);
+    if (l === null)
+      throw new FitError(
+        `the weighted cross-product matrix is not positive definite at IRLS iteration ${iter}; the model cannot be fitted on these rows.`,
+      );
     let cand: Float64Array = choleskySolve(l, q, b);
     if (!cand.every(Number.isFinite)) {
       // A start so far off that the working response overflows: begin again from the data.
       if (options.start && iter <= 2) {
         haveBeta = false;
-        for (let i = 0; i < n; i++) if (inFit[i]) { mu[i] = y[i] + 0.1; eta[i] = Math.log(mu[i]); }
+        for (let i = 0; i < n; i++)
+          if (inFit[i]) {
+            mu[i] = y[i] + 0.1;
+            eta[i] = Math.log(mu[i]);
+          }
         devOld = totalDeviance(y, mu, eta, pw, inFit, alpha, dtab);
         continue;
       }
-      throw new FitError(`the IRLS step is not finite at iteration ${iter}; the fitted means overflow. Check for extreme exposures or covariate values.`);
+      throw new FitError(
+        `the IRLS step is not finite at iteration ${iter}; the fitted means overflow. Check for extreme exposures or covariate values.`,
+      );
     }
     // Newton decrement: the deviance change this step predicts, Δᵀ(X'WX)Δ.
     let predicted = NaN;
@@ -862,7 +1140,9 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
       dev = evaluate(cand, eta, mu);
     }
     if (!Number.isFinite(dev))
-      throw new FitError(`the deviance is not finite at IRLS iteration ${iter} even after step-halving; the fitted means overflow. Check for extreme exposures or covariate values.`);
+      throw new FitError(
+        `the deviance is not finite at IRLS iteration ${iter} even after step-halving; the fitted means overflow. Check for extreme exposures or covariate values.`,
+      );
     betaS = cand;
     haveBeta = true;
     const change = Math.abs(dev - devOld) / (Math.abs(dev) + 0.1);
@@ -870,7 +1150,11 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
     let alphaSettled = true;
     if (options.alphaStep) {
       // Joint estimation: one step for alpha at the new means, then the deviance at the new alpha.
-      const next = options.alphaStep(mu, alpha, joint && sums.alpha === alpha ? alphaDerivativesFromSums(sums.out, alpha) : null);
+      const next = options.alphaStep(
+        mu,
+        alpha,
+        joint && sums.alpha === alpha ? alphaDerivativesFromSums(sums.out, alpha) : null,
+      );
       if (!(next > 0)) break; // alpha reached the boundary: the caller takes over
       // A step below the settling threshold is not taken: alpha is then final, and so are the pass's sums.
       alphaSettled = Math.abs(Math.log(next / alpha)) < 1e-7;
@@ -883,9 +1167,20 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
       }
     }
     options.onIteration?.(iter, dev);
-    if (change < control.tolerance && alphaSettled) { converged = true; break; }
+    if (change < control.tolerance && alphaSettled) {
+      converged = true;
+      break;
+    }
     // The next step would change the deviance by about predicted²: stop when that is below tolerance.
-    if (alphaSettled && halvings === 0 && predicted >= 0 && (predicted / (Math.abs(dev) + 0.1)) ** 2 < control.tolerance) { converged = true; break; }
+    if (
+      alphaSettled &&
+      halvings === 0 &&
+      predicted >= 0 &&
+      (predicted / (Math.abs(dev) + 0.1)) ** 2 < control.tolerance
+    ) {
+      converged = true;
+      break;
+    }
   }
 
   // Information at the estimate.
@@ -895,7 +1190,10 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
   if (!options.skipCovariance) {
     const { a } = workingCrossProducts(false);
     const l = cholesky(a);
-    if (l === null) throw new FitError("the information matrix at the estimate is singular; the model cannot be fitted on these rows.");
+    if (l === null)
+      throw new FitError(
+        "the information matrix at the estimate is singular; the model cannot be fitted on these rows.",
+      );
     covS = choleskyInverse(l, q);
     covariance = congruence(t, covS);
   }
@@ -912,9 +1210,23 @@ export function fitGlm(m: ModelMatrix, data: FitData, options: FitOptions = {}):
 
   const warnings = driftWarnings(y, mu, inFit);
   return {
-    beta, status: setup.status, estimable: order, covariance, mu, eta, deviance: dev, iterations: iter, converged, alpha,
-    rowsAtZero: setup.rowsAtZero, warnings, setup, covarianceScaled: covS,
-    ...(joint && converged && sums.alpha === alpha ? { negbinAtEstimate: { ...alphaDerivativesFromSums(sums.out, alpha), logLik: sums.out[5] } } : {}),
+    beta,
+    status: setup.status,
+    estimable: order,
+    covariance,
+    mu,
+    eta,
+    deviance: dev,
+    iterations: iter,
+    converged,
+    alpha,
+    rowsAtZero: setup.rowsAtZero,
+    warnings,
+    setup,
+    covarianceScaled: covS,
+    ...(joint && converged && sums.alpha === alpha
+      ? { negbinAtEstimate: { ...alphaDerivativesFromSums(sums.out, alpha), logLik: sums.out[5] } }
+      : {}),
   };
 }
 
@@ -924,11 +1236,13 @@ export function driftWarnings(y: Float64Array, mu: Float64Array, inFit: Uint8Arr
   for (let i = 0; i < y.length; i++) if (inFit[i] && y[i] === 0 && mu[i] < 1e-10) tiny++;
   return tiny === 0
     ? []
-    : [`${tiny} row${tiny === 1 ? " has" : "s have"} a fitted mean below 1e-10: some estimates drift toward infinity (a group with no events that the model fits exactly). If it is the reference level of a factor, choose another with --ref.`];
+    : [
+        `${tiny} row${tiny === 1 ? " has" : "s have"} a fitted mean below 1e-10: some estimates drift toward infinity (a group with no events that the model fits exactly). If it is the reference level of a factor, choose another with --ref.`,
+      ];
 }
 
 /** eta = offset + Σ β_c x_c on the original scale (NaN coefficients skipped, −∞ propagates). */
-export function linearPredictorFrom(m: ModelMatrix, beta: Float64Array, offset: Float64Array): Float64Array {
+export function linearPredictorFrom(m: DesignMatrix, beta: Float64Array, offset: Float64Array): Float64Array {
   const eta = new Float64Array(offset);
   for (const s of m.slots)
     for (let i = 0; i < m.n; i++) {
@@ -942,7 +1256,7 @@ export function linearPredictorFrom(m: ModelMatrix, beta: Float64Array, offset: 
 }
 
 /** x_iᵀ C x_i for every row, with C over the active columns in the fit's scaled coordinates. */
-export function rowQuadraticForms(m: ModelMatrix, setup: FitSetup, c: SymMatrix): Float64Array {
+export function rowQuadraticForms(m: DesignMatrix, setup: FitSetup, c: SymMatrix): Float64Array {
   const out = new Float64Array(m.n);
   const ns = m.slots.length;
   const idx = new Int32Array(ns);

@@ -1,10 +1,26 @@
 // Maximum likelihood for the NB2 negative binomial with log link: IRLS for
 // the coefficients at fixed alpha inside a one-dimensional search for alpha
 // (Lawless 1987, Canadian Journal of Statistics 15:209–225).
-import type { ModelMatrix } from "../design/design.js";
+import type { DesignMatrix } from "../design/design.js";
 import { FitError } from "../errors.js";
-import { alphaDerivativesFromSums, countIndex, harmonic, harmonicTables, logDensity, maxCount, negbinCountTerms } from "./family.js";
-import { fitGlm, prepareFit, type FitControl, type FitData, type FitSetup, type GlmFit, type Workspace } from "./irls.js";
+import {
+  alphaDerivativesFromSums,
+  countIndex,
+  harmonic,
+  harmonicTables,
+  logDensity,
+  maxCount,
+  negbinCountTerms,
+} from "./family.js";
+import {
+  fitGlm,
+  prepareFit,
+  type FitControl,
+  type FitData,
+  type FitSetup,
+  type GlmFit,
+  type Workspace,
+} from "./irls.js";
 
 export interface NegbinFit {
   fit: GlmFit;
@@ -30,7 +46,8 @@ export function negbinLogLik(y: Float64Array, mu: Float64Array, pw: Float64Array
   }
   // The y-only terms log Γ(y + r) − log Γ(r) − log y! depend on y alone at fixed alpha: tabulate them.
   const top = maxCount(y);
-  const r = 1 / alpha, logAlpha = Math.log(alpha);
+  const r = 1 / alpha,
+    logAlpha = Math.log(alpha);
   const tab = negbinCountTerms(top, r);
   let ll = 0;
   for (let i = 0; i < y.length; i++) {
@@ -54,10 +71,19 @@ export function negbinLogLik(y: Float64Array, mu: Float64Array, pw: Float64Array
  * The five row sums are accumulated separately and combined once (see
  * alphaDerivativesFromSums); IRLS can also accumulate them in its own pass.
  */
-export function alphaDerivatives(y: Float64Array, mu: Float64Array, pw: Float64Array | null, alpha: number): { g: number; h: number } {
+export function alphaDerivatives(
+  y: Float64Array,
+  mu: Float64Array,
+  pw: Float64Array | null,
+  alpha: number,
+): { g: number; h: number } {
   const r = 1 / alpha;
   const yi32 = countIndex(y);
-  let s1 = 0, s2 = 0, s3 = 0, s4 = 0, s5 = 0;
+  let s1 = 0,
+    s2 = 0,
+    s3 = 0,
+    s4 = 0,
+    s5 = 0;
   if (yi32 !== null) {
     const { d: tabD, e: tabE } = harmonicTables(maxCount(y), r);
     for (let i = 0; i < y.length; i++) {
@@ -140,19 +166,39 @@ export interface NegbinOptions {
  * inside a bracket (the "rtsafe" scheme of Press et al., Numerical Recipes,
  * 3rd ed., §9.4).
  */
-export function fitNegbin(m: ModelMatrix, data: FitData, o: NegbinOptions): NegbinFit {
+export function fitNegbin(m: DesignMatrix, data: FitData, o: NegbinOptions): NegbinFit {
   const setup = o.setup ?? prepareFit(m, data, o.fixed);
   const pw = data.weights;
   const warm = !!(o.warm && o.start && o.startAlpha && o.startAlpha > 0);
   let pois: GlmFit | null = o.poisson ?? null;
   let poisLL = pois ? negbinLogLik(data.y, pois.mu, pw, 0) : NaN;
   const poissonFit = () => {
-    if (!pois) { pois = fitGlm(m, data, { control: o.control, fixed: o.fixed, start: o.start, setup, alpha: 0, onIteration: o.onIteration, workspace: o.workspace }); poisLL = negbinLogLik(data.y, pois.mu, pw, 0); }
+    if (!pois) {
+      pois = fitGlm(m, data, {
+        control: o.control,
+        fixed: o.fixed,
+        start: o.start,
+        setup,
+        alpha: 0,
+        onIteration: o.onIteration,
+        workspace: o.workspace,
+      });
+      poisLL = negbinLogLik(data.y, pois.mu, pw, 0);
+    }
     return pois;
   };
   const atBoundary = (evals: number): NegbinFit => {
     const p = poissonFit();
-    return { fit: p, alpha: 0, alphaStdError: null, logLik: poisLL, boundary: true, outerIterations: evals, poisson: p, poissonLogLik: poisLL };
+    return {
+      fit: p,
+      alpha: 0,
+      alphaStdError: null,
+      logLik: poisLL,
+      boundary: true,
+      outerIterations: evals,
+      poisson: p,
+      poissonLogLik: poisLL,
+    };
   };
   if (!warm && scoreAtZero(data.y, poissonFit().mu, pw) <= 0) return atBoundary(0);
 
@@ -163,23 +209,40 @@ export function fitNegbin(m: ModelMatrix, data: FitData, o: NegbinOptions): Negb
     let hitBoundary = false;
     const alphaStep = (mu: Float64Array, a: number, derivatives: { g: number; h: number } | null): number => {
       const { g, h } = derivatives ?? alphaDerivatives(data.y, mu, pw, a);
-      const d1 = a * g, d2 = a * a * h + a * g;
+      const d1 = a * g,
+        d2 = a * a * h + a * g;
       let step = d2 < 0 ? -d1 / d2 : Math.sign(d1);
       step = Math.max(-2, Math.min(2, step));
       const next = a * Math.exp(step);
-      if (next < ALPHA_MIN) { hitBoundary = true; return 0; }
-      if (next > ALPHA_CEILING) { hitBoundary = true; return 0; }
+      if (next < ALPHA_MIN) {
+        hitBoundary = true;
+        return 0;
+      }
+      if (next > ALPHA_CEILING) {
+        hitBoundary = true;
+        return 0;
+      }
       return next;
     };
     const a0 = warm ? o.startAlpha! : Math.min(Math.max(momentAlpha(data.y, poissonFit().mu, pw), 1e-4), 1e2);
     const start0 = warm ? o.start! : poissonFit().beta;
     let joint: GlmFit | null = null;
     try {
-      joint = fitGlm(m, data, { control: { ...o.control, maxIter: Math.max(o.control.maxIter, 100) }, fixed: o.fixed, start: start0, setup, alpha: a0, alphaStep, skipCovariance: !!o.likelihoodOnly, onIteration: o.onIteration, workspace: o.workspace });
+      joint = fitGlm(m, data, {
+        control: { ...o.control, maxIter: Math.max(o.control.maxIter, 100) },
+        fixed: o.fixed,
+        start: start0,
+        setup,
+        alpha: a0,
+        alphaStep,
+        skipCovariance: !!o.likelihoodOnly,
+        onIteration: o.onIteration,
+        workspace: o.workspace,
+      });
     } catch (e) {
       if (!(e instanceof FitError)) throw e;
     }
-    if (joint && joint.converged && !hitBoundary && joint.alpha > 0) {
+    if (joint?.converged && !hitBoundary && joint.alpha > 0) {
       const alpha = joint.alpha;
       // The score for alpha must be ~0 at the estimate; otherwise use the safeguarded search.
       // (The fit's last pass gives the score and the log-likelihood when it could accumulate them.)
@@ -187,8 +250,14 @@ export function fitNegbin(m: ModelMatrix, data: FitData, o: NegbinOptions): Negb
       const { g, h } = at ?? alphaDerivatives(data.y, joint.mu, pw, alpha);
       if (Math.abs(alpha * g) <= 1e-6 * (1 + Math.abs(alpha * alpha * h))) {
         return {
-          fit: joint, alpha, alphaStdError: h < 0 ? 1 / Math.sqrt(-h) : null, logLik: at ? at.logLik : negbinLogLik(data.y, joint.mu, pw, alpha), boundary: false,
-          outerIterations: joint.iterations, poisson: pois ?? joint, poissonLogLik: pois ? poisLL : NaN,
+          fit: joint,
+          alpha,
+          alphaStdError: h < 0 ? 1 / Math.sqrt(-h) : null,
+          logLik: at ? at.logLik : negbinLogLik(data.y, joint.mu, pw, alpha),
+          boundary: false,
+          outerIterations: joint.iterations,
+          poisson: pois ?? joint,
+          poissonLogLik: pois ? poisLL : NaN,
         };
       }
     }
@@ -200,7 +269,16 @@ export function fitNegbin(m: ModelMatrix, data: FitData, o: NegbinOptions): Negb
   // Profile score in θ = log alpha and its approximate derivative.
   const score = (theta: number): { f: number; df: number; fit: GlmFit } => {
     const a = Math.exp(theta);
-    const fit = fitGlm(m, data, { control: o.control, fixed: o.fixed, start: beta, setup, alpha: a, skipCovariance: true, stopOnPredicted: true, workspace: o.workspace });
+    const fit = fitGlm(m, data, {
+      control: o.control,
+      fixed: o.fixed,
+      start: beta,
+      setup,
+      alpha: a,
+      skipCovariance: true,
+      stopOnPredicted: true,
+      workspace: o.workspace,
+    });
     evals++;
     if (fit.converged) beta = fit.beta;
     last = fit;
@@ -209,10 +287,17 @@ export function fitNegbin(m: ModelMatrix, data: FitData, o: NegbinOptions): Negb
   };
 
   // Bracket the root: the score is positive below the maximum and negative above it.
-  let theta = Math.log(Math.min(Math.max(o.startAlpha && o.startAlpha > 0 ? o.startAlpha : momentAlpha(data.y, poissonFit().mu, pw), 1e-4), 1e2));
+  let theta = Math.log(
+    Math.min(
+      Math.max(o.startAlpha && o.startAlpha > 0 ? o.startAlpha : momentAlpha(data.y, poissonFit().mu, pw), 1e-4),
+      1e2,
+    ),
+  );
   let cur = score(theta);
-  let lo = -Infinity, hi = Infinity;
-  if (cur.f > 0) lo = theta; else hi = theta;
+  let lo = -Infinity,
+    hi = Infinity;
+  if (cur.f > 0) lo = theta;
+  else hi = theta;
   let step = 1;
   while (!Number.isFinite(lo) || !Number.isFinite(hi)) {
     // Try a Newton step first; fall back to widening steps.
@@ -224,14 +309,19 @@ export function fitNegbin(m: ModelMatrix, data: FitData, o: NegbinOptions): Negb
     if (next < Math.log(ALPHA_MIN)) {
       const edge = score(Math.log(ALPHA_MIN));
       if (edge.f <= 0) return atBoundary(evals);
-      lo = Math.log(ALPHA_MIN); theta = lo; cur = edge;
+      lo = Math.log(ALPHA_MIN);
+      theta = lo;
+      cur = edge;
       continue;
     }
     if (next > Math.log(ALPHA_CEILING))
-      throw new FitError(`the negative-binomial alpha grows without bound (above ${ALPHA_CEILING}); the counts are too dispersed for this model, or the model misses a major term.`);
+      throw new FitError(
+        `the negative-binomial alpha grows without bound (above ${ALPHA_CEILING}); the counts are too dispersed for this model, or the model misses a major term.`,
+      );
     theta = next;
     cur = score(theta);
-    if (cur.f > 0) lo = Math.max(lo, theta); else hi = Math.min(hi, theta);
+    if (cur.f > 0) lo = Math.max(lo, theta);
+    else hi = Math.min(hi, theta);
   }
   // Newton with bisection safeguard inside [lo, hi].
   for (let it = 0; it < 200; it++) {
@@ -240,20 +330,33 @@ export function fitNegbin(m: ModelMatrix, data: FitData, o: NegbinOptions): Negb
     const moved = Math.abs(next - theta);
     theta = next;
     cur = score(theta);
-    if (cur.f > 0) lo = theta; else hi = theta;
+    if (cur.f > 0) lo = theta;
+    else hi = theta;
     if (moved < 1e-9 || hi - lo < 1e-12) break;
   }
   const alpha = Math.exp(theta);
   // The information matrix at the estimate (a last IRLS fit from the converged point), unless only the likelihood is wanted.
-  const fit = o.likelihoodOnly ? last : fitGlm(m, data, { control: o.control, fixed: o.fixed, start: beta, setup, alpha, workspace: o.workspace });
+  const fit = o.likelihoodOnly
+    ? last
+    : fitGlm(m, data, { control: o.control, fixed: o.fixed, start: beta, setup, alpha, workspace: o.workspace });
   const { h } = alphaDerivatives(data.y, fit.mu, pw, alpha);
   const se = h < 0 ? 1 / Math.sqrt(-h) : null;
-  return { fit, alpha, alphaStdError: se, logLik: negbinLogLik(data.y, fit.mu, pw, alpha), boundary: false, outerIterations: evals, poisson: pois ?? fit, poissonLogLik: pois ? poisLL : NaN };
+  return {
+    fit,
+    alpha,
+    alphaStdError: se,
+    logLik: negbinLogLik(data.y, fit.mu, pw, alpha),
+    boundary: false,
+    outerIterations: evals,
+    poisson: pois ?? fit,
+    poissonLogLik: pois ? poisLL : NaN,
+  };
 }
 
 /** Moment starting value: Σw[(y − mu)² − y] / Σw·mu², floored. */
 function momentAlpha(y: Float64Array, mu: Float64Array, pw: Float64Array | null): number {
-  let num = 0, den = 0;
+  let num = 0,
+    den = 0;
   for (let i = 0; i < y.length; i++) {
     if (!(mu[i] > 0)) continue;
     const w = pw ? pw[i] : 1;

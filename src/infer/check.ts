@@ -2,10 +2,10 @@
 // statistic, degrees of freedom, p-value and a one-line reading, and a verdict.
 import type { Design } from "../design/design.js";
 import { setupCrossProducts, rowQuadraticForms } from "../fit/irls.js";
-import type { ModelFit } from "../fit/model.js";
-import { cholesky, choleskySolve } from "../linalg/dense.js";
-import { chiSquareUpperTail, normalUpperTail } from "./distributions.js";
-import { boundaryLrTest, fitStatistics } from "./summary.js";
+import type { CountFit } from "../fit/count-fit.js";
+import { cholesky, choleskySolve } from "../math/linalg.js";
+import { chiSquareUpperTail, normalUpperTail } from "../math/distributions.js";
+import { boundaryLrTest, fitStatistics } from "./fit-statistics.js";
 
 export interface CheckTest {
   /** Short label for lists. */
@@ -48,7 +48,7 @@ export function dispersionFlagged(r: CheckResult): CheckTest[] {
  * Run every check on a Poisson fit `pois` (and the NB2 fit `nb` of the same
  * model, for the likelihood-ratio test and the negative-binomial zeros).
  */
-export function runChecks(design: Design, pois: ModelFit, nb: ModelFit, testLevel: number): CheckResult {
+export function runChecks(design: Design, pois: CountFit, nb: CountFit, testLevel: number): CheckResult {
   const { y, weights } = design;
   const fit = pois.fit;
   const mu = fit.mu;
@@ -62,13 +62,25 @@ export function runChecks(design: Design, pois: ModelFit, nb: ModelFit, testLeve
   // 1–2. Goodness-of-fit statistics against chi-square on the residual df.
   const pP = df > 0 ? chiSquareUpperTail(st.pearson, df) : NaN;
   tests.push({
-    name: "pearson", short: "Pearson", label: "Pearson chi-square", statistic: st.pearson, df, p_value: pP, flagged: pP < testLevel,
+    name: "pearson",
+    short: "Pearson",
+    label: "Pearson chi-square",
+    statistic: st.pearson,
+    df,
+    p_value: pP,
+    flagged: pP < testLevel,
     reference: "chi-square on the residual df",
     reading: `Pearson chi-square / df = ${fmt(st.pearson / df)}; ${pP < testLevel ? "more variation than a Poisson model allows" : "no sign of extra variation"}`,
   });
   const pD = df > 0 ? chiSquareUpperTail(fit.deviance, df) : NaN;
   tests.push({
-    name: "deviance", short: "deviance", label: "Deviance", statistic: fit.deviance, df, p_value: pD, flagged: pD < testLevel,
+    name: "deviance",
+    short: "deviance",
+    label: "Deviance",
+    statistic: fit.deviance,
+    df,
+    p_value: pD,
+    flagged: pD < testLevel,
     reference: "chi-square on the residual df (rough when many means are below 5)",
     reading: `deviance / df = ${fmt(fit.deviance / df)}; ${pD < testLevel ? "the model leaves more variation than chance" : "consistent with chance variation"}`,
   });
@@ -81,11 +93,15 @@ export function runChecks(design: Design, pois: ModelFit, nb: ModelFit, testLeve
 
   // 3. Cameron and Trivedi (1990, J. Econometrics 46:347–364): regress
   //    ((y − mu)² − y + h·mu)/mu on mu without an intercept; a positive slope is NB2 overdispersion.
-  let sxy = 0, sxx = 0, sw = 0;
+  let sxy = 0,
+    sxx = 0,
+    sw = 0;
   const ctY = (i: number) => ((y[i] - mu[i]) ** 2 - y[i] + lev[i] * mu[i]) / mu[i];
   for (let i = 0; i < n; i++) {
     if (!(mu[i] > 0)) continue;
-    sxy += w(i) * ctY(i) * mu[i]; sxx += w(i) * mu[i] * mu[i]; sw += w(i);
+    sxy += w(i) * ctY(i) * mu[i];
+    sxx += w(i) * mu[i] * mu[i];
+    sw += w(i);
   }
   const slope = sxy / sxx;
   let rss = 0;
@@ -93,14 +109,21 @@ export function runChecks(design: Design, pois: ModelFit, nb: ModelFit, testLeve
   const tCT = slope / Math.sqrt(rss / (sw - 1) / sxx);
   const pCT = normalUpperTail(tCT);
   tests.push({
-    name: "cameron_trivedi", short: "Cameron–Trivedi", label: "Cameron–Trivedi auxiliary regression (NB2)", statistic: tCT, df: null, p_value: pCT, flagged: pCT < testLevel,
+    name: "cameron_trivedi",
+    short: "Cameron–Trivedi",
+    label: "Cameron–Trivedi auxiliary regression (NB2)",
+    statistic: tCT,
+    df: null,
+    p_value: pCT,
+    flagged: pCT < testLevel,
     reference: "one-sided standard normal; leverage-adjusted",
     reading: `estimated alpha from the auxiliary regression ${slope.toPrecision(3)}; ${pCT < testLevel ? "variance grows faster than the mean" : "no evidence that variance grows faster than the mean"}`,
   });
 
   // 4. Dean and Lawless (1989, JASA 84:467–472) score test with the leverage
   //    adjustment: Σ[(y − mu)² − y + h·mu] / √(2Σmu²).
-  let num = 0, den = 0;
+  let num = 0,
+    den = 0;
   for (let i = 0; i < n; i++) {
     if (!(mu[i] > 0)) continue;
     num += w(i) * ((y[i] - mu[i]) ** 2 - y[i] + lev[i] * mu[i]);
@@ -109,24 +132,45 @@ export function runChecks(design: Design, pois: ModelFit, nb: ModelFit, testLeve
   const tDL = num / Math.sqrt(2 * den);
   const pDL = normalUpperTail(tDL);
   tests.push({
-    name: "dean_lawless", short: "Dean–Lawless", label: "Dean–Lawless score test", statistic: tDL, df: null, p_value: pDL, flagged: pDL < testLevel,
+    name: "dean_lawless",
+    short: "Dean–Lawless",
+    label: "Dean–Lawless score test",
+    statistic: tDL,
+    df: null,
+    p_value: pDL,
+    flagged: pDL < testLevel,
     reference: "one-sided standard normal; leverage-adjusted",
-    reading: pDL < testLevel ? "the score for extra-Poisson variation is clearly positive" : "the score for extra-Poisson variation is near zero",
+    reading:
+      pDL < testLevel
+        ? "the score for extra-Poisson variation is clearly positive"
+        : "the score for extra-Poisson variation is near zero",
   });
 
   // 5. Likelihood ratio against the negative binomial, boundary-corrected (Self and Liang 1987).
   const nbp = nb.negbin!;
   const lr = boundaryLrTest(nbp.logLik, nbp.poissonLogLik);
   tests.push({
-    name: "lr_negbin", short: "LR against the negative binomial", label: "Likelihood ratio, Poisson against negative binomial", statistic: lr.stat, df: 1, p_value: lr.p, flagged: lr.p < testLevel,
+    name: "lr_negbin",
+    short: "LR against the negative binomial",
+    label: "Likelihood ratio, Poisson against negative binomial",
+    statistic: lr.stat,
+    df: 1,
+    p_value: lr.p,
+    flagged: lr.p < testLevel,
     reference: "½·chi-square(1) tail (alpha = 0 is on the boundary)",
-    reading: nbp.boundary ? "alpha is estimated at 0: the negative binomial reduces to the Poisson" : `alpha = ${nbp.alpha.toPrecision(3)}; ${lr.p < testLevel ? "the negative binomial fits clearly better" : "the negative binomial adds little"}`,
+    reading: nbp.boundary
+      ? "alpha is estimated at 0: the negative binomial reduces to the Poisson"
+      : `alpha = ${nbp.alpha.toPrecision(3)}; ${lr.p < testLevel ? "the negative binomial fits clearly better" : "the negative binomial adds little"}`,
   });
 
   // 6. Zeros: observed against expected, and van den Broek's (1995, Biometrics
   //    51:738–743) score test for zero inflation: S = U²/(Σ(1−p0)/p0 − mᵀ(X'WX)⁻¹m),
   //    U = Σ(1{y=0} − p0)/p0, p0 = e^−mu, m = Σ mu·x.
-  let obs0 = 0, exp0 = 0, expNb = 0, u = 0, i00 = 0;
+  let obs0 = 0,
+    exp0 = 0,
+    expNb = 0,
+    u = 0,
+    i00 = 0;
   const a = nbp.alpha;
   for (let i = 0; i < n; i++) {
     const wi = w(i);
@@ -135,10 +179,10 @@ export function runChecks(design: Design, pois: ModelFit, nb: ModelFit, testLeve
     const p0 = Math.exp(-m);
     exp0 += wi * p0;
     const mnb = nb.fit.mu[i];
-    expNb += wi * (a > 0 ? Math.pow(1 + a * mnb, -1 / a) : Math.exp(-mnb));
+    expNb += wi * (a > 0 ? (1 + a * mnb) ** (-1 / a) : Math.exp(-mnb));
     if (!(m > 0)) continue;
-    u += wi * ((y[i] === 0 ? 1 : 0) - p0) / p0;
-    i00 += wi * (1 - p0) / p0;
+    u += (wi * ((y[i] === 0 ? 1 : 0) - p0)) / p0;
+    i00 += (wi * (1 - p0)) / p0;
   }
   const s = fit.setup;
   const ones = new Float64Array(n).fill(1);
@@ -147,13 +191,22 @@ export function runChecks(design: Design, pois: ModelFit, nb: ModelFit, testLeve
   const { a: xwx, b: mvec } = setupCrossProducts(design.matrix, s, wmu, ones);
   const l = cholesky(xwx);
   let adj = 0;
-  if (l) { const sol = choleskySolve(l, xwx.p, mvec); for (let k = 0; k < sol.length; k++) adj += sol[k] * mvec[k]; }
+  if (l) {
+    const sol = choleskySolve(l, xwx.p, mvec);
+    for (let k = 0; k < sol.length; k++) adj += sol[k] * mvec[k];
+  }
   const vZ = i00 - adj;
   const sZ = vZ > 0 ? (u * u) / vZ : 0;
   const pZ = vZ > 0 ? chiSquareUpperTail(sZ, 1) : 1;
   const zFlag = pZ < testLevel && obs0 > exp0;
   tests.push({
-    name: "zero_inflation", short: "zero inflation", label: "van den Broek zero-inflation score test", statistic: sZ, df: 1, p_value: pZ, flagged: zFlag,
+    name: "zero_inflation",
+    short: "zero inflation",
+    label: "van den Broek zero-inflation score test",
+    statistic: sZ,
+    df: 1,
+    p_value: pZ,
+    flagged: zFlag,
     reference: "chi-square(1); flagged only when zeros are in excess",
     reading: `${obs0} zero counts observed, ${exp0.toFixed(1)} expected under the Poisson fit, ${expNb.toFixed(1)} under the negative binomial`,
   });
@@ -163,7 +216,7 @@ export function runChecks(design: Design, pois: ModelFit, nb: ModelFit, testLeve
   let varNb = 0;
   for (let i = 0; i < n; i++) {
     const mnb = nb.fit.mu[i];
-    const p = a > 0 ? Math.pow(1 + a * mnb, -1 / a) : Math.exp(-mnb);
+    const p = a > 0 ? (1 + a * mnb) ** (-1 / a) : Math.exp(-mnb);
     varNb += w(i) * p * (1 - p);
   }
   const zBeyondNb = varNb > 0 ? (obs0 - expNb) / Math.sqrt(varNb) : 0;
@@ -173,13 +226,15 @@ export function runChecks(design: Design, pois: ModelFit, nb: ModelFit, testLeve
     verdict = {
       code: "excess_zeros",
       text: `More zero counts than either model expects (${obs0} observed; ${exp0.toFixed(1)} Poisson, ${expNb.toFixed(1)} negative binomial).`,
-      next_step: "Look for rows that cannot have events (closed units, structural zeros) and remove them or model them separately; a zero-inflated model is outside what tallyfit fits.",
+      next_step:
+        "Look for rows that cannot have events (closed units, structural zeros) and remove them or model them separately; a zero-inflated model is outside what tallyfit fits.",
     };
   else if (disp.length > 0)
     verdict = {
       code: "overdispersed",
       text: `Overdispersed: the counts vary more than a Poisson model allows (${disp.map((t) => t.short).join(", ")} flagged at ${testLevel}).`,
-      next_step: "Refit with --family negbin (models the extra variation; compare AICs) or --family quasipoisson (keeps the Poisson estimates, widens the intervals by √φ).",
+      next_step:
+        "Refit with --family negbin (models the extra variation; compare AICs) or --family quasipoisson (keeps the Poisson estimates, widens the intervals by √φ).",
     };
   else
     verdict = {
@@ -190,7 +245,10 @@ export function runChecks(design: Design, pois: ModelFit, nb: ModelFit, testLeve
   const warnings: string[] = [...design.notices];
   let small = 0;
   for (let i = 0; i < n; i++) if (mu[i] < 5) small++;
-  if (small > n / 2) warnings.push(`${small} of ${n} fitted means are below 5, so the deviance test's chi-square reference is rough; rely on the score and likelihood-ratio tests`);
+  if (small > n / 2)
+    warnings.push(
+      `${small} of ${n} fitted means are below 5, so the deviance test's chi-square reference is rough; rely on the score and likelihood-ratio tests`,
+    );
   return {
     schema: "tallyfit.check/1",
     source: design.source,

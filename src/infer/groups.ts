@@ -1,5 +1,5 @@
 // Observed against expected by group (--summary-by), with exact limits.
-import { garwoodInterval } from "./exact.js";
+import { garwoodInterval } from "./garwood.js";
 
 export interface GroupRow {
   group: string;
@@ -36,18 +36,26 @@ export function summarizeGroups(
     const o = observed[i];
     if (Number.isNaN(o)) continue;
     const a = acc.get(labels[i]) ?? { rows: 0, o: 0, e: 0, x: 0 };
-    a.rows++; a.o += o; a.e += expected[i]; a.x += exposure ? exposure[i] : 0;
+    a.rows++;
+    a.o += o;
+    a.e += expected[i];
+    a.x += exposure ? exposure[i] : 0;
     acc.set(labels[i], a);
   }
-  const groups = [...acc.entries()].sort((a, b) => order(a[0], b[0])).map(([group, a]) => {
-    const ci = garwoodInterval(a.o, level);
-    return {
-      group, rows: a.rows, observed: a.o, expected: a.e,
-      ratio: a.e > 0 ? a.o / a.e : null,
-      ratio_ci: a.e > 0 ? ([ci[0] / a.e, ci[1] / a.e] as [number, number]) : null,
-      exposure: exposure ? a.x : null,
-      crude_rate: exposure && a.x > 0 ? (a.o / a.x) * per : null,
-    };
-  });
+  const groups = [...acc.entries()]
+    .sort((a, b) => order(a[0], b[0]))
+    .map(([group, a]) => {
+      const ci = garwoodInterval(a.o, level);
+      return {
+        group,
+        rows: a.rows,
+        observed: a.o,
+        expected: a.e,
+        ratio: a.e > 0 ? a.o / a.e : null,
+        ratio_ci: a.e > 0 ? ([ci[0] / a.e, ci[1] / a.e] as [number, number]) : null,
+        exposure: exposure ? a.x : null,
+        crude_rate: exposure && a.x > 0 ? (a.o / a.x) * per : null,
+      };
+    });
   return { column, per, level, groups };
 }

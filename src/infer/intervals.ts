@@ -1,9 +1,9 @@
 // Profile-likelihood limits for every coefficient of a fitted model.
 import type { Design } from "../design/design.js";
-import { constrainedStatistic, fitBaseOf, noEventsGuess, type FitBase, type ModelFit } from "../fit/model.js";
+import { constrainedStatistic, fitBaseOf, noEventsGuess, type FitBase, type CountFit } from "../fit/count-fit.js";
 import type { Workspace } from "../fit/irls.js";
-import { chiSquareQuantile, normalQuantile, studentQuantile } from "./distributions.js";
-import { quasiPhi, residualDf } from "./summary.js";
+import { chiSquareQuantile, normalQuantile, studentQuantile } from "../math/distributions.js";
+import { quasiPhi, residualDf } from "./fit-statistics.js";
 import { profileLimits, profileUpperFromMinusInfinity, type ProfileResult } from "./profile.js";
 
 /** What the profile of one coefficient needs. */
@@ -26,7 +26,7 @@ export interface ProfileContext {
  * referred to F(1, df) (= t² on df); otherwise the likelihood ratio against
  * chi-square(1).
  */
-export function profileContext(design: Design, mf: ModelFit, level: number): ProfileContext {
+export function profileContext(design: Design, mf: CountFit, level: number): ProfileContext {
   const quasi = mf.family === "quasipoisson";
   const phi = quasi ? quasiPhi(design, mf.fit) : 1;
   const df = residualDf(design, mf.fit);
@@ -37,7 +37,9 @@ export function profileContext(design: Design, mf: ModelFit, level: number): Pro
   const se = new Float64Array(mf.fit.status.length).fill(NaN);
   mf.fit.estimable.forEach((c, k) => (se[c] = Math.sqrt(mf.fit.covariance.data[k * q + k] * phi)));
   const columns: number[] = [];
-  mf.fit.status.forEach((st, c) => { if (st === "estimated" || st === "no_events") columns.push(c); });
+  mf.fit.status.forEach((st, c) => {
+    if (st === "estimated" || st === "no_events") columns.push(c);
+  });
   // The constrained fits run where the fit ran: over merged patterns, if it did.
   const fd = mf.patterns ? mf.patterns.merge.design : design;
   const fm = mf.patterns ? mf.patterns.fit : mf;
@@ -48,12 +50,13 @@ export function profileContext(design: Design, mf: ModelFit, level: number): Pro
 export function profileOf(ctx: ProfileContext, c: number, workspace?: Workspace): ProfileResult {
   const { design, base, phi, crit } = ctx;
   const stat = constrainedStatistic(design, base, c, workspace);
-  if (base.fit.status[c] === "no_events") return profileUpperFromMinusInfinity((b) => stat(b) / phi, noEventsGuess(design, base, c, crit * phi), crit);
+  if (base.fit.status[c] === "no_events")
+    return profileUpperFromMinusInfinity((b) => stat(b) / phi, noEventsGuess(design, base, c, crit * phi), crit);
   return profileLimits((b) => stat(b) / phi, base.fit.beta[c], ctx.zq * ctx.se[c], crit);
 }
 
 /** Profile limits for each design column that was estimated or has no events. */
-export function profileAll(design: Design, mf: ModelFit, level: number): Map<number, ProfileResult> {
+export function profileAll(design: Design, mf: CountFit, level: number): Map<number, ProfileResult> {
   const ctx = profileContext(design, mf, level);
   const workspace: Workspace = {};
   return new Map(ctx.columns.map((c) => [c, profileOf(ctx, c, workspace)]));

@@ -30,7 +30,9 @@ export function inferencePlan(profiles: ProfileContext | null, terms: TermTestCo
 
 /** One job; a thread passes the same workspace to all its jobs, so their fits reuse one pair of row-length arrays. */
 export function runJob(plan: InferencePlan, job: InferenceJob, workspace?: Workspace): JobResult {
-  return job.kind === "profile" ? profileOf(plan.profiles!, job.col, workspace) : termTestOf(plan.terms!, job.index, workspace);
+  return job.kind === "profile"
+    ? profileOf(plan.profiles!, job.col, workspace)
+    : termTestOf(plan.terms!, job.index, workspace);
 }
 
 /** Take jobs from the shared counter until none are left; results by job index. */
@@ -58,10 +60,17 @@ export function wantWorker(plan: InferencePlan, env: NodeJS.ProcessEnv = process
   if (!ctx || plan.jobs.length < 2 || env.TALLYFIT_WORKERS === "0") return false;
   const n = ctx.design.n;
   const passes = plan.jobs.reduce((a, j) => a + (j.kind === "profile" ? 24 : 4), 0);
-  return (n * passes >= PARALLEL_MIN_WORK || env.TALLYFIT_WORKERS === "1") && n <= PARALLEL_MAX_ROWS && availableParallelism() >= 2;
+  return (
+    (n * passes >= PARALLEL_MIN_WORK || env.TALLYFIT_WORKERS === "1") &&
+    n <= PARALLEL_MAX_ROWS &&
+    availableParallelism() >= 2
+  );
 }
 
-interface WorkerReply { results?: [number, JobResult][]; error?: { kind: string; message: string } }
+interface WorkerReply {
+  results?: [number, JobResult][];
+  error?: { kind: string; message: string };
+}
 
 /**
  * Run the plan's jobs, on this thread and (when wantWorker says so) one
@@ -69,7 +78,11 @@ interface WorkerReply { results?: [number, JobResult][]; error?: { kind: string;
  * FitError or InputError from the worker is raised here as the same class.
  * workerOnly (for the tests) leaves every job to the worker.
  */
-export async function runJobs(plan: InferencePlan, useWorker = wantWorker(plan), workerOnly = false): Promise<JobResult[]> {
+export async function runJobs(
+  plan: InferencePlan,
+  useWorker = wantWorker(plan),
+  workerOnly = false,
+): Promise<JobResult[]> {
   const out = new Map<number, JobResult>();
   const counter = new Int32Array(new SharedArrayBuffer(4));
   let reply: Promise<WorkerReply> | null = null;

@@ -5,11 +5,11 @@
 // mixture of the fitted count distribution over the draws.
 import type { PredictionDesign } from "../design/predict-design.js";
 import { InputError } from "../errors.js";
-import { cholesky } from "../linalg/dense.js";
-import type { SavedModel } from "../model/saved.js";
-import { normalQuantile } from "./distributions.js";
-import { negbinCdf, poissonCdf } from "./exact.js";
-import { normalGenerator } from "./random.js";
+import { cholesky } from "../math/linalg.js";
+import type { ModelFile } from "../io/model-file.js";
+import { normalQuantile } from "../math/distributions.js";
+import { negbinCdf, poissonCdf } from "../math/distributions.js";
+import { normalGenerator } from "../math/random.js";
 
 export interface PredictOptions {
   level: number;
@@ -50,18 +50,31 @@ export function quantile(F: (k: number) => number, q: number, start: number): nu
   let lo: number;
   if (F(hi) >= q) {
     lo = hi - step;
-    while (lo >= 0 && F(lo) >= q) { hi = lo; step *= 2; lo = hi - step; }
+    while (lo >= 0 && F(lo) >= q) {
+      hi = lo;
+      step *= 2;
+      lo = hi - step;
+    }
     lo = Math.max(lo, -1); // F(−1) = 0 < q
   } else {
     lo = hi;
     hi = lo + step;
-    while (F(hi) < q) { lo = hi; step *= 2; hi = lo + step; if (hi > 1e15) return Infinity; }
+    while (F(hi) < q) {
+      lo = hi;
+      step *= 2;
+      hi = lo + step;
+      if (hi > 1e15) return Infinity;
+    }
   }
-  while (hi - lo > 1) { const mid = Math.floor((lo + hi) / 2); if (F(mid) >= q) hi = mid; else lo = mid; }
+  while (hi - lo > 1) {
+    const mid = Math.floor((lo + hi) / 2);
+    if (F(mid) >= q) hi = mid;
+    else lo = mid;
+  }
   return hi;
 }
 
-export function predictRows(pd: PredictionDesign, saved: SavedModel, o: PredictOptions): PredictResult {
+export function predictRows(pd: PredictionDesign, saved: ModelFile, o: PredictOptions): PredictResult {
   const p = pd.columns.length;
   const covIndex = new Map(saved.covariance.terms.map((t, k) => [t, k]));
   const q = saved.covariance.terms.length;
@@ -75,7 +88,8 @@ export function predictRows(pd: PredictionDesign, saved: SavedModel, o: PredictO
   const v = new Float64Array(q * q);
   for (let r = 0; r < q; r++) for (let c = 0; c < q; c++) v[r * q + c] = saved.covariance.matrix[r][c] * phi;
   const l = q > 0 ? cholesky({ p: q, data: v }) : new Float64Array(0);
-  if (l === null) throw new InputError("the saved covariance matrix is not positive definite; refit and save the model again.");
+  if (l === null)
+    throw new InputError("the saved covariance matrix is not positive definite; refit and save the model again.");
 
   // Draws of the coefficient deviations L·z (shared by all rows) and of alpha.
   const gen = normalGenerator(o.seed);
@@ -84,9 +98,13 @@ export function predictRows(pd: PredictionDesign, saved: SavedModel, o: PredictO
   const z = new Float64Array(q);
   for (let d = 0; d < D; d++) {
     for (let k = 0; k < q; k++) z[k] = gen();
-    for (let r = 0; r < q; r++) { let s = 0; for (let k = 0; k <= r; k++) s += l[r * q + k] * z[k]; dev[d * q + r] = s; }
+    for (let r = 0; r < q; r++) {
+      let s = 0;
+      for (let k = 0; k <= r; k++) s += l[r * q + k] * z[k];
+      dev[d * q + r] = s;
+    }
   }
-  const alpha = saved.family === "negbin" ? saved.alpha ?? 0 : 0;
+  const alpha = saved.family === "negbin" ? (saved.alpha ?? 0) : 0;
   const alphas = new Float64Array(D).fill(alpha);
   if (alpha > 0 && saved.alpha_std_error) {
     const sd = saved.alpha_std_error / alpha; // log alpha ~ N(log alpha-hat, (se/alpha)²)
@@ -98,7 +116,8 @@ export function predictRows(pd: PredictionDesign, saved: SavedModel, o: PredictO
   const idx: number[] = [];
   const val: number[] = [];
   for (let i = 0; i < pd.n; i++) {
-    idx.length = 0; val.length = 0;
+    idx.length = 0;
+    val.length = 0;
     let eta = pd.offset[i];
     let zero = false;
     for (const s of pd.matrix.slots) {
@@ -108,15 +127,26 @@ export function predictRows(pd: PredictionDesign, saved: SavedModel, o: PredictO
       if (beta[c] === -Infinity && x !== 0) zero = true;
       if (pos[c] < 0) continue;
       eta += beta[c] * x;
-      idx.push(pos[c]); val.push(x);
+      idx.push(pos[c]);
+      val.push(x);
     }
     const obs = Number.isNaN(pd.observed[i]) ? null : pd.observed[i];
     if (zero || eta === -Infinity) {
-      rows.push({ row: i + 2, expected: 0, mean_ci: [0, 0], prediction_interval: [0, 0], observed: obs, upper_tail_p: obs === null ? null : obs === 0 ? 1 : 0, flag_limit: 0, flagged: obs !== null && obs > 0 });
+      rows.push({
+        row: i + 2,
+        expected: 0,
+        mean_ci: [0, 0],
+        prediction_interval: [0, 0],
+        observed: obs,
+        upper_tail_p: obs === null ? null : obs === 0 ? 1 : 0,
+        flag_limit: 0,
+        flagged: obs !== null && obs > 0,
+      });
       continue;
     }
     let varEta = 0;
-    for (let a = 0; a < idx.length; a++) for (let b = 0; b < idx.length; b++) varEta += val[a] * val[b] * v[idx[a] * q + idx[b]];
+    for (let a = 0; a < idx.length; a++)
+      for (let b = 0; b < idx.length; b++) varEta += val[a] * val[b] * v[idx[a] * q + idx[b]];
     const se = Math.sqrt(Math.max(0, varEta));
     const expected = Math.exp(eta);
     for (let d = 0; d < D; d++) {
@@ -140,15 +170,29 @@ export function predictRows(pd: PredictionDesign, saved: SavedModel, o: PredictO
     const limit = quantile(cdf, o.flagLevel, hi);
     const upper = obs === null ? null : obs === 0 ? 1 : Math.max(0, 1 - cdf(obs - 1));
     rows.push({
-      row: i + 2, expected, mean_ci: [Math.exp(eta - zq * se), Math.exp(eta + zq * se)], prediction_interval: [lo, hi],
-      observed: obs, upper_tail_p: upper, flag_limit: limit, flagged: obs !== null && obs > limit,
+      row: i + 2,
+      expected,
+      mean_ci: [Math.exp(eta - zq * se), Math.exp(eta + zq * se)],
+      prediction_interval: [lo, hi],
+      observed: obs,
+      upper_tail_p: upper,
+      flag_limit: limit,
+      flagged: obs !== null && obs > limit,
     });
   }
   const method =
     `mean interval: delta method on the log scale (Wald ${o.level}); prediction interval and tail probability: the ${saved.family === "negbin" ? "negative-binomial" : saved.family === "quasipoisson" ? "negative binomial with variance phi·mu" : "Poisson"} ` +
     `distribution mixed over ${D} draws of the coefficients${alpha > 0 ? " and log alpha" : ""} from their asymptotic normal distribution (seed ${o.seed}); flagged when the observed count is above the ${o.flagLevel} quantile`;
   return {
-    schema: "tallyfit.predict/1", model: saved.model, family: saved.family, level: o.level, flag_level: o.flagLevel, draws: D, seed: o.seed, method,
-    rows, n_flagged: rows.filter((r) => r.flagged).length,
+    schema: "tallyfit.predict/1",
+    model: saved.model,
+    family: saved.family,
+    level: o.level,
+    flag_level: o.flagLevel,
+    draws: D,
+    seed: o.seed,
+    method,
+    rows,
+    n_flagged: rows.filter((r) => r.flagged).length,
   };
 }

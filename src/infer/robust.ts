@@ -4,7 +4,7 @@
 // (White 1980; for GLMs, e.g. Zeileis 2006, J. Statistical Software 16(9)).
 import type { Design } from "../design/design.js";
 import { setupCrossProducts, transformMatrix, type GlmFit } from "../fit/irls.js";
-import { congruence, type SymMatrix } from "../linalg/dense.js";
+import { congruence, type SymMatrix } from "../math/linalg.js";
 
 export function sandwichCovariance(design: Design, fit: GlmFit): SymMatrix {
   const { y, weights } = design;

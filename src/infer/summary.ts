@@ -3,16 +3,21 @@
 // expected (Fisher) information X'WX at the estimate (GlmFit.covariance),
 // times sqrt(phi) for quasi-Poisson, or the sandwich estimate with --robust.
 import type { Design } from "../design/design.js";
-import type { GlmFit } from "../fit/irls.js";
-import type { FamilyName, ModelFit } from "../fit/model.js";
-import { logDensity, variance } from "../fit/family.js";
-import { chiSquareUpperTail, normalQuantile, normalTwoSidedP, studentQuantile, studentTwoSidedP } from "./distributions.js";
+import type { FamilyName, CountFit } from "../fit/count-fit.js";
+import {
+  chiSquareUpperTail,
+  normalQuantile,
+  normalTwoSidedP,
+  studentQuantile,
+  studentTwoSidedP,
+} from "../math/distributions.js";
 import type { ProfileResult } from "./profile.js";
+import { boundaryLrTest, fitStatistics } from "./fit-statistics.js";
 import { sandwichCovariance } from "./robust.js";
 import type { TermTest } from "./terms.js";
 import type { GroupSummary } from "./groups.js";
 
-export type { FamilyName } from "../fit/model.js";
+export type { FamilyName } from "../fit/count-fit.js";
 
 export interface CoefficientRow {
   term: string;
@@ -77,7 +82,13 @@ export interface FitSummary {
   log_likelihood: number;
   aic: number;
   bic: number;
-  dispersion: { pearson: number; deviance: number; pearson_p_value: number; deviance_p_value: number; phi_used: number };
+  dispersion: {
+    pearson: number;
+    deviance: number;
+    pearson_p_value: number;
+    deviance_p_value: number;
+    phi_used: number;
+  };
   references: { factor: string; level: string }[];
   baseline: { rate: number; wald: [number, number]; per: string | null } | null;
   coefficients: CoefficientRow[];
@@ -101,50 +112,8 @@ export interface SummaryOptions {
   familyChoice?: { requested: string; reason: string };
 }
 
-/**
- * Goodness-of-fit figures that do not depend on how the standard errors are
- * made. `negbin` counts alpha as a parameter even when it is estimated at 0.
- */
-export function fitStatistics(design: Design, fit: GlmFit, negbin = fit.alpha > 0) {
-  const { y, weights } = design;
-  let pearson = 0, ll = 0, nEff = 0;
-  for (let i = 0; i < y.length; i++) {
-    const w = weights ? weights[i] : 1;
-    nEff += w;
-    const mu = fit.mu[i];
-    if (mu > 0) pearson += (w * (y[i] - mu) ** 2) / variance(mu, fit.alpha);
-    ll += w * logDensity(y[i], mu, fit.alpha);
-  }
-  let k = 0;
-  for (const s of fit.status) if (s === "estimated" || s === "no_events") k++;
-  const nPar = k + (negbin ? 1 : 0);
-  const df = nEff - k;
-  return { pearson, logLik: ll, nEff, nCoef: k, nPar, df, aic: -2 * ll + 2 * nPar, bic: -2 * ll + Math.log(nEff) * nPar };
-}
-
-/** Residual degrees of freedom: rows (summed weights) less the coefficients estimated or at −∞. */
-export function residualDf(design: Design, fit: GlmFit): number {
-  let nEff = design.n;
-  if (design.weights) { nEff = 0; for (let i = 0; i < design.n; i++) nEff += design.weights[i]; }
-  let k = 0;
-  for (const s of fit.status) if (s === "estimated" || s === "no_events") k++;
-  return nEff - k;
-}
-
-/** Quasi-Poisson dispersion phi = Pearson chi-square / residual df (McCullagh and Nelder 1989, §4.5.2). */
-export function quasiPhi(design: Design, fit: GlmFit): number {
-  const st = fitStatistics(design, fit);
-  return st.df > 0 ? st.pearson / st.df : NaN;
-}
-
-/** Likelihood-ratio test of alpha = 0 on the boundary: p = ½·P(χ²₁ ≥ LR) (Self and Liang 1987). */
-export function boundaryLrTest(llNegbin: number, llPoisson: number): { stat: number; p: number } {
-  const stat = Math.max(0, 2 * (llNegbin - llPoisson));
-  return { stat, p: stat > 0 ? 0.5 * chiSquareUpperTail(stat, 1) : 1 };
-}
-
 /** Build the report record for a fitted model. */
-export function summarizeFit(design: Design, mf: ModelFit, options: SummaryOptions): FitSummary {
+export function summarizeFit(design: Design, mf: CountFit, options: SummaryOptions): FitSummary {
   const fit = mf.fit;
   const stats = fitStatistics(design, fit, mf.family === "negbin");
   const df = stats.df;
@@ -163,33 +132,80 @@ export function summarizeFit(design: Design, mf: ModelFit, options: SummaryOptio
   const coefficients: CoefficientRow[] = design.columns.map((col, c) => {
     const st = fit.status[c];
     const levels = col.levels.map((l) => ({ factor: l.factor, level: l.level, reference: refs.get(l.factor) ?? "" }));
-    const base = { term: col.name, levels, kind: col.kind, term_group: col.term < 0 ? "intercept" : design.termLabels[col.term], profile: profileRow(options.profiles?.get(c)) };
+    const base = {
+      term: col.name,
+      levels,
+      kind: col.kind,
+      term_group: col.term < 0 ? "intercept" : design.termLabels[col.term],
+      profile: profileRow(options.profiles?.get(c)),
+    };
     if (st === "aliased" || st === "fixed")
-      return { ...base, profile: null, estimate: null, std_error: null, z: null, p_value: null, rate_ratio: null, wald: null, aliased: true, status: "aliased" as const };
+      return {
+        ...base,
+        profile: null,
+        estimate: null,
+        std_error: null,
+        z: null,
+        p_value: null,
+        rate_ratio: null,
+        wald: null,
+        aliased: true,
+        status: "aliased" as const,
+      };
     if (st === "no_events")
-      return { ...base, estimate: null, std_error: null, z: null, p_value: null, rate_ratio: 0, wald: [0, null] as [number, null], aliased: false, status: "no_events" as const };
+      return {
+        ...base,
+        estimate: null,
+        std_error: null,
+        z: null,
+        p_value: null,
+        rate_ratio: 0,
+        wald: [0, null] as [number, null],
+        aliased: false,
+        status: "no_events" as const,
+      };
     const k = posOf.get(c)!;
     const b = fit.beta[c];
     const se = Math.sqrt(cov.data[k * q + k] * seScale);
     const zval = b / se;
     return {
-      ...base, estimate: b, std_error: se, z: zval, p_value: pOf(zval), rate_ratio: Math.exp(b),
-      wald: [Math.exp(b - crit * se), Math.exp(b + crit * se)] as [number, number], aliased: false, status: "estimated" as const,
+      ...base,
+      estimate: b,
+      std_error: se,
+      z: zval,
+      p_value: pOf(zval),
+      rate_ratio: Math.exp(b),
+      wald: [Math.exp(b - crit * se), Math.exp(b + crit * se)] as [number, number],
+      aliased: false,
+      status: "estimated" as const,
     };
   });
 
   const warnings: string[] = [...fit.warnings];
   for (const row of coefficients) {
-    if (row.status === "aliased") warnings.push(`${row.term} is aliased (a linear combination of earlier columns) and was left out of the fit; no estimate is shown for it`);
+    if (row.status === "aliased")
+      warnings.push(
+        `${row.term} is aliased (a linear combination of earlier columns) and was left out of the fit; no estimate is shown for it`,
+      );
     if (row.status === "no_events")
-      warnings.push(`${row.term}: every row of this level has a zero count, so its rate ratio has no finite estimate (it is 0); its lower limit is 0 and no Wald interval exists`);
+      warnings.push(
+        `${row.term}: every row of this level has a zero count, so its rate ratio has no finite estimate (it is 0); its lower limit is 0 and no Wald interval exists`,
+      );
   }
   if (options.profiles)
     for (const [c, pr] of options.profiles)
-      for (const [side, r] of [["lower", pr.lower], ["upper", pr.upper]] as const)
+      for (const [side, r] of [
+        ["lower", pr.lower],
+        ["upper", pr.upper],
+      ] as const)
         if (r.value === null && r.reason && !(fit.status[c] === "no_events" && side === "lower"))
-          warnings.push(`${design.columns[c].name}: the ${side} profile limit is ${r.open ? (side === "lower" ? "0 (open)" : "unbounded") : "not available"}: ${r.reason}`);
-  if (options.robust && options.profiles) warnings.push("with --robust, the Wald limits use sandwich standard errors; the profile limits remain likelihood-based (model-based)");
+          warnings.push(
+            `${design.columns[c].name}: the ${side} profile limit is ${r.open ? (side === "lower" ? "0 (open)" : "unbounded") : "not available"}: ${r.reason}`,
+          );
+  if (options.robust && options.profiles)
+    warnings.push(
+      "with --robust, the Wald limits use sandwich standard errors; the profile limits remain likelihood-based (model-based)",
+    );
 
   let negbin: NegbinSummary | undefined;
   if (mf.negbin) {
@@ -197,16 +213,34 @@ export function summarizeFit(design: Design, mf: ModelFit, options: SummaryOptio
     const lr = boundaryLrTest(nb.logLik, nb.poissonLogLik);
     const zq = normalQuantile(1 - (1 - options.level) / 2);
     const ci: [number, number] | null =
-      nb.alphaStdError !== null && nb.alpha > 0 ? [nb.alpha * Math.exp(-zq * (nb.alphaStdError / nb.alpha)), nb.alpha * Math.exp(zq * (nb.alphaStdError / nb.alpha))] : null;
+      nb.alphaStdError !== null && nb.alpha > 0
+        ? [
+            nb.alpha * Math.exp(-zq * (nb.alphaStdError / nb.alpha)),
+            nb.alpha * Math.exp(zq * (nb.alphaStdError / nb.alpha)),
+          ]
+        : null;
 
     negbin = {
-      alpha: nb.alpha, alpha_std_error: nb.alphaStdError, alpha_ci: ci, alpha_ci_method: "wald-log",
-      theta: nb.alpha > 0 ? 1 / nb.alpha : null, lr_stat: lr.stat, lr_p_value: lr.p, boundary: nb.boundary,
-      poisson_log_likelihood: nb.poissonLogLik, poisson_aic: -2 * nb.poissonLogLik + 2 * nb.poissonParameters,
+      alpha: nb.alpha,
+      alpha_std_error: nb.alphaStdError,
+      alpha_ci: ci,
+      alpha_ci_method: "wald-log",
+      theta: nb.alpha > 0 ? 1 / nb.alpha : null,
+      lr_stat: lr.stat,
+      lr_p_value: lr.p,
+      boundary: nb.boundary,
+      poisson_log_likelihood: nb.poissonLogLik,
+      poisson_aic: -2 * nb.poissonLogLik + 2 * nb.poissonParameters,
     };
-    if (nb.boundary) warnings.push("alpha is estimated at 0: the likelihood is largest with no extra-Poisson variation, so the negative binomial reduces to the Poisson here");
+    if (nb.boundary)
+      warnings.push(
+        "alpha is estimated at 0: the likelihood is largest with no extra-Poisson variation, so the negative binomial reduces to the Poisson here",
+      );
   }
-  if (!fit.converged) warnings.push(`IRLS stopped after ${fit.iterations} iterations without meeting the convergence rule; the estimates may be inaccurate (raise --max-iter)`);
+  if (!fit.converged)
+    warnings.push(
+      `IRLS stopped after ${fit.iterations} iterations without meeting the convergence rule; the estimates may be inaccurate (raise --max-iter)`,
+    );
 
   let baseline: FitSummary["baseline"] = null;
   const ic = design.matrix.interceptCol;
@@ -214,11 +248,17 @@ export function summarizeFit(design: Design, mf: ModelFit, options: SummaryOptio
     const r = coefficients[ic];
     baseline = { rate: r.rate_ratio!, wald: [r.wald![0]!, r.wald![1]!], per: design.exposureName };
   }
-  const profileRef = !options.profiles ? null : quasi ? `deviance difference / phi against F(1, ${df})` : "likelihood ratio against chi-square(1)";
+  const profileRef = !options.profiles
+    ? null
+    : quasi
+      ? `deviance difference / phi against F(1, ${df})`
+      : "likelihood ratio against chi-square(1)";
   return {
     schema: "tallyfit.fit/1",
     family: mf.family,
-    family_choice: options.familyChoice ? { requested: options.familyChoice.requested, used: mf.family, reason: options.familyChoice.reason } : null,
+    family_choice: options.familyChoice
+      ? { requested: options.familyChoice.requested, used: mf.family, reason: options.familyChoice.reason }
+      : null,
     link: "log",
     level: options.level,
     source: design.source,
@@ -230,12 +270,18 @@ export function summarizeFit(design: Design, mf: ModelFit, options: SummaryOptio
     n_rows: design.nRows,
     n_used: design.n,
     n_dropped: design.nRows - design.n,
-    dropped: { missing: design.dropped.missing, zero_exposure_zero_count: design.dropped.zeroExposureZeroCount, zero_weight: design.dropped.zeroWeight },
+    dropped: {
+      missing: design.dropped.missing,
+      zero_exposure_zero_count: design.dropped.zeroExposureZeroCount,
+      zero_weight: design.dropped.zeroWeight,
+    },
     df_residual: df,
     n_parameters: stats.nPar,
     converged: fit.converged,
     iterations: mf.negbin && !mf.negbin.boundary ? mf.negbin.outerIterations : fit.iterations,
-    merged_patterns: mf.patterns ? { rows: mf.patterns.merge.rows, patterns: mf.patterns.merge.patterns, by: mf.patterns.merge.by } : null,
+    merged_patterns: mf.patterns
+      ? { rows: mf.patterns.merge.rows, patterns: mf.patterns.merge.patterns, by: mf.patterns.merge.by }
+      : null,
     deviance: fit.deviance,
     null_deviance: mf.nullDeviance,
     df_null: stats.nEff - (ic >= 0 ? 1 : 0),

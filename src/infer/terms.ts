@@ -7,10 +7,10 @@
 // would depend on the reference levels.
 import type { Design } from "../design/design.js";
 import { columnSums, deriveSetup, fitGlm, type Workspace } from "../fit/irls.js";
-import { fitBaseOf, type FitBase, type ModelFit } from "../fit/model.js";
+import { fitBaseOf, type FitBase, type CountFit } from "../fit/count-fit.js";
 import { fitNegbin } from "../fit/negbin.js";
-import { chiSquareUpperTail, fUpperTail } from "./distributions.js";
-import { quasiPhi, residualDf } from "./summary.js";
+import { chiSquareUpperTail, fUpperTail } from "../math/distributions.js";
+import { quasiPhi, residualDf } from "./fit-statistics.js";
 
 export interface TermTest {
   term: string;
@@ -40,7 +40,7 @@ export interface TermTestContext {
   plan: ({ cols: number[] } | { note: string })[];
 }
 
-export function termTestContext(design: Design, mf: ModelFit): TermTestContext {
+export function termTestContext(design: Design, mf: CountFit): TermTestContext {
   const terms = design.model.terms;
   const quasi = mf.family === "quasipoisson";
   // phi and the residual df from the rows; the constrained fits run where the
@@ -51,9 +51,13 @@ export function termTestContext(design: Design, mf: ModelFit): TermTestContext {
   const fm = mf.patterns ? mf.patterns.fit : mf;
   const llFull = fm.negbin && !fm.negbin.boundary ? fm.negbin.logLik : NaN;
   const plan = terms.map((t, ti) => {
-    const higher = terms.find((u, ui) => ui !== ti && u.variables.length > t.variables.length && contains(u.variables, t.variables));
+    const higher = terms.find(
+      (u, ui) => ui !== ti && u.variables.length > t.variables.length && contains(u.variables, t.variables),
+    );
     if (higher) return { note: `part of ${higher.variables.join(":")}; test that term first` };
-    const cols = design.termColumns[ti].filter((c) => mf.fit.status[c] === "estimated" || mf.fit.status[c] === "no_events");
+    const cols = design.termColumns[ti].filter(
+      (c) => mf.fit.status[c] === "estimated" || mf.fit.status[c] === "no_events",
+    );
     if (cols.length === 0) return { note: "all its columns are aliased" };
     return { cols };
   });
@@ -72,19 +76,41 @@ export function termTestOf(ctx: TermTestContext, ti: number, workspace?: Workspa
   let stat: number, p: number;
   const start = warmStart(fd, fm, cols);
   if (fm.family === "negbin" && fm.negbin && !fm.negbin.boundary) {
-    const nb = fitNegbin(fd.matrix, fd, { control: fm.control, fixed, startAlpha: fm.negbin.alpha, start, warm: true, likelihoodOnly: true, setup: deriveSetup(fm.fit.setup, cols), workspace });
+    const nb = fitNegbin(fd.matrix, fd, {
+      control: fm.control,
+      fixed,
+      startAlpha: fm.negbin.alpha,
+      start,
+      warm: true,
+      likelihoodOnly: true,
+      setup: deriveSetup(fm.fit.setup, cols),
+      workspace,
+    });
     stat = Math.max(0, 2 * (ctx.llFull - nb.logLik));
     p = chiSquareUpperTail(stat, cols.length);
   } else {
-    const r = fitGlm(fd.matrix, fd, { control: fm.control, fixed, skipCovariance: true, start, stopOnPredicted: true, setup: deriveSetup(fm.fit.setup, cols), workspace });
+    const r = fitGlm(fd.matrix, fd, {
+      control: fm.control,
+      fixed,
+      skipCovariance: true,
+      start,
+      stopOnPredicted: true,
+      setup: deriveSetup(fm.fit.setup, cols),
+      workspace,
+    });
     const dd = Math.max(0, r.deviance - fm.fit.deviance);
-    if (quasi) { stat = dd / cols.length / ctx.phi; p = fUpperTail(stat, cols.length, ctx.df); }
-    else { stat = dd; p = chiSquareUpperTail(stat, cols.length); }
+    if (quasi) {
+      stat = dd / cols.length / ctx.phi;
+      p = fUpperTail(stat, cols.length, ctx.df);
+    } else {
+      stat = dd;
+      p = chiSquareUpperTail(stat, cols.length);
+    }
   }
   return { term: label, df: cols.length, statistic: stat, p_value: p, test, note: null };
 }
 
-export function termTests(design: Design, mf: ModelFit): TermTest[] {
+export function termTests(design: Design, mf: CountFit): TermTest[] {
   const ctx = termTestContext(design, mf);
   const workspace: Workspace = {};
   return ctx.plan.map((_, ti) => termTestOf(ctx, ti, workspace));

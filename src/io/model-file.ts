@@ -1,28 +1,68 @@
-// Reading a saved model file, with clear errors for another schema or a damaged file.
+// The model file (schema tallyfit.model/1): everything `predict` needs, as
+// `fit --save-model` writes it; reading one, with clear errors for another
+// schema or a damaged file.
 import { readFile } from "node:fs/promises";
 import { InputError } from "../errors.js";
-import { MODEL_SCHEMA, type SavedModel } from "../model/saved.js";
 
-export function parseSavedModel(text: string, source: string): SavedModel {
-  let obj: unknown;
-  try { obj = JSON.parse(text); } catch (e) {
-    throw new InputError(`${source}: not a tallyfit model file (it is not valid JSON: ${(e as Error).message}). Write one with tallyfit fit --save-model.`);
-  }
-  const m = obj as Partial<SavedModel> & { schema?: unknown };
-  if (typeof m !== "object" || m === null || typeof m.schema !== "string")
-    throw new InputError(`${source}: not a tallyfit model file (no "schema" field). Write one with tallyfit fit --save-model.`);
-  if (m.schema !== MODEL_SCHEMA)
-    throw new InputError(`${source}: model file schema '${m.schema}' is not the one this version reads ('${MODEL_SCHEMA}'). Refit and save the model with this version of tallyfit.`);
-  for (const k of ["family", "model", "response", "terms", "factors", "numeric", "coefficients", "covariance"] as const)
-    if (m[k] === undefined) throw new InputError(`${source}: the model file is incomplete (no "${k}"); refit and save it again.`);
-  return m as SavedModel;
+export interface ModelFile {
+  schema: "tallyfit.model/1";
+  tool: { name: "tallyfit"; version: string };
+  data: { source: string; sha256: string; n_rows: number; n_used: number };
+  family: "poisson" | "negbin" | "quasipoisson";
+  link: "log";
+  model: string;
+  response: string;
+  intercept: boolean;
+  /** Terms as lists of variables, in model order. */
+  terms: string[][];
+  exposure: string | null;
+  offset: string | null;
+  /** Factor variables with their levels (natural order) and reference. */
+  factors: { name: string; levels: string[]; reference: string }[];
+  /** Numeric variables used by the terms. */
+  numeric: string[];
+  coefficients: { term: string; status: "estimated" | "aliased" | "no_events"; estimate: number | null }[];
+  /** Model-based covariance (inverse Fisher information) of the estimated coefficients, original scale. */
+  covariance: { terms: string[]; matrix: number[][] };
+  /** Quasi-Poisson phi (1 otherwise); the covariance above is not yet multiplied by it. */
+  dispersion_phi: number;
+  alpha: number | null;
+  alpha_std_error: number | null;
 }
 
-export async function loadSavedModel(path: string): Promise<SavedModel> {
+export const MODEL_FILE_SCHEMA = "tallyfit.model/1";
+
+export function parseModelFile(text: string, source: string): ModelFile {
+  let obj: unknown;
+  try {
+    obj = JSON.parse(text);
+  } catch (e) {
+    throw new InputError(
+      `${source}: not a tallyfit model file (it is not valid JSON: ${(e as Error).message}). Write one with tallyfit fit --save-model.`,
+    );
+  }
+  const m = obj as Partial<ModelFile> & { schema?: unknown };
+  if (typeof m !== "object" || m === null || typeof m.schema !== "string")
+    throw new InputError(
+      `${source}: not a tallyfit model file (no "schema" field). Write one with tallyfit fit --save-model.`,
+    );
+  if (m.schema !== MODEL_FILE_SCHEMA)
+    throw new InputError(
+      `${source}: model file schema '${m.schema}' is not the one this version reads ('${MODEL_FILE_SCHEMA}'). Refit and save the model with this version of tallyfit.`,
+    );
+  for (const k of ["family", "model", "response", "terms", "factors", "numeric", "coefficients", "covariance"] as const)
+    if (m[k] === undefined)
+      throw new InputError(`${source}: the model file is incomplete (no "${k}"); refit and save it again.`);
+  return m as ModelFile;
+}
+
+export async function loadModelFile(path: string): Promise<ModelFile> {
   let text: string;
-  try { text = await readFile(path, "utf8"); } catch (e) {
+  try {
+    text = await readFile(path, "utf8");
+  } catch (e) {
     const code = (e as NodeJS.ErrnoException).code;
     throw new InputError(`${path}: cannot read the model file (${code === "ENOENT" ? "no such file" : code}).`);
   }
-  return parseSavedModel(text, path);
+  return parseModelFile(text, path);
 }

@@ -36,8 +36,13 @@ export function checkHeader(header: string[], source: string, fail: (message: st
   const seen = new Map<string, number>();
   header.forEach((h, j) => {
     if (h === "")
-      throw fail(`${source}, row 1: column ${j + 1} of ${header.length} has no name${j === header.length - 1 ? " (a delimiter at the end of the header line?)" : ""}; give every column a name in the header.`);
-    if (seen.has(h)) throw fail(`${source}, row 1: column name '${h}' appears twice (columns ${seen.get(h)! + 1} and ${j + 1}); give every column its own name.`);
+      throw fail(
+        `${source}, row 1: column ${j + 1} of ${header.length} has no name${j === header.length - 1 ? " (a delimiter at the end of the header line?)" : ""}; give every column a name in the header.`,
+      );
+    if (seen.has(h))
+      throw fail(
+        `${source}, row 1: column name '${h}' appears twice (columns ${seen.get(h)! + 1} and ${j + 1}); give every column its own name.`,
+      );
     seen.set(h, j);
   });
 }

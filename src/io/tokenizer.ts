@@ -6,10 +6,13 @@
 // tests (test/io-tokenizer.test.ts compares the two on awkward files).
 import { InputError } from "../errors.js";
 import { checkHeader, type Column, type Table } from "./table.js";
-import { firstInvalidUtf8, parseDecimal, showDelimiter } from "./csv.js";
+import { firstInvalidUtf8 } from "./source-bytes.js";
+import { parseDecimal, showDelimiter } from "./dialect.js";
 
-const QUOTE = 0x22, LF = 0x0a, CR = 0x0d;
-const POW10 = Array.from({ length: 23 }, (_, k) => Math.pow(10, k));
+const QUOTE = 0x22,
+  LF = 0x0a,
+  CR = 0x0d;
+const POW10 = Array.from({ length: 23 }, (_, k) => 10 ** k);
 
 interface Builder {
   name: string;
@@ -89,16 +92,25 @@ export class ColumnReader {
   feed(chunk: Uint8Array, last = false): void {
     this.bytesRead += chunk.length;
     let buf: Uint8Array;
-    if (this.carry && this.carry.length) {
+    if (this.carry?.length) {
       buf = new Uint8Array(this.carry.length + chunk.length);
       buf.set(this.carry);
       buf.set(chunk, this.carry.length);
     } else buf = chunk;
-    if (this.header === null && this.bytesRead === chunk.length && buf[0] === 0xef && buf[1] === 0xbb && buf[2] === 0xbf) buf = buf.subarray(3);
+    if (
+      this.header === null &&
+      this.bytesRead === chunk.length &&
+      buf[0] === 0xef &&
+      buf[1] === 0xbb &&
+      buf[2] === 0xbf
+    )
+      buf = buf.subarray(3);
     this.bufferBase = this.bytesRead - buf.length;
     // Validate UTF-8 up to the last line break (a multi-byte character never spans one).
     let upto = buf.length;
-    if (!last) { upto = buf.lastIndexOf(LF) + 1; }
+    if (!last) {
+      upto = buf.lastIndexOf(LF) + 1;
+    }
     const bad = firstInvalidUtf8(buf.subarray(this.validated, upto));
     if (bad >= 0) {
       const at = this.validated + bad;
@@ -119,7 +131,9 @@ export class ColumnReader {
     const d = this.o.delimiter;
     const n = b.length;
     let pos = 0;
-    const fs = this.fieldStart, fe = this.fieldEnd, fq = this.fieldQuoted;
+    const fs = this.fieldStart,
+      fe = this.fieldEnd,
+      fq = this.fieldQuoted;
     while (pos < n) {
       const recStart = pos;
       const recLine = this.line;
@@ -133,7 +147,10 @@ export class ColumnReader {
           let closed = false;
           while (q < n) {
             if (b[q] === QUOTE) {
-              if (q + 1 < n && b[q + 1] === QUOTE) { q += 2; continue; }
+              if (q + 1 < n && b[q + 1] === QUOTE) {
+                q += 2;
+                continue;
+              }
               if (q + 1 >= n && !last) break; // need more bytes to know
               closed = true;
               break;
@@ -142,33 +159,61 @@ export class ColumnReader {
             q++;
           }
           if (!closed) {
-            if (!last) { this.line = recLine; return recStart; }
-            throw new InputError(`${this.o.source}, line ${recLine}: a quoted field is never closed (an opening " without its closing "). Close the quote or remove it.`);
+            if (!last) {
+              this.line = recLine;
+              return recStart;
+            }
+            throw new InputError(
+              `${this.o.source}, line ${recLine}: a quoted field is never closed (an opening " without its closing "). Close the quote or remove it.`,
+            );
           }
-          fs[nf] = p + 1; fe[nf] = q; fq[nf] = true; nf++;
+          fs[nf] = p + 1;
+          fe[nf] = q;
+          fq[nf] = true;
+          nf++;
           p = q + 1;
           if (p < n && b[p] !== d && b[p] !== LF && b[p] !== CR)
-            throw new InputError(`${this.o.source}, line ${this.line}: text follows a closing quote. Double any quote inside a quoted field ("").`);
+            throw new InputError(
+              `${this.o.source}, line ${this.line}: text follows a closing quote. Double any quote inside a quoted field ("").`,
+            );
         } else {
           let q = p;
           while (q < n) {
             const c = b[q];
             if (c === d || c === LF || c === CR) break;
-            if (c === QUOTE) throw new InputError(`${this.o.source}, line ${this.line}: a quote sits inside an unquoted field. Quote the whole field and double the quote ("").`);
+            if (c === QUOTE)
+              throw new InputError(
+                `${this.o.source}, line ${this.line}: a quote sits inside an unquoted field. Quote the whole field and double the quote ("").`,
+              );
             q++;
           }
-          fs[nf] = p; fe[nf] = q; fq[nf] = false; nf++;
+          fs[nf] = p;
+          fe[nf] = q;
+          fq[nf] = false;
+          nf++;
           p = q;
         }
         if (p >= n) {
-          if (!last) { this.line = recLine; return recStart; }
+          if (!last) {
+            this.line = recLine;
+            return recStart;
+          }
           complete = true;
           break;
         }
         const c = b[p];
-        if (c === d) { p++; continue; }
-        if (c === CR) { if (p + 1 >= n && !last) { this.line = recLine; return recStart; } p++; if (p < n && b[p] === LF) p++; }
-        else p++; // LF
+        if (c === d) {
+          p++;
+          continue;
+        }
+        if (c === CR) {
+          if (p + 1 >= n && !last) {
+            this.line = recLine;
+            return recStart;
+          }
+          p++;
+          if (p < n && b[p] === LF) p++;
+        } else p++; // LF
         complete = true;
         break;
       }
@@ -188,7 +233,9 @@ export class ColumnReader {
   }
 
   private record(b: Uint8Array, nf: number, line: number): void {
-    const fs = this.fieldStart, fe = this.fieldEnd, fq = this.fieldQuoted;
+    const fs = this.fieldStart,
+      fe = this.fieldEnd,
+      fq = this.fieldQuoted;
     if (this.header === null) {
       const header: string[] = [];
       for (let j = 0; j < nf; j++) header.push(this.text(b, fs[j], fe[j], fq[j]).trim());
@@ -197,33 +244,58 @@ export class ColumnReader {
       this.builders = header.map((h) => {
         const keep = this.o.select === null || this.o.select.has(h);
         const forced = this.o.factors.has(h);
-        return { name: h, keep, forced, numeric: !forced, values: new Float64Array(keep ? 1024 : 0), codes: new Int32Array(keep && forced ? 1024 : 0), levels: [], byHash: new Map(), byPacked: new Map(), levelBytes: [], firstText: null };
+        return {
+          name: h,
+          keep,
+          forced,
+          numeric: !forced,
+          values: new Float64Array(keep ? 1024 : 0),
+          codes: new Int32Array(keep && forced ? 1024 : 0),
+          levels: [],
+          byHash: new Map(),
+          byPacked: new Map(),
+          levelBytes: [],
+          firstText: null,
+        };
       });
       return;
     }
     const hdr = this.header;
     const row = this.nRows + 2;
     if (nf !== hdr.length)
-      throw new InputError(`${this.o.source}, row ${row} (line ${line}): ${nf} fields where the header has ${hdr.length}. Check for an unquoted ${showDelimiter(String.fromCharCode(this.o.delimiter))} inside a value, or a missing field.`);
+      throw new InputError(
+        `${this.o.source}, row ${row} (line ${line}): ${nf} fields where the header has ${hdr.length}. Check for an unquoted ${showDelimiter(String.fromCharCode(this.o.delimiter))} inside a value, or a missing field.`,
+      );
     const i = this.nRows;
     for (let j = 0; j < nf; j++) {
       const bd = this.builders[j];
       if (!bd.keep) continue;
-      let s = fs[j], e = fe[j];
+      let s = fs[j],
+        e = fe[j];
       // Trim spaces and tabs.
       while (s < e && (b[s] === 0x20 || b[s] === 0x09)) s++;
       while (e > s && (b[e - 1] === 0x20 || b[e - 1] === 0x09)) e--;
       const missing = this.isNa(b, s, e);
       if (bd.numeric) {
         if (bd.values.length <= i) bd.values = grow(bd.values, i + 1, this.rowEstimate(fs[0]));
-        if (missing) { bd.values[i] = NaN; continue; }
+        if (missing) {
+          bd.values[i] = NaN;
+          continue;
+        }
         const v = fq[j] ? parseDecimal(this.text(b, s, e, true).trim()) : this.number(b, s, e);
-        if (!Number.isNaN(v)) { bd.values[i] = v; continue; }
+        if (!Number.isNaN(v)) {
+          bd.values[i] = v;
+          continue;
+        }
         bd.firstText = { row, value: this.text(b, s, e, fq[j]) };
         this.demote(bd, i);
       }
       if (bd.codes.length <= i) bd.codes = grow(bd.codes, i + 1, this.rowEstimate(fs[0]));
-      bd.codes[i] = missing ? -1 : fq[j] ? this.codeOfString(bd, this.text(b, s, e, true).trim()) : this.codeOfBytes(bd, b, s, e);
+      bd.codes[i] = missing
+        ? -1
+        : fq[j]
+          ? this.codeOfString(bd, this.text(b, s, e, true).trim())
+          : this.codeOfBytes(bd, b, s, e);
     }
     this.nRows++;
   }
@@ -238,7 +310,8 @@ export class ColumnReader {
   private isNa(b: Uint8Array, s: number, e: number): boolean {
     const len = e - s;
     // Most fields cannot be a missing-value token: no token has this length, or starts with this byte.
-    if (len > 0 && this.naLengths !== -1 && (len > 31 || !(this.naLengths & (1 << len)) || !this.naFirst[b[s]])) return false;
+    if (len > 0 && this.naLengths !== -1 && (len > 31 || !(this.naLengths & (1 << len)) || !this.naFirst[b[s]]))
+      return false;
     for (const t of this.naBytes) {
       if (t.length !== len) continue;
       let k = 0;
@@ -251,15 +324,24 @@ export class ColumnReader {
   /** A finite decimal from bytes, or NaN. Plain digits with an optional fraction are parsed exactly here. */
   private number(b: Uint8Array, s: number, e: number): number {
     if (s >= e) return NaN;
-    let p = s, neg = false;
-    if (b[p] === 0x2d || b[p] === 0x2b) { neg = b[p] === 0x2d; p++; }
-    let m = 0, digits = 0, frac = 0, seenDot = false, any = false;
+    let p = s,
+      neg = false;
+    if (b[p] === 0x2d || b[p] === 0x2b) {
+      neg = b[p] === 0x2d;
+      p++;
+    }
+    let m = 0,
+      digits = 0,
+      frac = 0,
+      seenDot = false,
+      any = false;
     for (; p < e; p++) {
       const c = b[p];
       if (c >= 0x30 && c <= 0x39) {
         any = true;
         if (m === 0 && c === 0x30 && !seenDot) continue;
-        m = m * 10 + (c - 0x30); digits++;
+        m = m * 10 + (c - 0x30);
+        digits++;
         if (seenDot) frac++;
       } else if (c === 0x2e && !seenDot) seenDot = true;
       else break;
@@ -297,7 +379,8 @@ export class ColumnReader {
         if (k === lb.length) return code;
       }
     const code = this.newLevel(bd, b, s, e);
-    if (list) list.push(code); else bd.byHash.set(h, [code]);
+    if (list) list.push(code);
+    else bd.byHash.set(h, [code]);
     return code;
   }
 
@@ -323,25 +406,30 @@ export class ColumnReader {
   }
 
   finish(): Table {
-    if (this.carry && this.carry.length) {
+    if (this.carry?.length) {
       const rest = this.carry;
       this.carry = null;
       this.bytesRead -= rest.length;
       this.feed(rest, true);
     }
     const source = this.o.source;
-    if (this.header === null) throw new InputError(`${source}: the file is empty; expected a header row and at least one data row.`);
+    if (this.header === null)
+      throw new InputError(`${source}: the file is empty; expected a header row and at least one data row.`);
     if (this.nRows === 0) throw new InputError(`${source}: the file has a header row but no data rows.`);
     const n = this.nRows;
     const columns = new Map<string, Column>();
     for (const bd of this.builders) {
       if (!bd.keep) continue;
       // A column sized close to n is kept as a view (no copy at the peak); a much larger one is copied.
-      const fit = <T extends Float64Array | Int32Array>(a: T): T => (a.length === n ? a : a.length <= n * 1.1 ? (a.subarray(0, n) as T) : (a.slice(0, n) as T));
+      const fit = <T extends Float64Array | Int32Array>(a: T): T =>
+        a.length === n ? a : a.length <= n * 1.1 ? (a.subarray(0, n) as T) : (a.slice(0, n) as T);
       if (bd.numeric) columns.set(bd.name, { kind: "numeric", name: bd.name, values: fit(bd.values) });
       else
         columns.set(bd.name, {
-          kind: "factor", name: bd.name, codes: fit(bd.codes), levels: bd.levels,
+          kind: "factor",
+          name: bd.name,
+          codes: fit(bd.codes),
+          levels: bd.levels,
           reason: bd.forced ? { forced: true } : { forced: false, row: bd.firstText!.row, value: bd.firstText!.value },
         });
     }

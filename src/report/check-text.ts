@@ -14,17 +14,30 @@ export function renderCheckText(r: CheckResult, o: { style: Style; width: number
   out.push("");
   const rows: string[][] = [["test", "statistic", "df", "p-value", "flag", "reference"]];
   for (const t of r.tests)
-    rows.push([t.label, fixed(t.statistic, 3), t.df === null ? "" : fixed(t.df, 0), pValue(t.p_value), t.flagged ? st.caution("FLAG") : "ok", t.reference]);
+    rows.push([
+      t.label,
+      fixed(t.statistic, 3),
+      t.df === null ? "" : fixed(t.df, 0),
+      pValue(t.p_value),
+      t.flagged ? st.caution("FLAG") : "ok",
+      t.reference,
+    ]);
   out.push(...table(rows, ["l", "r", "r", "r", "l", "l"]));
   out.push("");
   out.push(st.heading("Readings"));
-  for (const t of r.tests) out.push(...wrap(`${t.label}: ${t.reading}.`, o.width - 2, "    ").map((l) => "  " + l));
+  for (const t of r.tests) out.push(...wrap(`${t.label}: ${t.reading}.`, o.width - 2, "    ").map((l) => `  ${l}`));
   out.push("");
   const paint = r.verdict.code === "poisson_adequate" ? st.good : st.caution;
   out.push(st.heading("Verdict"));
-  out.push(...wrap(paint(r.verdict.text), o.width - 2, "  ").map((l) => "  " + l));
-  out.push(...wrap(`Next: ${r.verdict.next_step}`, o.width - 2, "  ").map((l) => "  " + l));
+  out.push(...wrap(paint(r.verdict.text), o.width - 2, "  ").map((l) => `  ${l}`));
+  out.push(...wrap(`Next: ${r.verdict.next_step}`, o.width - 2, "  ").map((l) => `  ${l}`));
   out.push("");
-  out.push(...closingBlock(r.warnings.filter((w) => !/left out$/.test(w)), st, o.width));
-  return out.join("\n") + "\n";
+  out.push(
+    ...closingBlock(
+      r.warnings.filter((w) => !/left out$/.test(w)),
+      st,
+      o.width,
+    ),
+  );
+  return `${out.join("\n")}\n`;
 }

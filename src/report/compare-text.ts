@@ -8,26 +8,51 @@ export function renderCompareText(r: CompareResult, o: { style: Style; width: nu
   const st = o.style;
   const out: string[] = [];
   out.push(st.heading("Model comparison on the same rows"));
-  out.push(`  data    ${r.source}: ${fixed(r.n_rows, 0)} rows, ${fixed(r.n_used, 0)} used by every model${r.n_dropped ? `, ${r.n_dropped} left out (${[r.dropped.missing ? `${r.dropped.missing} with a missing value in a column some model uses` : "", r.dropped.zero_exposure_zero_count ? `${r.dropped.zero_exposure_zero_count} with zero exposure and zero count` : "", r.dropped.zero_weight ? `${r.dropped.zero_weight} with weight 0` : ""].filter(Boolean).join("; ")})` : ""}`);
+  out.push(
+    `  data    ${r.source}: ${fixed(r.n_rows, 0)} rows, ${fixed(r.n_used, 0)} used by every model${r.n_dropped ? `, ${r.n_dropped} left out (${[r.dropped.missing ? `${r.dropped.missing} with a missing value in a column some model uses` : "", r.dropped.zero_exposure_zero_count ? `${r.dropped.zero_exposure_zero_count} with zero exposure and zero count` : "", r.dropped.zero_weight ? `${r.dropped.zero_weight} with weight 0` : ""].filter(Boolean).join("; ")})` : ""}`,
+  );
   out.push("");
   const rows: string[][] = [["#", "model", "family", "parameters", "log-likelihood", "AIC", "BIC", "preferred by"]];
   for (const m of r.models)
-    rows.push([String(m.index), m.model, m.family, String(m.n_parameters), m.log_likelihood === null ? "–" : fixed(m.log_likelihood, 2), m.aic === null ? "–" : fixed(m.aic, 2), m.bic === null ? "–" : fixed(m.bic, 2), m.preferred_by.length ? st.good(m.preferred_by.join(", ")) : ""]);
+    rows.push([
+      String(m.index),
+      m.model,
+      m.family,
+      String(m.n_parameters),
+      m.log_likelihood === null ? "–" : fixed(m.log_likelihood, 2),
+      m.aic === null ? "–" : fixed(m.aic, 2),
+      m.bic === null ? "–" : fixed(m.bic, 2),
+      m.preferred_by.length ? st.good(m.preferred_by.join(", ")) : "",
+    ]);
   out.push(...table(rows, ["r", "l", "l", "r", "r", "r", "r", "l"]));
   out.push("");
   if (r.nested.length) {
     out.push(st.heading("Nested pairs (smaller ⊂ larger)"));
     const prow: string[][] = [["pair", "test", "df", "statistic", "p-value", ""]];
     for (const p of r.nested)
-      prow.push([`${p.smaller} ⊂ ${p.larger}`, p.test, String(p.df), p.statistic === null ? "–" : fixed(p.statistic, 3), pValue(p.p_value), p.note ?? ""]);
+      prow.push([
+        `${p.smaller} ⊂ ${p.larger}`,
+        p.test,
+        String(p.df),
+        p.statistic === null ? "–" : fixed(p.statistic, 3),
+        pValue(p.p_value),
+        p.note ?? "",
+      ]);
     out.push(...table(prow, ["l", "l", "r", "r", "r", "l"]));
     out.push("");
   }
   if (r.not_nested.length) {
-    out.push(...wrap(`Not nested: ${r.not_nested.map(([a, b]) => `${a} and ${b}`).join("; ")}; these are compared by AIC and BIC only (lower is better).`, o.width - 2, "  ").map((l) => "  " + l));
+    out.push(
+      ...wrap(
+        `Not nested: ${r.not_nested.map(([a, b]) => `${a} and ${b}`).join("; ")}; these are compared by AIC and BIC only (lower is better).`,
+        o.width - 2,
+        "  ",
+      ).map((l) => `  ${l}`),
+    );
     out.push("");
   }
-  for (const n of r.notes.filter((n) => !n.startsWith("models that are not nested"))) out.push(...wrap(`Note: ${n}.`, o.width - 2, "  ").map((l) => "  " + l));
+  for (const n of r.notes.filter((n) => !n.startsWith("models that are not nested")))
+    out.push(...wrap(`Note: ${n}.`, o.width - 2, "  ").map((l) => `  ${l}`));
   out.push(...wrap(`Reading these results: ${CAUTION}`, o.width));
-  return out.join("\n") + "\n";
+  return `${out.join("\n")}\n`;
 }

@@ -9,7 +9,7 @@ function jsonValue(_k: string, v: unknown): unknown {
 }
 
 export function renderJson(value: unknown): string {
-  return JSON.stringify(value, jsonValue, 2) + "\n";
+  return `${JSON.stringify(value, jsonValue, 2)}\n`;
 }
 
 /** RFC 4180 field quoting. */
@@ -20,20 +20,49 @@ export function csvField(v: unknown): string {
 }
 
 export function renderFitCsv(s: FitSummary): string {
-  const head = ["term", "estimate", "std_error", "z", "p_value", "rate_ratio", "wald_low", "wald_high", "profile_low", "profile_high", "status"];
+  const head = [
+    "term",
+    "estimate",
+    "std_error",
+    "z",
+    "p_value",
+    "rate_ratio",
+    "wald_low",
+    "wald_high",
+    "profile_low",
+    "profile_high",
+    "status",
+  ];
   const lines = [head.join(",")];
   for (const c of s.coefficients)
     lines.push(
-      [c.term, c.estimate, c.std_error, c.z, c.p_value, c.rate_ratio, c.wald?.[0], c.wald?.[1], c.profile?.[0], c.profile?.[1], c.status].map(csvField).join(","),
+      [
+        c.term,
+        c.estimate,
+        c.std_error,
+        c.z,
+        c.p_value,
+        c.rate_ratio,
+        c.wald?.[0],
+        c.wald?.[1],
+        c.profile?.[0],
+        c.profile?.[1],
+        c.status,
+      ]
+        .map(csvField)
+        .join(","),
     );
-  return lines.join("\n") + "\n";
+  return `${lines.join("\n")}\n`;
 }
 
 export function renderFitMarkdown(s: FitSummary): string {
   const lv = `${+(s.level * 100).toFixed(2)}%`;
   const out: string[] = [];
   out.push(`### ${s.family} rate model for \`${s.response}\``, "");
-  out.push(`Model \`${s.model}\`${s.exposure ? `, exposure \`${s.exposure}\`` : ""}; ${s.n_used} of ${s.n_rows} rows used.`, "");
+  out.push(
+    `Model \`${s.model}\`${s.exposure ? `, exposure \`${s.exposure}\`` : ""}; ${s.n_used} of ${s.n_rows} rows used.`,
+    "",
+  );
   out.push(`| term | rate ratio | Wald ${lv} | profile ${lv} | p-value |`, "|---|---:|---:|---:|---:|");
   for (const c of s.coefficients) {
     if (c.kind === "intercept") continue;
@@ -41,7 +70,10 @@ export function renderFitMarkdown(s: FitSummary): string {
     out.push(`| ${c.term} | ${rr} | ${interval(c.wald)} | ${interval(c.profile)} | ${pValue(c.p_value)} |`);
   }
   out.push("");
-  out.push(`Deviance ${fixed(s.deviance, 2)} on ${s.df_residual} df; Pearson chi-square / df ${fixed(s.dispersion.pearson, 3)}; AIC ${fixed(s.aic, 2)}.`, "");
+  out.push(
+    `Deviance ${fixed(s.deviance, 2)} on ${s.df_residual} df; Pearson chi-square / df ${fixed(s.dispersion.pearson, 3)}; AIC ${fixed(s.aic, 2)}.`,
+    "",
+  );
   if (s.warnings.length) {
     out.push("Warnings:", "");
     s.warnings.forEach((w, i) => out.push(`${i + 1}. ${w}`));

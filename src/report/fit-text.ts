@@ -28,7 +28,8 @@ function pct(level: number): string {
 function droppedText(s: FitSummary): string {
   const parts: string[] = [];
   if (s.dropped.missing) parts.push(`${s.dropped.missing} with missing values`);
-  if (s.dropped.zero_exposure_zero_count) parts.push(`${s.dropped.zero_exposure_zero_count} with zero exposure and zero count`);
+  if (s.dropped.zero_exposure_zero_count)
+    parts.push(`${s.dropped.zero_exposure_zero_count} with zero exposure and zero count`);
   if (s.dropped.zero_weight) parts.push(`${s.dropped.zero_weight} with weight 0`);
   return parts.length ? `, ${s.n_dropped} left out (${parts.join("; ")})` : "";
 }
@@ -61,8 +62,21 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
   out.push(st.heading(`${FAMILY_TITLE[s.family]} rate model for ${s.response}, log link${exposureText}`));
   out.push(`  data    ${s.source}: ${fixed(s.n_rows, 0)} rows, ${fixed(s.n_used, 0)} used${droppedText(s)}`);
   out.push(`  model   ${s.model}${s.weights ? `   (frequency weights: ${s.weights})` : ""}`);
-  out.push(...labelled("fit", `${s.converged ? "converged" : st.bad("did NOT converge")} after ${s.iterations} ${s.family === "negbin" && s.negbin && !s.negbin.boundary ? "rounds of IRLS alternating with a Newton step for alpha" : `IRLS iteration${s.iterations === 1 ? "" : "s"}`}${mergedText(s)}`, o.width));
-  if (s.family_choice) out.push(...labelled("family", `${s.family_choice.used} (--family ${s.family_choice.requested}): ${s.family_choice.reason}`, o.width));
+  out.push(
+    ...labelled(
+      "fit",
+      `${s.converged ? "converged" : st.bad("did NOT converge")} after ${s.iterations} ${s.family === "negbin" && s.negbin && !s.negbin.boundary ? "rounds of IRLS alternating with a Newton step for alpha" : `IRLS iteration${s.iterations === 1 ? "" : "s"}`}${mergedText(s)}`,
+      o.width,
+    ),
+  );
+  if (s.family_choice)
+    out.push(
+      ...labelled(
+        "family",
+        `${s.family_choice.used} (--family ${s.family_choice.requested}): ${s.family_choice.reason}`,
+        o.width,
+      ),
+    );
   out.push("");
 
   // Rate ratios, grouped by term.
@@ -85,12 +99,21 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
       if (h) rows.push([h, "", ...(showW ? [""] : []), ...(showP ? [""] : []), ""]);
       for (const c of members) {
         const label = (h ? "  " : "") + c.term;
-        if (c.status === "aliased") { rows.push([label, "aliased", ...(showW ? [""] : []), ...(showP ? [""] : []), ""]); continue; }
+        if (c.status === "aliased") {
+          rows.push([label, "aliased", ...(showW ? [""] : []), ...(showP ? [""] : []), ""]);
+          continue;
+        }
         if (c.status === "no_events") {
           rows.push([label, "0 (no events)", ...(showW ? ["–"] : []), ...(showP ? [interval(c.profile)] : []), "–"]);
           continue;
         }
-        rows.push([label, sig(c.rate_ratio), ...(showW ? [interval(c.wald)] : []), ...(showP ? [c.profile ? interval(c.profile) : "–"] : []), pValue(c.p_value)]);
+        rows.push([
+          label,
+          sig(c.rate_ratio),
+          ...(showW ? [interval(c.wald)] : []),
+          ...(showP ? [c.profile ? interval(c.profile) : "–"] : []),
+          pValue(c.p_value),
+        ]);
       }
     }
     const align: ("l" | "r")[] = ["l", "r", ...(showW ? ["r" as const] : []), ...(showP ? ["r" as const] : []), "r"];
@@ -107,8 +130,9 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
     out.push(
       ...wrap(
         `Baseline rate: ${sig(s.baseline.rate)} ${s.response} ${per}${at.length ? ` at ${at.join(", ")}` : ""} (Wald ${lv} ${interval(s.baseline.wald)}).`,
-        o.width - 2, "  ",
-      ).map((l) => "  " + l),
+        o.width - 2,
+        "  ",
+      ).map((l) => `  ${l}`),
     );
   }
   out.push("");
@@ -127,15 +151,24 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
       : s.family === "quasipoisson"
         ? `standard errors from the inverse Fisher information times √φ (φ = ${fixed(s.dispersion.phi_used, 3)})`
         : "standard errors from the inverse Fisher information";
-  out.push(`  ${seText}; ${s.test_distribution === "t" ? `t and p against Student's t on ${fixed(s.df_residual, 0)} df` : "z and p against the standard normal"}`);
+  out.push(
+    `  ${seText}; ${s.test_distribution === "t" ? `t and p against Student's t on ${fixed(s.df_residual, 0)} df` : "z and p against the standard normal"}`,
+  );
   if (s.profile_reference) out.push(`  profile limits: ${s.profile_reference}`);
   out.push("");
 
-  if (s.term_tests && s.term_tests.length) {
+  if (s.term_tests?.length) {
     const kind = s.term_tests[0].test === "F" ? "F test (deviance change / df / φ)" : "likelihood-ratio test";
     out.push(st.heading(`Dropping each term (${kind}, other terms kept, same rows)`));
     const trows: string[][] = [["term", "df", s.term_tests[0].test === "F" ? "F" : "LR chi-square", "p-value", ""]];
-    for (const t of s.term_tests) trows.push([t.term, t.df ? String(t.df) : "", t.statistic === null ? "–" : fixed(t.statistic, 2), pValue(t.p_value), t.note ?? ""]);
+    for (const t of s.term_tests)
+      trows.push([
+        t.term,
+        t.df ? String(t.df) : "",
+        t.statistic === null ? "–" : fixed(t.statistic, 2),
+        pValue(t.p_value),
+        t.note ?? "",
+      ]);
     out.push(...table(trows, ["l", "r", "r", "r", "l"]));
     out.push("");
   }
@@ -156,14 +189,31 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
     const nb = s.negbin;
     out.push(st.heading("Negative-binomial dispersion (variance = mu + alpha·mu²)"));
     const nrows: string[][] = [
-      ["alpha", sig(nb.alpha), nb.alpha_std_error !== null ? `std. error ${sig(nb.alpha_std_error)}` : "", nb.alpha_ci ? `${lv} ${interval(nb.alpha_ci)} (Wald on log alpha)` : ""],
+      [
+        "alpha",
+        sig(nb.alpha),
+        nb.alpha_std_error !== null ? `std. error ${sig(nb.alpha_std_error)}` : "",
+        nb.alpha_ci ? `${lv} ${interval(nb.alpha_ci)} (Wald on log alpha)` : "",
+      ],
       ["theta = 1/alpha", nb.theta === null ? "∞" : sig(nb.theta), "", ""],
       ["log-likelihood", fixed(s.log_likelihood, 2), `Poisson ${fixed(nb.poisson_log_likelihood, 2)}`, ""],
       ["AIC", fixed(s.aic, 2), `Poisson ${fixed(nb.poisson_aic, 2)}`, ""],
-      ["LR test of alpha = 0", fixed(nb.lr_stat, 2), pEquals(nb.lr_p_value), "½·chi-square(1) tail, alpha = 0 is on the boundary"],
+      [
+        "LR test of alpha = 0",
+        fixed(nb.lr_stat, 2),
+        pEquals(nb.lr_p_value),
+        "½·chi-square(1) tail, alpha = 0 is on the boundary",
+      ],
     ];
     out.push(...table(nrows, ["l", "r", "l", "l"]));
-    if (nb.boundary) out.push(...wrap(st.good("alpha is 0 at the maximum: the negative binomial reduces to the Poisson here."), o.width - 2, "  ").map((l) => "  " + l));
+    if (nb.boundary)
+      out.push(
+        ...wrap(
+          st.good("alpha is 0 at the maximum: the negative binomial reduces to the Poisson here."),
+          o.width - 2,
+          "  ",
+        ).map((l) => `  ${l}`),
+      );
     out.push("");
   }
   out.push(st.heading("Dispersion"));
@@ -176,12 +226,22 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
   }
 
   if (s.summary_by) {
-    out.push(st.heading(`Observed and expected by ${s.summary_by.column} (O/E limits: exact Poisson limits of the observed count, divided by the expected)`));
+    out.push(
+      st.heading(
+        `Observed and expected by ${s.summary_by.column} (O/E limits: exact Poisson limits of the observed count, divided by the expected)`,
+      ),
+    );
     out.push(...groupTable(s.summary_by));
     out.push("");
   }
-  out.push(...closingBlock(s.warnings.filter((w) => !s.notices.includes(w)), st, o.width));
-  return out.join("\n") + "\n";
+  out.push(
+    ...closingBlock(
+      s.warnings.filter((w) => !s.notices.includes(w)),
+      st,
+      o.width,
+    ),
+  );
+  return `${out.join("\n")}\n`;
 }
 
 /** Numbered warnings (when there are any), then the short caution that ends every report. */
@@ -189,7 +249,7 @@ export function closingBlock(warns: string[], st: Style, width: number): string[
   const out: string[] = [];
   if (warns.length) {
     out.push(st.caution("Warnings"));
-    warns.forEach((w, i) => out.push(...wrap(`${i + 1}. ${w}`, width - 2, "   ").map((l) => "  " + l)));
+    warns.forEach((w, i) => out.push(...wrap(`${i + 1}. ${w}`, width - 2, "   ").map((l) => `  ${l}`)));
     out.push("");
   }
   out.push(...wrap(`Reading these results: ${CAUTION}`, width));
@@ -201,12 +261,19 @@ function dispersionBlock(s: FitSummary, o: TextOptions): string[] {
   const d = s.dispersion;
   const out: string[] = [];
   const rows = [
-    ["Pearson chi-square / df", fixed(d.pearson, 3), Number.isNaN(d.pearson_p_value) ? "" : `${pEquals(d.pearson_p_value)} against chi-square on ${fixed(s.df_residual, 0)} df`],
+    [
+      "Pearson chi-square / df",
+      fixed(d.pearson, 3),
+      Number.isNaN(d.pearson_p_value)
+        ? ""
+        : `${pEquals(d.pearson_p_value)} against chi-square on ${fixed(s.df_residual, 0)} df`,
+    ],
     ["deviance / df", fixed(d.deviance, 3), Number.isNaN(d.deviance_p_value) ? "" : pEquals(d.deviance_p_value)],
   ];
   out.push(...table(rows, ["l", "r", "l"]));
   let verdict: string;
-  if (s.df_residual <= 0) verdict = st.caution("No residual degrees of freedom: the dispersion cannot be judged from this fit.");
+  if (s.df_residual <= 0)
+    verdict = st.caution("No residual degrees of freedom: the dispersion cannot be judged from this fit.");
   else if (s.family === "poisson") {
     if (d.pearson > 1 && d.pearson_p_value < 0.05)
       verdict = st.caution(
@@ -214,11 +281,17 @@ function dispersionBlock(s: FitSummary, o: TextOptions): string[] {
           "Run `tallyfit check` for the formal tests, and refit with --family negbin or --family quasipoisson.",
       );
     else if (d.pearson < 1 && 1 - d.pearson_p_value < 0.05)
-      verdict = st.caution(`The counts vary less than a Poisson model expects (Pearson ratio ${fixed(d.pearson, 2)}); the intervals above are conservative.`);
-    else verdict = st.good(`Consistent with Poisson variation (variance close to the mean): the Pearson ratio is ${fixed(d.pearson, 2)}.`);
+      verdict = st.caution(
+        `The counts vary less than a Poisson model expects (Pearson ratio ${fixed(d.pearson, 2)}); the intervals above are conservative.`,
+      );
+    else
+      verdict = st.good(
+        `Consistent with Poisson variation (variance close to the mean): the Pearson ratio is ${fixed(d.pearson, 2)}.`,
+      );
   } else if (s.family === "quasipoisson")
     verdict = `Standard errors are scaled by √φ = ${fixed(Math.sqrt(d.phi_used), 3)} to allow for the extra variation.`;
-  else verdict = `The negative-binomial variance mu + alpha·mu² allows for extra variation; ratios near 1 mean it accounts for it.`;
-  out.push(...wrap(verdict, o.width - 2, "  ").map((l) => "  " + l));
+  else
+    verdict = `The negative-binomial variance mu + alpha·mu² allows for extra variation; ratios near 1 mean it accounts for it.`;
+  out.push(...wrap(verdict, o.width - 2, "  ").map((l) => `  ${l}`));
   return out;
 }

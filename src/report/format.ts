@@ -55,7 +55,14 @@ export function padStart(s: string, w: number): string {
 /** Lay out rows of cells as aligned columns (numbers right-aligned). */
 export function table(rows: string[][], align: ("l" | "r")[], indent = "  ", gap = "   "): string[] {
   const widths = align.map((_, j) => Math.max(...rows.map((r) => [...(r[j] ?? "")].length)));
-  return rows.map((r) => indent + r.map((cell, j) => (align[j] === "r" ? padStart(cell, widths[j]) : padEnd(cell, widths[j]))).join(gap).trimEnd());
+  return rows.map(
+    (r) =>
+      indent +
+      r
+        .map((cell, j) => (align[j] === "r" ? padStart(cell, widths[j]) : padEnd(cell, widths[j])))
+        .join(gap)
+        .trimEnd(),
+  );
 }
 
 /** Simple word wrap at `width` columns with a hanging indent. */
@@ -67,7 +74,7 @@ export function wrap(text: string, width: number, indent = ""): string[] {
     if (cur.length > 0 && cur.length + 1 + w.length > width) {
       lines.push(cur);
       cur = indent + w;
-    } else cur = cur.length === 0 ? (lines.length === 0 ? w : indent + w) : cur + " " + w;
+    } else cur = cur.length === 0 ? (lines.length === 0 ? w : indent + w) : `${cur} ${w}`;
   }
   if (cur) lines.push(cur);
   return lines;
@@ -79,12 +86,22 @@ export function pEquals(p: number | null | undefined): string {
   return t.startsWith("<") ? `p < ${t.slice(1)}` : `p = ${t}`;
 }
 
-
 /** The --summary-by table: observed, expected, O/E with exact limits, exposure and crude rate. */
 export function groupTable(g: GroupSummary): string[] {
   const lv = `${+(g.level * 100).toFixed(2)}%`;
-  const rows: string[][] = [[g.column, "rows", "observed", "expected", "O/E", `exact ${lv}`, "exposure", `rate per ${group(String(g.per))}`]];
+  const rows: string[][] = [
+    [g.column, "rows", "observed", "expected", "O/E", `exact ${lv}`, "exposure", `rate per ${group(String(g.per))}`],
+  ];
   for (const r of g.groups)
-    rows.push([r.group, String(r.rows), fixed(r.observed, 0), fixed(r.expected, 1), r.ratio === null ? "–" : fixed(r.ratio, 3), r.ratio_ci ? interval(r.ratio_ci) : "–", r.exposure === null ? "–" : fixed(r.exposure, 1), r.crude_rate === null ? "–" : sig(r.crude_rate)]);
+    rows.push([
+      r.group,
+      String(r.rows),
+      fixed(r.observed, 0),
+      fixed(r.expected, 1),
+      r.ratio === null ? "–" : fixed(r.ratio, 3),
+      r.ratio_ci ? interval(r.ratio_ci) : "–",
+      r.exposure === null ? "–" : fixed(r.exposure, 1),
+      r.crude_rate === null ? "–" : sig(r.crude_rate),
+    ]);
   return table(rows, ["l", "r", "r", "r", "r", "r", "r", "r"]);
 }

@@ -1,18 +1,19 @@
 // Writing the saved-model record from a fit.
 import type { Design } from "../design/design.js";
-import type { ModelFit } from "../fit/model.js";
-import { quasiPhi } from "../infer/summary.js";
-import { MODEL_SCHEMA, type SavedModel } from "../model/saved.js";
+import type { CountFit } from "../fit/count-fit.js";
+import { quasiPhi } from "../infer/fit-statistics.js";
+import { MODEL_FILE_SCHEMA, type ModelFile } from "../io/model-file.js";
 
-export function savedModelOf(design: Design, mf: ModelFit, meta: { version: string; sha256: string }): SavedModel {
+export function modelFileOf(design: Design, mf: CountFit, meta: { version: string; sha256: string }): ModelFile {
   const fit = mf.fit;
   const est = fit.estimable;
   const q = fit.covariance.p;
   const factorNames = new Set(design.factors.map((f) => f.name));
   const numeric: string[] = [];
-  for (const t of design.model.terms) for (const v of t.variables) if (!factorNames.has(v) && !numeric.includes(v)) numeric.push(v);
+  for (const t of design.model.terms)
+    for (const v of t.variables) if (!factorNames.has(v) && !numeric.includes(v)) numeric.push(v);
   return {
-    schema: MODEL_SCHEMA,
+    schema: MODEL_FILE_SCHEMA,
     tool: { name: "tallyfit", version: meta.version },
     data: { source: design.source, sha256: meta.sha256, n_rows: design.nRows, n_used: design.n },
     family: mf.family,

@@ -17,6 +17,9 @@ function fontFiles(): string[] {
 
 export function svgToPng(svg: string): Buffer {
   const { Resvg } = require("@resvg/resvg-js") as typeof import("@resvg/resvg-js");
-  const r = new Resvg(svg, { font: { fontFiles: fontFiles(), loadSystemFonts: false, defaultFontFamily: "DejaVu Sans" }, fitTo: { mode: "original" } });
+  const r = new Resvg(svg, {
+    font: { fontFiles: fontFiles(), loadSystemFonts: false, defaultFontFamily: "DejaVu Sans" },
+    fitTo: { mode: "original" },
+  });
   return r.render().asPng();
 }

@@ -5,7 +5,15 @@ import { csvField } from "./fit-tabular.js";
 import { fixed, groupTable, sig, table, wrap } from "./format.js";
 import type { Style } from "./style.js";
 
-export const PREDICT_COLUMNS = ["expected", "expected_low", "expected_high", "predicted_low", "predicted_high", "upper_tail_p", "flagged"];
+export const PREDICT_COLUMNS = [
+  "expected",
+  "expected_low",
+  "expected_high",
+  "predicted_low",
+  "predicted_high",
+  "upper_tail_p",
+  "flagged",
+];
 
 export function renderPredictCsv(records: string[][], r: PredictResult): string {
   const [header, ...rows] = records;
@@ -14,22 +22,61 @@ export function renderPredictCsv(records: string[][], r: PredictResult): string 
   rows.forEach((rec, k) => {
     const p = byRow.get(k + 2);
     if (!p) return;
-    lines.push([...rec, p.expected, p.mean_ci[0], p.mean_ci[1], p.prediction_interval[0], p.prediction_interval[1], p.upper_tail_p, p.flagged].map(csvField).join(","));
+    lines.push(
+      [
+        ...rec,
+        p.expected,
+        p.mean_ci[0],
+        p.mean_ci[1],
+        p.prediction_interval[0],
+        p.prediction_interval[1],
+        p.upper_tail_p,
+        p.flagged,
+      ]
+        .map(csvField)
+        .join(","),
+    );
   });
-  return lines.join("\n") + "\n";
+  return `${lines.join("\n")}\n`;
 }
 
 export const FLAG_CAUTION =
   "A flag is a signal for follow-up, not a finding: counts beyond a limit happen by chance about as often as the flag level allows, " +
   "and local surveillance protocols and qualified review decide what is done.";
 
-export function renderPredictText(r: PredictResult, groups: GroupSummary | undefined, o: { style: Style; width: number; labels?: string[]; labelHeading?: string }): string {
+export function renderPredictText(
+  r: PredictResult,
+  groups: GroupSummary | undefined,
+  o: { style: Style; width: number; labels?: string[]; labelHeading?: string },
+): string {
   const st = o.style;
   const lv = `${+(r.level * 100).toFixed(2)}%`;
   const out: string[] = [st.heading(`Expected counts under ${r.family} model ${r.model}`), ""];
-  const rows: string[][] = [["row", o.labelHeading ?? "", "expected", `mean ${lv}`, `new count ${lv}`, "observed", "P(Y ≥ obs)", `limit at ${r.flag_level}`, "flag"]];
+  const rows: string[][] = [
+    [
+      "row",
+      o.labelHeading ?? "",
+      "expected",
+      `mean ${lv}`,
+      `new count ${lv}`,
+      "observed",
+      "P(Y ≥ obs)",
+      `limit at ${r.flag_level}`,
+      "flag",
+    ],
+  ];
   for (const [k, p] of r.rows.entries())
-    rows.push([String(p.row), o.labels?.[k] ?? "", fixed(p.expected, 2), `${sig(p.mean_ci[0])} – ${sig(p.mean_ci[1])}`, `${p.prediction_interval[0]} – ${p.prediction_interval[1]}`, p.observed === null ? "–" : String(p.observed), p.upper_tail_p === null ? "–" : sig(p.upper_tail_p, 3), String(p.flag_limit), p.flagged ? st.caution("FLAG") : ""]);
+    rows.push([
+      String(p.row),
+      o.labels?.[k] ?? "",
+      fixed(p.expected, 2),
+      `${sig(p.mean_ci[0])} – ${sig(p.mean_ci[1])}`,
+      `${p.prediction_interval[0]} – ${p.prediction_interval[1]}`,
+      p.observed === null ? "–" : String(p.observed),
+      p.upper_tail_p === null ? "–" : sig(p.upper_tail_p, 3),
+      String(p.flag_limit),
+      p.flagged ? st.caution("FLAG") : "",
+    ]);
   out.push(...table(rows, ["r", "l", "r", "r", "r", "r", "r", "r", "l"]));
   out.push("");
   if (groups) {
@@ -39,5 +86,5 @@ export function renderPredictText(r: PredictResult, groups: GroupSummary | undef
   }
   out.push(...wrap(`${r.n_flagged} of ${r.rows.length} rows flagged. Method: ${r.method}.`, o.width));
   out.push(...wrap(FLAG_CAUTION, o.width));
-  return out.join("\n") + "\n";
+  return `${out.join("\n")}\n`;
 }

@@ -15,7 +15,12 @@ export function makeStyle(color: boolean): Style {
   }
   const c = new Chalk({ level: 1 });
   // Blue and orange stay distinct for the common colour-vision deficiencies; bold carries the meaning in greyscale.
-  return { good: (s) => c.blue(s), caution: (s) => c.bold.yellow(s), bad: (s) => c.bold.red(s), heading: (s) => c.bold(s) };
+  return {
+    good: (s) => c.blue(s),
+    caution: (s) => c.bold.yellow(s),
+    bad: (s) => c.bold.red(s),
+    heading: (s) => c.bold(s),
+  };
 }
 
 /** Whether to colour a stream: a TTY, no NO_COLOR, no --no-color. */

@@ -6,7 +6,7 @@
 // so the page also reads in greyscale.
 import type { FitSummary } from "../infer/summary.js";
 import type { Rootogram } from "../infer/diagnostics.js";
-import { normalQuantile } from "../infer/distributions.js";
+import { normalQuantile } from "../math/distributions.js";
 
 const INK = "#22313f";
 const DATA = "#3f6e8c";
@@ -29,12 +29,17 @@ function esc(s: string): string {
 
 const f2 = (x: number) => (Math.round(x * 100) / 100).toString();
 
-interface Box { x: number; y: number; w: number; h: number }
+interface Box {
+  x: number;
+  y: number;
+  w: number;
+  h: number;
+}
 
 function niceTicks(lo: number, hi: number, n = 5): number[] {
   if (!Number.isFinite(lo) || !Number.isFinite(hi)) return [];
   const span = hi - lo || 1;
-  const step0 = Math.pow(10, Math.floor(Math.log10(span / n)));
+  const step0 = 10 ** Math.floor(Math.log10(span / n));
   const step = [1, 2, 5, 10].map((m) => m * step0).find((s) => span / s <= n) ?? step0 * 10;
   const out: number[] = [];
   for (let t = Math.ceil(lo / step) * step; t <= hi + 1e-9 * span; t += step) out.push(+t.toPrecision(12));
@@ -43,10 +48,17 @@ function niceTicks(lo: number, hi: number, n = 5): number[] {
 
 function logTicks(lo: number, hi: number): number[] {
   if (!(lo > 0) || !Number.isFinite(hi)) return [];
-  for (const ms of [[1, 2, 5], [1, 1.5, 2, 3, 5, 7], [1, 1.2, 1.5, 2, 2.5, 3, 4, 5, 6, 7, 8, 9]]) {
+  for (const ms of [
+    [1, 2, 5],
+    [1, 1.5, 2, 3, 5, 7],
+    [1, 1.2, 1.5, 2, 2.5, 3, 4, 5, 6, 7, 8, 9],
+  ]) {
     const out: number[] = [];
     for (let e = Math.floor(Math.log10(lo)); e <= Math.ceil(Math.log10(hi)); e++)
-      for (const m of ms) { const v = +(m * Math.pow(10, e)).toPrecision(6); if (v >= lo * 0.999 && v <= hi * 1.001) out.push(v); }
+      for (const m of ms) {
+        const v = +(m * 10 ** e).toPrecision(6);
+        if (v >= lo * 0.999 && v <= hi * 1.001) out.push(v);
+      }
     if (out.length >= 3) return out;
   }
   return niceTicks(lo, hi, 4).filter((v) => v > 0);
@@ -55,7 +67,7 @@ function logTicks(lo: number, hi: number): number[] {
 function fmtTick(v: number): string {
   if (v === 0) return "0";
   const a = Math.abs(v);
-  return a >= 1e4 || a < 1e-3 ? v.toExponential(0) : +v.toPrecision(3) + "";
+  return a >= 1e4 || a < 1e-3 ? v.toExponential(0) : `${+v.toPrecision(3)}`;
 }
 
 function panel(b: Box, title: string, xlabel: string, ylabel: string, inner: string): string {
@@ -71,27 +83,49 @@ function panel(b: Box, title: string, xlabel: string, ylabel: string, inner: str
 }
 
 function axisX(b: Box, ticks: number[], sx: (v: number) => number, labels?: (v: number) => string): string {
-  return ticks.map((t) => `<line x1="${f2(sx(t))}" y1="${b.y}" x2="${f2(sx(t))}" y2="${b.y + b.h}" stroke="${GRID}"/><text x="${f2(sx(t))}" y="${b.y + b.h + 16}" font-size="11" text-anchor="middle" fill="${INK}">${esc((labels ?? fmtTick)(t))}</text>`).join("");
+  return ticks
+    .map(
+      (t) =>
+        `<line x1="${f2(sx(t))}" y1="${b.y}" x2="${f2(sx(t))}" y2="${b.y + b.h}" stroke="${GRID}"/><text x="${f2(sx(t))}" y="${b.y + b.h + 16}" font-size="11" text-anchor="middle" fill="${INK}">${esc((labels ?? fmtTick)(t))}</text>`,
+    )
+    .join("");
 }
 
 function axisY(b: Box, ticks: number[], sy: (v: number) => number): string {
-  return ticks.map((t) => `<line x1="${b.x}" y1="${f2(sy(t))}" x2="${b.x + b.w}" y2="${f2(sy(t))}" stroke="${GRID}"/><text x="${b.x - 6}" y="${f2(sy(t) + 4)}" font-size="11" text-anchor="end" fill="${INK}">${esc(fmtTick(t))}</text>`).join("");
+  return ticks
+    .map(
+      (t) =>
+        `<line x1="${b.x}" y1="${f2(sy(t))}" x2="${b.x + b.w}" y2="${f2(sy(t))}" stroke="${GRID}"/><text x="${b.x - 6}" y="${f2(sy(t) + 4)}" font-size="11" text-anchor="end" fill="${INK}">${esc(fmtTick(t))}</text>`,
+    )
+    .join("");
 }
 
 function rootogramPanel(b: Box, r: Rootogram): string {
   const K = r.counts.length - 1;
-  const se = r.expected.map(Math.sqrt), so = r.observed.map(Math.sqrt);
-  let ymax = 0, ymin = 0;
-  se.forEach((e, k) => { ymax = Math.max(ymax, e, so[k]); ymin = Math.min(ymin, e - so[k]); });
+  const se = r.expected.map(Math.sqrt),
+    so = r.observed.map(Math.sqrt);
+  let ymax = 0,
+    ymin = 0;
+  se.forEach((e, k) => {
+    ymax = Math.max(ymax, e, so[k]);
+    ymin = Math.min(ymin, e - so[k]);
+  });
   ymin = Math.min(ymin, -0.05 * ymax);
   const pad = 0.05 * (ymax - ymin);
   const sx = (k: number) => b.x + ((k + 0.5) / (K + 1)) * b.w;
   const sy = (v: number) => b.y + b.h - ((v - (ymin - pad)) / (ymax + pad - (ymin - pad))) * b.h;
   const bw = Math.max(1, (b.w / (K + 1)) * 0.8);
-  let s = axisY(b, niceTicks(ymin, ymax), sy) + axisX(b, niceTicks(0, K, 8).filter((t) => Number.isInteger(t)), sx);
+  let s =
+    axisY(b, niceTicks(ymin, ymax), sy) +
+    axisX(
+      b,
+      niceTicks(0, K, 8).filter((t) => Number.isInteger(t)),
+      sx,
+    );
   s += `<line x1="${b.x}" y1="${f2(sy(0))}" x2="${b.x + b.w}" y2="${f2(sy(0))}" stroke="${INK}" stroke-width="1.2"/>`;
   r.counts.forEach((k) => {
-    const top = se[k], bottom = se[k] - so[k];
+    const top = se[k],
+      bottom = se[k] - so[k];
     s += `<rect class="bar" x="${f2(sx(k) - bw / 2)}" y="${f2(sy(top))}" width="${f2(bw)}" height="${f2(Math.max(0, sy(bottom) - sy(top)))}" fill="${DATA_LIGHT}" stroke="${DATA}" stroke-width="0.8"/>`;
   });
   s += `<polyline class="curve" fill="none" stroke="${MODEL}" stroke-width="2.2" points="${r.counts.map((k) => `${f2(sx(k))},${f2(sy(se[k]))}`).join(" ")}"/>`;
@@ -100,14 +134,18 @@ function rootogramPanel(b: Box, r: Rootogram): string {
 
 function residualPanel(b: Box, fitted: Float64Array, res: Float64Array): string {
   const pos = [...fitted].filter((v) => v > 0);
-  const lo = Math.min(...pos), hi = Math.max(...pos);
-  const xl = Math.log10(lo) - 0.05, xh = Math.log10(hi) + 0.05;
+  const lo = Math.min(...pos),
+    hi = Math.max(...pos);
+  const xl = Math.log10(lo) - 0.05,
+    xh = Math.log10(hi) + 0.05;
   const rmax = Math.max(3.5, ...[...res].map((r) => Math.abs(r)));
   const sx = (v: number) => b.x + ((Math.log10(v) - xl) / (xh - xl)) * b.w;
   const sy = (v: number) => b.y + b.h / 2 - (v / (rmax * 1.05)) * (b.h / 2);
-  let s = axisY(b, niceTicks(-rmax, rmax, 6), sy) + axisX(b, logTicks(Math.pow(10, xl), Math.pow(10, xh)), sx);
+  let s = axisY(b, niceTicks(-rmax, rmax, 6), sy) + axisX(b, logTicks(10 ** xl, 10 ** xh), sx);
   s += `<line x1="${b.x}" y1="${f2(sy(0))}" x2="${b.x + b.w}" y2="${f2(sy(0))}" stroke="${MODEL}" stroke-width="1.5"/>`;
-  for (let i = 0; i < res.length; i++) if (fitted[i] > 0) s += `<circle class="pt" cx="${f2(sx(fitted[i]))}" cy="${f2(sy(res[i]))}" r="2.2" fill="${DATA}" fill-opacity="0.55"/>`;
+  for (let i = 0; i < res.length; i++)
+    if (fitted[i] > 0)
+      s += `<circle class="pt" cx="${f2(sx(fitted[i]))}" cy="${f2(sy(res[i]))}" r="2.2" fill="${DATA}" fill-opacity="0.55"/>`;
   return panel(b, "Randomized quantile residuals", "fitted mean (log scale)", "residual", s);
 }
 
@@ -120,12 +158,15 @@ function qqPanel(b: Box, res: Float64Array): string {
   const sy = (v: number) => b.y + b.h - ((v + m) / (2 * m)) * b.h;
   let s = axisY(b, niceTicks(-m, m), sy) + axisX(b, niceTicks(-m, m), sx);
   s += `<line x1="${f2(sx(-m))}" y1="${f2(sy(-m))}" x2="${f2(sx(m))}" y2="${f2(sy(m))}" stroke="${MODEL}" stroke-width="1.5"/>`;
-  for (let i = 0; i < n; i++) s += `<circle class="qq" cx="${f2(sx(th[i]))}" cy="${f2(sy(r[i]))}" r="2.2" fill="${DATA}" fill-opacity="0.55"/>`;
+  for (let i = 0; i < n; i++)
+    s += `<circle class="qq" cx="${f2(sx(th[i]))}" cy="${f2(sy(r[i]))}" r="2.2" fill="${DATA}" fill-opacity="0.55"/>`;
   return panel(b, "Normal quantiles of the residuals", "standard normal quantile", "residual quantile", s);
 }
 
 function forestPanel(b: Box, summary: FitSummary): string {
-  const rows = summary.coefficients.filter((c) => c.kind !== "intercept" && (c.status === "estimated" || c.status === "no_events"));
+  const rows = summary.coefficients.filter(
+    (c) => c.kind !== "intercept" && (c.status === "estimated" || c.status === "no_events"),
+  );
   const iv = (c: (typeof rows)[number]) => c.profile ?? c.wald;
   const vals: number[] = [1];
   const usable = (v: number | null | undefined): v is number => typeof v === "number" && v > 0 && Number.isFinite(v);
@@ -135,7 +176,8 @@ function forestPanel(b: Box, summary: FitSummary): string {
     if (usable(i?.[0])) vals.push(i![0]!);
     if (usable(i?.[1])) vals.push(i![1]!);
   }
-  const lo = Math.min(...vals) / 1.15, hi = Math.max(...vals) * 1.15;
+  const lo = Math.min(...vals) / 1.15,
+    hi = Math.max(...vals) * 1.15;
   const labelW = 190;
   const plot: Box = { x: b.x + labelW, y: b.y, w: b.w - labelW, h: b.h };
   const sx = (v: number) => plot.x + ((Math.log(v) - Math.log(lo)) / (Math.log(hi) - Math.log(lo))) * plot.w;
@@ -149,16 +191,24 @@ function forestPanel(b: Box, summary: FitSummary): string {
     const l = usable(i?.[0]) ? sx(i![0]!) : plot.x;
     const h = usable(i?.[1]) ? sx(i![1]!) : plot.x + plot.w;
     s += `<line class="ci" x1="${f2(l)}" y1="${f2(y)}" x2="${f2(h)}" y2="${f2(y)}" stroke="${DATA}" stroke-width="2"/>`;
-    if (c.status === "estimated" && usable(c.rate_ratio)) s += `<rect class="est" x="${f2(sx(c.rate_ratio) - 4)}" y="${f2(y - 4)}" width="8" height="8" fill="${MODEL}"/>`;
+    if (c.status === "estimated" && usable(c.rate_ratio))
+      s += `<rect class="est" x="${f2(sx(c.rate_ratio) - 4)}" y="${f2(y - 4)}" width="8" height="8" fill="${MODEL}"/>`;
     else s += `<text x="${f2(l + 4)}" y="${f2(y - 5)}" font-size="10" fill="${INK}">no events</text>`;
   });
   const which = summary.coefficients.some((c) => c.profile) ? "profile" : "Wald";
   const lv = `${+(summary.level * 100).toFixed(2)}%`;
-  return panel(b, `Rate ratios with ${lv} ${which} intervals`, "rate ratio (log scale; dashed line: no difference)", "", s);
+  return panel(
+    b,
+    `Rate ratios with ${lv} ${which} intervals`,
+    "rate ratio (log scale; dashed line: no difference)",
+    "",
+    s,
+  );
 }
 
 export function renderSvg(p: PlotInput): string {
-  const W = 1200, H = 880;
+  const W = 1200,
+    H = 880;
   const boxes: Box[] = [
     { x: 80, y: 90, w: 460, h: 300 },
     { x: 690, y: 90, w: 460, h: 300 },

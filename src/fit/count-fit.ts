@@ -5,7 +5,19 @@ import type { Design } from "../design/design.js";
 import type { PatternMerge } from "../design/patterns.js";
 import { FitError } from "../errors.js";
 import { countIndex, maxCount, unitDeviance } from "./family.js";
-import { DEFAULT_CONTROL, deriveSetup, devianceAt, driftWarnings, fitGlm, linearPredictorFrom, prepareFit, type FitControl, type FitSetup, type GlmFit, type Workspace } from "./irls.js";
+import {
+  DEFAULT_CONTROL,
+  deriveSetup,
+  devianceAt,
+  driftWarnings,
+  fitGlm,
+  linearPredictorFrom,
+  prepareFit,
+  type FitControl,
+  type FitSetup,
+  type GlmFit,
+  type Workspace,
+} from "./irls.js";
 import { fitNegbin, negbinLogLik } from "./negbin.js";
 
 export type FamilyName = "poisson" | "negbin" | "quasipoisson";
@@ -22,7 +34,7 @@ export interface NegbinPart {
   outerIterations: number;
 }
 
-export interface ModelFit {
+export interface CountFit {
   family: FamilyName;
   fit: GlmFit;
   nullDeviance: number;
@@ -33,12 +45,12 @@ export interface ModelFit {
    * patterns, which the constrained fits of term tests and profiles reuse.
    * Everything else in this record is per row of the design.
    */
-  patterns: { merge: PatternMerge; fit: ModelFit } | null;
+  patterns: { merge: PatternMerge; fit: CountFit } | null;
 }
 
 /**
  * What the constrained fits of term tests and profile limits need of a fit:
- * a ModelFit is one; fitBaseOf makes a lean copy to send to a worker thread.
+ * a CountFit is one; fitBaseOf makes a lean copy to send to a worker thread.
  */
 export interface FitBase {
   family: FamilyName;
@@ -54,8 +66,21 @@ export function fitBaseOf(mf: FitBase): FitBase {
     family: mf.family,
     control: mf.control,
     fit: {
-      beta: mf.fit.beta, status: mf.fit.status, deviance: mf.fit.deviance,
-      setup: { status: s.status, inFit: s.inFit, active: s.active, order: s.order, center: s.center, scale: s.scale, rowsAtZero: s.rowsAtZero, cells: s.cells, parentCells: s.parentCells, slotValues: s.slotValues },
+      beta: mf.fit.beta,
+      status: mf.fit.status,
+      deviance: mf.fit.deviance,
+      setup: {
+        status: s.status,
+        inFit: s.inFit,
+        active: s.active,
+        order: s.order,
+        center: s.center,
+        scale: s.scale,
+        rowsAtZero: s.rowsAtZero,
+        cells: s.cells,
+        parentCells: s.parentCells,
+        slotValues: s.slotValues,
+      },
     },
     negbin: mf.negbin ? { alpha: mf.negbin.alpha, logLik: mf.negbin.logLik, boundary: mf.negbin.boundary } : null,
   };
@@ -70,11 +95,10 @@ export interface FitModelOptions {
   onIteration?: (iteration: number, deviance: number) => void;
   /**
    * Negative binomial: the Poisson model it starts from and is tested against,
-   * already fitted on these rows (a ModelFit of family poisson, merged or not).
+   * already fitted on these rows (a CountFit of family poisson, merged or not).
    */
-  poisson?: ModelFit;
+  poisson?: CountFit;
 }
-
 
 /** Deviance of the model with only an intercept (same offset, weights and alpha): the yardstick for how much the terms explain. */
 export function nullDeviance(design: Design, alpha: number): number {
@@ -87,23 +111,39 @@ export function nullDeviance(design: Design, alpha: number): number {
   if (alpha === 0) {
     // Poisson closed form: exp(b0) = Σwy / Σw·exp(offset); the deviance is
     // 2Σw[y log y − y(offset + b0)] (Σw(y − mu) = 0 at b0), y log y tabulated by count.
-    let sy = 0, se = 0;
-    for (let i = 0; i < y.length; i++) { const w = weights ? weights[i] : 1; sy += w * y[i]; se += w * Math.exp(offset[i]); }
+    let sy = 0,
+      se = 0;
+    for (let i = 0; i < y.length; i++) {
+      const w = weights ? weights[i] : 1;
+      sy += w * y[i];
+      se += w * Math.exp(offset[i]);
+    }
     const b0 = Math.log(sy / se);
     const counts = countIndex(y);
     if (counts === null) {
       let d = 0;
-      for (let i = 0; i < y.length; i++) d += (weights ? weights[i] : 1) * unitDeviance(y[i], (Math.exp(offset[i]) * sy) / se, 0);
+      for (let i = 0; i < y.length; i++)
+        d += (weights ? weights[i] : 1) * unitDeviance(y[i], (Math.exp(offset[i]) * sy) / se, 0);
       return d;
     }
-    const top = maxCount(y), ylogy = new Float64Array(top + 1);
+    const top = maxCount(y),
+      ylogy = new Float64Array(top + 1);
     for (let k = 1; k <= top; k++) ylogy[k] = k * Math.log(k);
     let d = 0;
-    for (let i = 0; i < counts.length; i++) { const k = counts[i]; d += (weights ? weights[i] : 1) * (ylogy[k] - k * (offset[i] + b0)); }
+    for (let i = 0; i < counts.length; i++) {
+      const k = counts[i];
+      d += (weights ? weights[i] : 1) * (ylogy[k] - k * (offset[i] + b0));
+    }
     return 2 * d;
   }
   // The exposures themselves when the offset is only their log (no copy of a column of the rows' length).
-  return negbinInterceptOnlyDeviance(y, offset, weights, alpha, design.exposure && design.offsetName === null ? design.exposure : null);
+  return negbinInterceptOnlyDeviance(
+    y,
+    offset,
+    weights,
+    alpha,
+    design.exposure && design.offsetName === null ? design.exposure : null,
+  );
 }
 
 /**
@@ -112,23 +152,41 @@ export function nullDeviance(design: Design, alpha: number): number {
  * Σw·mu(1 + α·y)/(1 + α·mu)², mu = exposure·e^b0), kept inside a bracket on
  * the sign of the score, from the Poisson value log(Σwy / Σw·exposure).
  */
-function negbinInterceptOnlyDeviance(y: Float64Array, offset: Float64Array, weights: Float64Array | null, alpha: number, exposure: Float64Array | null): number {
+function negbinInterceptOnlyDeviance(
+  y: Float64Array,
+  offset: Float64Array,
+  weights: Float64Array | null,
+  alpha: number,
+  exposure: Float64Array | null,
+): number {
   const n = y.length;
   const ex = exposure ?? Float64Array.from(offset, Math.exp);
-  let sy = 0, se = 0;
-  for (let i = 0; i < n; i++) { const w = weights ? weights[i] : 1; sy += w * y[i]; se += w * ex[i]; }
-  let b = Math.log(sy / se), lo = -Infinity, hi = Infinity;
+  let sy = 0,
+    se = 0;
+  for (let i = 0; i < n; i++) {
+    const w = weights ? weights[i] : 1;
+    sy += w * y[i];
+    se += w * ex[i];
+  }
+  let b = Math.log(sy / se),
+    lo = -Infinity,
+    hi = Infinity;
   for (let it = 0; it < 200; it++) {
     const c = Math.exp(b);
-    let score = 0, info = 0;
+    let score = 0,
+      info = 0;
     for (let i = 0; i < n; i++) {
-      const w = weights ? weights[i] : 1, m = c * ex[i], q = 1 / (1 + alpha * m);
+      const w = weights ? weights[i] : 1,
+        m = c * ex[i],
+        q = 1 / (1 + alpha * m);
       score += w * (y[i] - m) * q;
       info += w * m * (1 + alpha * y[i]) * q * q;
     }
-    if (score > 0) lo = b; else hi = b;
+    if (score > 0) lo = b;
+    else hi = b;
     let next = b + score / info;
-    if (!(next > lo && next < hi)) next = Number.isFinite(lo) && Number.isFinite(hi) ? 0.5 * (lo + hi) : b + Math.sign(score);
+    if (!(next > lo && next < hi))
+      next = Number.isFinite(lo) && Number.isFinite(hi) ? 0.5 * (lo + hi) : b + Math.sign(score);
     const moved = Math.abs(next - b);
     b = next;
     if (moved <= 1e-13 * (1 + Math.abs(b))) break;
@@ -141,7 +199,9 @@ function negbinInterceptOnlyDeviance(y: Float64Array, offset: Float64Array, weig
 
 function requireConverged(f: GlmFit): void {
   if (!f.converged)
-    throw new FitError(`IRLS did not converge in ${f.iterations} iterations (deviance ${f.deviance}); raise --max-iter or --tolerance, or simplify the model.`);
+    throw new FitError(
+      `IRLS did not converge in ${f.iterations} iterations (deviance ${f.deviance}); raise --max-iter or --tolerance, or simplify the model.`,
+    );
 }
 
 /**
@@ -155,8 +215,13 @@ function checkReferenceEvents(design: Design): void {
     const f = design.factors.find((x) => x.name === t.variables[0]);
     const slot = design.matrix.slots.find((s) => s.term === ti);
     if (!f || !slot || slot.cols === null || slot.values !== null) return;
-    let rows = 0, events = 0;
-    for (let i = 0; i < design.n; i++) if (slot.cols[i] < 0) { rows++; events += design.y[i]; }
+    let rows = 0,
+      events = 0;
+    for (let i = 0; i < design.n; i++)
+      if (slot.cols[i] < 0) {
+        rows++;
+        events += design.y[i];
+      }
     if (rows > 0 && events === 0) {
       const withEvents = f.levels.filter((l) => l !== f.reference);
       throw new FitError(
@@ -168,15 +233,21 @@ function checkReferenceEvents(design: Design): void {
 }
 
 /** Fit the model; a fit that does not meet the convergence rule is a FitError (exit 3). */
-export function fitModel(design: Design, options: FitModelOptions): ModelFit {
+export function fitCounts(design: Design, options: FitModelOptions): CountFit {
   const control = { ...DEFAULT_CONTROL, ...options.control };
   checkReferenceEvents(design);
   const pm = options.patterns;
   if (pm) {
     if (options.family === "negbin" && pm.by === "covariates")
-      throw new Error("the negative binomial can only be fitted over patterns that also share the offset and the count");
+      throw new Error(
+        "the negative binomial can only be fitted over patterns that also share the offset and the count",
+      );
     // A Poisson fit of the rows is not one of the patterns' (their rows differ): the inner fit makes its own.
-    const inner = fitModel(pm.design, { family: options.family, control: options.control, onIteration: options.onIteration });
+    const inner = fitCounts(pm.design, {
+      family: options.family,
+      control: options.control,
+      onIteration: options.onIteration,
+    });
     const fit = expandFit(design, pm, inner.fit);
     return {
       family: inner.family,
@@ -189,7 +260,11 @@ export function fitModel(design: Design, options: FitModelOptions): ModelFit {
     };
   }
   if (options.family === "negbin") {
-    const nb = fitNegbin(design.matrix, design, { control, onIteration: options.onIteration, poisson: options.poisson?.fit });
+    const nb = fitNegbin(design.matrix, design, {
+      control,
+      onIteration: options.onIteration,
+      poisson: options.poisson?.fit,
+    });
     requireConverged(nb.fit);
     return {
       family: "negbin",
@@ -197,8 +272,13 @@ export function fitModel(design: Design, options: FitModelOptions): ModelFit {
       nullDeviance: nullDeviance(design, nb.alpha),
       control,
       negbin: {
-        alpha: nb.alpha, alphaStdError: nb.alphaStdError, boundary: nb.boundary, logLik: nb.logLik,
-        poissonLogLik: nb.poissonLogLik, poissonParameters: nb.poisson.status.filter((st) => st === "estimated" || st === "no_events").length, outerIterations: nb.outerIterations,
+        alpha: nb.alpha,
+        alphaStdError: nb.alphaStdError,
+        boundary: nb.boundary,
+        logLik: nb.logLik,
+        poissonLogLik: nb.poissonLogLik,
+        poissonParameters: nb.poisson.status.filter((st) => st === "estimated" || st === "no_events").length,
+        outerIterations: nb.outerIterations,
       },
       patterns: null,
     };
@@ -217,13 +297,21 @@ export function fitModel(design: Design, options: FitModelOptions): ModelFit {
  */
 export function expandFit(design: Design, pm: PatternMerge, f: GlmFit): GlmFit {
   const n = design.n;
-  const pat = pm.pattern, offP = pm.design.offset, off = design.offset, pw = design.weights;
-  const eta = new Float64Array(n), mu = new Float64Array(n);
+  const pat = pm.pattern,
+    offP = pm.design.offset,
+    off = design.offset,
+    pw = design.weights;
+  const eta = new Float64Array(n),
+    mu = new Float64Array(n);
   const inFit = new Uint8Array(n);
   let rowsAtZero = 0;
   for (let i = 0; i < n; i++) {
     const p = pat[i];
-    if (!f.setup.inFit[p]) { eta[i] = -Infinity; if (!pw || pw[i] > 0) rowsAtZero++; continue; }
+    if (!f.setup.inFit[p]) {
+      eta[i] = -Infinity;
+      if (!pw || pw[i] > 0) rowsAtZero++;
+      continue;
+    }
     const e = f.eta[p] + (off[i] - offP[p]);
     eta[i] = e;
     mu[i] = Math.exp(e);
@@ -232,7 +320,10 @@ export function expandFit(design: Design, pm: PatternMerge, f: GlmFit): GlmFit {
   const s = f.setup;
   return {
     ...f,
-    mu, eta, deviance: devianceAt(design.y, mu, eta, pw, inFit, f.alpha), rowsAtZero,
+    mu,
+    eta,
+    deviance: devianceAt(design.y, mu, eta, pw, inFit, f.alpha),
+    rowsAtZero,
     warnings: driftWarnings(design.y, mu, inFit),
     setup: { status: s.status, inFit, active: s.active, order: s.order, center: s.center, scale: s.scale, rowsAtZero },
   };
@@ -244,7 +335,12 @@ export function expandFit(design: Design, pm: PatternMerge, f: GlmFit): GlmFit {
  * binomial (for the Poisson this is the deviance difference D(b) − D̂).
  * Warm-starts each fit from the previous one.
  */
-export function constrainedStatistic(design: Design, mf: FitBase, col: number, workspace?: Workspace): (b: number) => number {
+export function constrainedStatistic(
+  design: Design,
+  mf: FitBase,
+  col: number,
+  workspace?: Workspace,
+): (b: number) => number {
   let setup: FitSetup | null = null;
   let start: Float64Array = new Float64Array(mf.fit.beta);
   const control = { maxIter: 100, tolerance: mf.control.tolerance };
@@ -252,18 +348,42 @@ export function constrainedStatistic(design: Design, mf: FitBase, col: number, w
     const llHat = mf.negbin.logLik;
     let alpha = mf.negbin.alpha;
     // Centring is valid only while the intercept is free.
-    const nbSetup = col === design.matrix.interceptCol ? prepareFit(design.matrix, design, new Map([[col, 0]])) : deriveSetup(mf.fit.setup, [col]);
+    const nbSetup =
+      col === design.matrix.interceptCol
+        ? prepareFit(design.matrix, design, new Map([[col, 0]]))
+        : deriveSetup(mf.fit.setup, [col]);
     return (b: number) => {
       const fixed = new Map([[col, b]]);
-      const nb = fitNegbin(design.matrix, design, { control, fixed, start, startAlpha: alpha, warm: true, likelihoodOnly: true, setup: nbSetup, workspace });
-      if (nb.fit.warnings.length === 0) { start = nb.fit.beta; if (nb.alpha > 0) alpha = nb.alpha; }
+      const nb = fitNegbin(design.matrix, design, {
+        control,
+        fixed,
+        start,
+        startAlpha: alpha,
+        warm: true,
+        likelihoodOnly: true,
+        setup: nbSetup,
+        workspace,
+      });
+      if (nb.fit.warnings.length === 0) {
+        start = nb.fit.beta;
+        if (nb.alpha > 0) alpha = nb.alpha;
+      }
       return Math.max(0, 2 * (llHat - nb.logLik));
     };
   }
   return (b: number) => {
     const fixed = new Map([[col, b]]);
     if (setup === null) setup = prepareFit(design.matrix, design, fixed);
-    const f = fitGlm(design.matrix, design, { fixed, setup, start, control, alpha: 0, skipCovariance: true, stopOnPredicted: true, workspace });
+    const f = fitGlm(design.matrix, design, {
+      fixed,
+      setup,
+      start,
+      control,
+      alpha: 0,
+      skipCovariance: true,
+      stopOnPredicted: true,
+      workspace,
+    });
     if (f.warnings.length === 0) start = f.beta;
     return Math.max(0, f.deviance - mf.fit.deviance);
   };
@@ -277,7 +397,9 @@ export function noEventsGuess(design: Design, mf: FitBase, col: number, crit: nu
   let e = 0;
   for (const s of design.matrix.slots) {
     if (s.cols === null) continue;
-    for (let i = 0; i < design.n; i++) if (s.cols[i] === col && Number.isFinite(eta[i])) e += (design.weights ? design.weights[i] : 1) * Math.exp(eta[i]);
+    for (let i = 0; i < design.n; i++)
+      if (s.cols[i] === col && Number.isFinite(eta[i]))
+        e += (design.weights ? design.weights[i] : 1) * Math.exp(eta[i]);
   }
   return e > 0 && Number.isFinite(e) ? Math.log(crit / (2 * e)) : 0;
 }

@@ -2,38 +2,41 @@
 // packages (ports of the FreeBSD/Cephes/Boost routines) so that tiny tail
 // probabilities keep their relative accuracy; quantiles of the normal and
 // Student t come from jStat, which refines them by Newton steps.
-import { createRequire } from "node:module";
+import { lazyModule as lazy } from "./lazy.js";
 
-// Each package is loaded on first use, so a command pays only for what it needs.
-const require = createRequire(import.meta.url);
-function lazy<T>(name: string): () => T {
-  let f: T | null = null;
-  return () => (f ??= require(name) as T);
-}
 type F1 = (x: number) => number;
 const erfcFn = lazy<F1>("@stdlib/math-base-special-erfc");
-const gammaincFn = lazy<(x: number, a: number, regularized?: boolean, upper?: boolean) => number>("@stdlib/math-base-special-gammainc");
+const gammaincFn = lazy<(x: number, a: number, regularized?: boolean, upper?: boolean) => number>(
+  "@stdlib/math-base-special-gammainc",
+);
 const gammaincinvFn = lazy<(p: number, a: number, upper?: boolean) => number>("@stdlib/math-base-special-gammaincinv");
 const gammalnFn = lazy<F1>("@stdlib/math-base-special-gammaln");
 const digammaFn = lazy<F1>("@stdlib/math-base-special-digamma");
 const trigammaFn = lazy<F1>("@stdlib/math-base-special-trigamma");
+const betaincFn = lazy<(x: number, a: number, b: number) => number>("@stdlib/math-base-special-betainc");
 type Dist2 = { cdf(x: number, a: number, b: number): number; inv(p: number, a: number, b: number): number };
 type Dist1 = { cdf(x: number, a: number): number; inv(p: number, a: number): number };
 const jstatFn = lazy<{ jStat: { normal: Dist2; chisquare: Dist1; studentt: Dist1; centralF: Dist2 } }>("jstat");
 
 const erfc: F1 = (x) => erfcFn()(x);
-const gammainc = (x: number, a: number, regularized?: boolean, upper?: boolean) => gammaincFn()(x, a, regularized, upper);
+const gammainc = (x: number, a: number, regularized?: boolean, upper?: boolean) =>
+  gammaincFn()(x, a, regularized, upper);
 const gammaincinv = (p: number, a: number) => gammaincinvFn()(p, a);
 const jStat = {
-  get normal() { return jstatFn().jStat.normal; },
-  get studentt() { return jstatFn().jStat.studentt; },
-  get centralF() { return jstatFn().jStat.centralF; },
+  get normal() {
+    return jstatFn().jStat.normal;
+  },
+  get studentt() {
+    return jstatFn().jStat.studentt;
+  },
+  get centralF() {
+    return jstatFn().jStat.centralF;
+  },
 };
 
 export const lgamma: F1 = (x) => gammalnFn()(x);
 export const digamma: F1 = (x) => digammaFn()(x);
 export const trigamma: F1 = (x) => trigammaFn()(x);
-export { gammainc as regularizedGammaInc };
 
 /** Two-sided p-value of a standard normal statistic, 2·Φ(−|z|) = erfc(|z|/√2). */
 export function normalTwoSidedP(z: number): number {
@@ -82,4 +85,20 @@ export function studentQuantile(p: number, df: number): number {
 export function fUpperTail(f: number, df1: number, df2: number): number {
   if (!(f > 0)) return 1;
   return 1 - jStat.centralF.cdf(f, df1, df2);
+}
+
+/** P(Y ≤ k) for a Poisson(mu): the upper regularised incomplete gamma Q(k + 1, mu). */
+export function poissonCdf(k: number, mu: number): number {
+  if (k < 0) return 0;
+  if (mu <= 0) return 1;
+  return gammainc(mu, k + 1, true, true);
+}
+
+/** P(Y ≤ k) for the NB2 with mean mu and dispersion alpha: I_p(1/alpha, k + 1), p = 1/(1 + alpha·mu). */
+export function negbinCdf(k: number, mu: number, alpha: number): number {
+  if (k < 0) return 0;
+  if (mu <= 0) return 1;
+  if (!(alpha > 0)) return poissonCdf(k, mu);
+  const r = 1 / alpha;
+  return betaincFn()(1 / (1 + alpha * mu), r, k + 1);
 }

@@ -17,7 +17,11 @@ export function normalGenerator(seed: number): () => number {
   const u = uniformGenerator(seed);
   let spare: number | null = null;
   return () => {
-    if (spare !== null) { const s = spare; spare = null; return s; }
+    if (spare !== null) {
+      const s = spare;
+      spare = null;
+      return s;
+    }
     const r = Math.sqrt(-2 * Math.log(1 - u()));
     const th = 2 * Math.PI * u();
     spare = r * Math.sin(th);
@@ -30,9 +34,15 @@ export function normalGenerator(seed: number): () => number {
 /** Poisson draw by inversion, splitting means above 200 into halves (sums of Poissons are Poisson). */
 export function poissonDraw(u: () => number, mean: number): number {
   if (mean > 200) return poissonDraw(u, mean / 2) + poissonDraw(u, mean / 2);
-  let k = 0, p = Math.exp(-mean), s = p;
+  let k = 0,
+    p = Math.exp(-mean),
+    s = p;
   const x = u();
-  while (x > s && k < 100000) { k++; p *= mean / k; s += p; }
+  while (x > s && k < 100000) {
+    k++;
+    p *= mean / k;
+    s += p;
+  }
   return k;
 }
 
@@ -43,11 +53,15 @@ export function normalDraw(u: () => number): number {
 
 /** Gamma(shape, 1) draw (Marsaglia and Tsang 2000). */
 export function gammaDraw(u: () => number, shape: number): number {
-  if (shape < 1) return gammaDraw(u, shape + 1) * Math.pow(u(), 1 / shape);
-  const d = shape - 1 / 3, c = 1 / Math.sqrt(9 * d);
+  if (shape < 1) return gammaDraw(u, shape + 1) * u() ** (1 / shape);
+  const d = shape - 1 / 3,
+    c = 1 / Math.sqrt(9 * d);
   for (;;) {
     let x: number, v: number;
-    do { x = normalDraw(u); v = 1 + c * x; } while (v <= 0);
+    do {
+      x = normalDraw(u);
+      v = 1 + c * x;
+    } while (v <= 0);
     v = v * v * v;
     const w = u();
     if (w < 1 - 0.0331 * x ** 4 || Math.log(w) < 0.5 * x * x + d * (1 - v + Math.log(v))) return d * v;
@@ -58,4 +72,3 @@ export function gammaDraw(u: () => number, shape: number): number {
 export function negbinDraw(u: () => number, mu: number, alpha: number): number {
   return alpha > 0 ? poissonDraw(u, mu * alpha * gammaDraw(u, 1 / alpha)) : poissonDraw(u, mu);
 }
-

@@ -1,0 +1,79 @@
+// Reading a source's bytes and checking that they are UTF-8 text.
+import { isUtf8 } from "node:buffer";
+import { readFile } from "node:fs/promises";
+import { InputError } from "../errors.js";
+
+/** Read a file path, or standard input for "-". */
+export async function readSource(path: string): Promise<{ bytes: Buffer; name: string }> {
+  if (path === "-") {
+    const chunks: Buffer[] = [];
+    for await (const chunk of process.stdin) chunks.push(chunk as Buffer);
+    return { bytes: Buffer.concat(chunks), name: "<stdin>" };
+  }
+  try {
+    return { bytes: await readFile(path), name: path };
+  } catch (e) {
+    const code = (e as NodeJS.ErrnoException).code;
+    const why =
+      code === "ENOENT"
+        ? "no such file"
+        : code === "EACCES"
+          ? "permission denied"
+          : code === "EISDIR"
+            ? "it is a folder"
+            : String(code ?? e);
+    throw new InputError(`${path}: cannot read the file (${why}).`);
+  }
+}
+
+/** Byte offset of the first invalid UTF-8 sequence, or −1 (RFC 3629 §4); Node's native check first, the scan below only to locate a fault. */
+export function firstInvalidUtf8(b: Uint8Array): number {
+  if (isUtf8(b)) return -1;
+  let i = 0;
+  const n = b.length;
+  while (i < n) {
+    const c = b[i];
+    if (c < 0x80) {
+      i++;
+      continue;
+    }
+    let need: number, min: number;
+    if (c >= 0xc2 && c <= 0xdf) {
+      need = 1;
+      min = 0x80;
+    } else if (c >= 0xe0 && c <= 0xef) {
+      need = 2;
+      min = 0x800;
+    } else if (c >= 0xf0 && c <= 0xf4) {
+      need = 3;
+      min = 0x10000;
+    } else return i;
+    let cp = c & (need === 1 ? 0x1f : need === 2 ? 0x0f : 0x07);
+    for (let k = 1; k <= need; k++) {
+      const d = b[i + k];
+      if (d === undefined || (d & 0xc0) !== 0x80) return i;
+      cp = (cp << 6) | (d & 0x3f);
+    }
+    if (cp < min || cp > 0x10ffff || (cp >= 0xd800 && cp <= 0xdfff)) return i;
+    i += need + 1;
+  }
+  return -1;
+}
+
+function lineOfOffset(b: Uint8Array, offset: number): number {
+  let line = 1;
+  for (let i = 0; i < offset; i++) if (b[i] === 0x0a) line++;
+  return line;
+}
+
+/** Decode UTF-8 text, naming the line and byte of the first invalid sequence. */
+export function decodeUtf8(bytes: Uint8Array, source: string): string {
+  const bad = firstInvalidUtf8(bytes);
+  if (bad >= 0) {
+    throw new InputError(
+      `${source}, line ${lineOfOffset(bytes, bad)}: the file is not valid UTF-8 (byte 0x${bytes[bad].toString(16).padStart(2, "0")} at offset ${bad}). ` +
+        `Save it as UTF-8 (for example with iconv -f latin1 -t utf-8) and run again.`,
+    );
+  }
+  return new TextDecoder("utf-8").decode(bytes);
+}
