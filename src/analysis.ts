@@ -2,7 +2,7 @@
 // model, with the family chosen by the dispersion check for --family auto.
 import type { Design } from "./design/design.js";
 import { estimatePatterns, mergePatterns, patternKeyFor, type PatternMerge } from "./design/patterns.js";
-import type { FitControl } from "./fit/irls.js";
+import type { FitControl } from "./fit/kernel/types.js";
 import { fitCounts, type FamilyChoice, type FamilyName, type CountFit } from "./fit/count-fit.js";
 import { dispersionFlagged, runChecks, type CheckResult } from "./infer/check.js";
 import { profileContext } from "./infer/intervals.js";

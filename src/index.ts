@@ -15,15 +15,10 @@ export {
   type Slot,
 } from "./design/design.js";
 export { naturalCompare } from "./design/naming.js";
-export {
-  fitGlm,
-  prepareFit,
-  columnValues,
-  DEFAULT_CONTROL,
-  type FitControl,
-  type FitData,
-  type GlmFit,
-} from "./fit/irls.js";
+export { fitGlm } from "./fit/kernel/glm.js";
+export { prepareFit } from "./fit/kernel/setup.js";
+export { columnValues } from "./design/matrix-columns.js";
+export { DEFAULT_CONTROL, type FitControl, type FitData, type GlmFit } from "./fit/kernel/types.js";
 export {
   fitCounts,
   constrainedStatistic,

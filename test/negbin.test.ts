@@ -4,7 +4,7 @@ import assert from "node:assert/strict";
 import { readFileSync } from "node:fs";
 import { join } from "node:path";
 import { FIXTURES, assertRel, fitCsv, negbinDraw, rng, simulateRates } from "./helpers.js";
-import { fitGlm } from "../src/fit/irls.js";
+import { fitGlm } from "../src/fit/kernel/glm.js";
 import { nullDeviance } from "../src/fit/count-fit.js";
 import { digamma, lgamma, trigamma } from "../src/math/distributions.js";
 import { lgammaRatio } from "../src/fit/family.js";

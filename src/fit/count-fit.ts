@@ -4,20 +4,13 @@
 import type { Design } from "../design/design.js";
 import type { PatternMerge } from "../design/patterns.js";
 import { FitError } from "../errors.js";
-import { countIndex, maxCount, unitDeviance } from "./family.js";
-import {
-  DEFAULT_CONTROL,
-  deriveSetup,
-  devianceAt,
-  driftWarnings,
-  fitGlm,
-  linearPredictorFrom,
-  prepareFit,
-  type FitControl,
-  type FitSetup,
-  type GlmFit,
-  type Workspace,
-} from "./irls.js";
+import { CountTable } from "./count-table.js";
+import { unitDeviance } from "./family.js";
+import { DEFAULT_CONTROL, type FitControl, type FitSetup, type GlmFit, type Workspace } from "./kernel/types.js";
+import { deriveSetup, prepareFit } from "./kernel/setup.js";
+import { devianceAt } from "./kernel/deviance.js";
+import { driftWarnings, fitGlm } from "./kernel/glm.js";
+import { linearPredictorFrom } from "../design/matrix-columns.js";
 import { fitNegbin, negbinLogLik } from "./negbin.js";
 
 export type FamilyName = "poisson" | "negbin" | "quasipoisson";
@@ -119,16 +112,14 @@ export function nullDeviance(design: Design, alpha: number): number {
       se += w * Math.exp(offset[i]);
     }
     const b0 = Math.log(sy / se);
-    const counts = countIndex(y);
-    if (counts === null) {
+    const table = CountTable.of(y, 0);
+    if (table === null) {
       let d = 0;
       for (let i = 0; i < y.length; i++)
         d += (weights ? weights[i] : 1) * unitDeviance(y[i], (Math.exp(offset[i]) * sy) / se, 0);
       return d;
     }
-    const top = maxCount(y),
-      ylogy = new Float64Array(top + 1);
-    for (let k = 1; k <= top; k++) ylogy[k] = k * Math.log(k);
+    const { counts, ylogy } = table;
     let d = 0;
     for (let i = 0; i < counts.length; i++) {
       const k = counts[i];

@@ -3,45 +3,6 @@
 // Regression Analysis of Count Data, 2nd ed., 2013, §3.3).
 import { digamma, lgamma, trigamma } from "../math/distributions.js";
 
-const maxCounts = new WeakMap<Float64Array, number>();
-const countCodes = new WeakMap<Float64Array, Int32Array | null>();
-
-/** Counts up to this size are tabulated: per-count terms are looked up, not recomputed per row. */
-export const TABLE_LIMIT = 1 << 20;
-
-/**
- * The largest count, remembered per array (the response does not change
- * between fits); Infinity when some count is not a whole number (the summed
- * counts of merged patterns under fractional weights), which turns off the
- * tables indexed by count.
- */
-export function maxCount(y: Float64Array): number {
-  let t = maxCounts.get(y);
-  if (t === undefined) {
-    t = 0;
-    for (let i = 0; i < y.length; i++) {
-      const v = y[i];
-      if (v > t) t = v;
-      if (v !== Math.floor(v)) {
-        t = Infinity;
-        break;
-      }
-    }
-    maxCounts.set(y, t);
-  }
-  return t;
-}
-
-/** The counts as 32-bit integers for table lookups, remembered per array (null: not tabulable, see maxCount). */
-export function countIndex(y: Float64Array): Int32Array | null {
-  let c = countCodes.get(y);
-  if (c === undefined) {
-    c = maxCount(y) <= TABLE_LIMIT ? Int32Array.from(y) : null;
-    countCodes.set(y, c);
-  }
-  return c;
-}
-
 /** Variance function V(mu). */
 export function variance(mu: number, alpha: number): number {
   return mu + alpha * mu * mu;

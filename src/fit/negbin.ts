@@ -3,24 +3,11 @@
 // (Lawless 1987, Canadian Journal of Statistics 15:209–225).
 import type { DesignMatrix } from "../design/design.js";
 import { FitError } from "../errors.js";
-import {
-  alphaDerivativesFromSums,
-  countIndex,
-  harmonic,
-  harmonicTables,
-  logDensity,
-  maxCount,
-  negbinCountTerms,
-} from "./family.js";
-import {
-  fitGlm,
-  prepareFit,
-  type FitControl,
-  type FitData,
-  type FitSetup,
-  type GlmFit,
-  type Workspace,
-} from "./irls.js";
+import { CountTable } from "./count-table.js";
+import { alphaDerivativesFromSums, harmonic, logDensity } from "./family.js";
+import { fitGlm } from "./kernel/glm.js";
+import { prepareFit } from "./kernel/setup.js";
+import type { FitControl, FitData, FitSetup, GlmFit, Workspace } from "./kernel/types.js";
 
 export interface NegbinFit {
   fit: GlmFit;
@@ -38,17 +25,17 @@ export interface NegbinFit {
 
 /** NB2 log-likelihood at the given means (rows with mu = 0 and y = 0 contribute 0). */
 export function negbinLogLik(y: Float64Array, mu: Float64Array, pw: Float64Array | null, alpha: number): number {
-  const yi32 = alpha === 0 ? null : countIndex(y);
-  if (yi32 === null) {
+  const table = alpha === 0 ? null : CountTable.of(y, alpha);
+  if (table === null) {
     let ll = 0;
     for (let i = 0; i < y.length; i++) if (mu[i] > 0) ll += (pw ? pw[i] : 1) * logDensity(y[i], mu[i], alpha);
     return ll;
   }
   // The y-only terms log Γ(y + r) − log Γ(r) − log y! depend on y alone at fixed alpha: tabulate them.
-  const top = maxCount(y);
   const r = 1 / alpha,
     logAlpha = Math.log(alpha);
-  const tab = negbinCountTerms(top, r);
+  const yi32 = table.counts,
+    tab = table.logLikTerms;
   let ll = 0;
   for (let i = 0; i < y.length; i++) {
     const m = mu[i];
@@ -78,14 +65,15 @@ export function alphaDerivatives(
   alpha: number,
 ): { g: number; h: number } {
   const r = 1 / alpha;
-  const yi32 = countIndex(y);
+  const table = CountTable.of(y, alpha);
   let s1 = 0,
     s2 = 0,
     s3 = 0,
     s4 = 0,
     s5 = 0;
-  if (yi32 !== null) {
-    const { d: tabD, e: tabE } = harmonicTables(maxCount(y), r);
+  if (table !== null) {
+    const yi32 = table.counts;
+    const { d: tabD, e: tabE } = table.harmonic;
     for (let i = 0; i < y.length; i++) {
       const m = mu[i];
       if (!(m > 0)) continue;

@@ -1,9 +1,8 @@
 // Dispersion and zero-count diagnostics for a Poisson fit, each with its
 // statistic, degrees of freedom, p-value and a one-line reading, and a verdict.
 import type { Design } from "../design/design.js";
-import { setupCrossProducts, rowQuadraticForms } from "../fit/irls.js";
+import { informationOf } from "../fit/kernel/information.js";
 import type { CountFit } from "../fit/count-fit.js";
-import { cholesky, choleskySolve } from "../math/linalg.js";
 import { chiSquareUpperTail, normalUpperTail } from "../math/distributions.js";
 import { boundaryLrTest, fitStatistics } from "./fit-statistics.js";
 
@@ -87,7 +86,7 @@ export function runChecks(design: Design, pois: CountFit, nb: CountFit, testLeve
 
   // Leverages h = mu·xᵀ(X'WX)⁻¹x: E[(y − mu)²] ≈ mu(1 − h) under the Poisson,
   // so (y − mu)² − y + h·mu has mean ≈ 0 (the adjustment of Dean and Lawless 1989).
-  const quad = rowQuadraticForms(design.matrix, fit.setup, fit.covarianceScaled);
+  const quad = informationOf(design.matrix, fit).rowQuadraticForms();
   const lev = new Float64Array(n);
   for (let i = 0; i < n; i++) lev[i] = mu[i] * quad[i];
 
@@ -184,17 +183,9 @@ export function runChecks(design: Design, pois: CountFit, nb: CountFit, testLeve
     u += (wi * ((y[i] === 0 ? 1 : 0) - p0)) / p0;
     i00 += (wi * (1 - p0)) / p0;
   }
-  const s = fit.setup;
-  const ones = new Float64Array(n).fill(1);
   const wmu = new Float64Array(n);
   for (let i = 0; i < n; i++) wmu[i] = w(i) * mu[i];
-  const { a: xwx, b: mvec } = setupCrossProducts(design.matrix, s, wmu, ones);
-  const l = cholesky(xwx);
-  let adj = 0;
-  if (l) {
-    const sol = choleskySolve(l, xwx.p, mvec);
-    for (let k = 0; k < sol.length; k++) adj += sol[k] * mvec[k];
-  }
+  const adj = informationOf(design.matrix, fit).weightProjection(wmu);
   const vZ = i00 - adj;
   const sZ = vZ > 0 ? (u * u) / vZ : 0;
   const pZ = vZ > 0 ? chiSquareUpperTail(sZ, 1) : 1;

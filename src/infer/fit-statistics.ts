@@ -3,7 +3,7 @@
 // quasi-Poisson dispersion and the boundary test of alpha = 0.
 import type { Design } from "../design/design.js";
 import { logDensity, variance } from "../fit/family.js";
-import type { GlmFit } from "../fit/irls.js";
+import type { GlmFit } from "../fit/kernel/types.js";
 import { chiSquareUpperTail } from "../math/distributions.js";
 
 /**

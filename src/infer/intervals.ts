@@ -1,7 +1,7 @@
 // Profile-likelihood limits for every coefficient of a fitted model.
 import type { Design } from "../design/design.js";
 import { constrainedStatistic, fitBaseOf, noEventsGuess, type FitBase, type CountFit } from "../fit/count-fit.js";
-import type { Workspace } from "../fit/irls.js";
+import type { Workspace } from "../fit/kernel/types.js";
 import { chiSquareQuantile, normalQuantile, studentQuantile } from "../math/distributions.js";
 import { quasiPhi, residualDf } from "./fit-statistics.js";
 import { profileLimits, profileUpperFromMinusInfinity, type ProfileResult } from "./profile.js";

@@ -6,7 +6,7 @@
 import { availableParallelism } from "node:os";
 import { Worker } from "node:worker_threads";
 import { FitError, InputError } from "../errors.js";
-import type { Workspace } from "../fit/irls.js";
+import type { Workspace } from "../fit/kernel/types.js";
 import { profileOf, type ProfileContext } from "./intervals.js";
 import type { ProfileResult } from "./profile.js";
 import { termTestOf, type TermTest, type TermTestContext } from "./terms.js";

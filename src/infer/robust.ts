@@ -3,8 +3,9 @@
 // s_i = x_i (y_i − mu_i)/(1 + alpha·mu_i) is row i's score contribution
 // (White 1980; for GLMs, e.g. Zeileis 2006, J. Statistical Software 16(9)).
 import type { Design } from "../design/design.js";
-import { setupCrossProducts, transformMatrix, type GlmFit } from "../fit/irls.js";
-import { congruence, type SymMatrix } from "../math/linalg.js";
+import { informationOf } from "../fit/kernel/information.js";
+import type { GlmFit } from "../fit/kernel/types.js";
+import type { SymMatrix } from "../math/linalg.js";
 
 export function sandwichCovariance(design: Design, fit: GlmFit): SymMatrix {
   const { y, weights } = design;
@@ -16,9 +17,5 @@ export function sandwichCovariance(design: Design, fit: GlmFit): SymMatrix {
     const r = (y[i] - mu) / (1 + fit.alpha * mu);
     w[i] = (weights ? weights[i] : 1) * r * r;
   }
-  const s = fit.setup;
-  const { a: meat } = setupCrossProducts(design.matrix, s, w, null);
-  const bread = fit.covarianceScaled;
-  const scaled = congruence(bread.data, meat); // A⁻¹ B A⁻¹ (A⁻¹ is symmetric)
-  return congruence(transformMatrix(design.matrix, s), scaled);
+  return informationOf(design.matrix, fit).sandwich(w);
 }

@@ -6,7 +6,10 @@
 // not tested on its own (marginality): with treatment coding such a test
 // would depend on the reference levels.
 import type { Design } from "../design/design.js";
-import { columnSums, deriveSetup, fitGlm, type Workspace } from "../fit/irls.js";
+import { columnSums } from "../design/matrix-columns.js";
+import { deriveSetup } from "../fit/kernel/setup.js";
+import { fitGlm } from "../fit/kernel/glm.js";
+import type { Workspace } from "../fit/kernel/types.js";
 import { fitBaseOf, type FitBase, type CountFit } from "../fit/count-fit.js";
 import { fitNegbin } from "../fit/negbin.js";
 import { chiSquareUpperTail, fUpperTail } from "../math/distributions.js";
