@@ -33,14 +33,17 @@ export { summarizeFit, type CoefficientRow, type FitSummary, type NegbinSummary 
 export { fitStatistics, quasiPhi, boundaryLrTest } from "./infer/fit-statistics.js";
 export { runChecks, dispersionFlagged, type CheckResult, type CheckTest } from "./infer/check.js";
 export { sandwichCovariance } from "./infer/robust.js";
-export { analyzeFit, analyzeFitParallel, analyzeCheck, type AnalysisOptions, type FitAnalysis } from "./analysis.js";
+export { analyzeFit, analyzeFitParallel, type AnalysisOptions, type FitAnalysis } from "./analysis/fit.js";
+export { analyzeCheck } from "./analysis/check.js";
 export { profileAll, profileContext, profileOf, type ProfileContext } from "./infer/intervals.js";
 export { inferencePlan, runJob, runJobs, type InferenceJob, type InferencePlan } from "./infer/parallel.js";
 export { profileLimits, type ProfileResult } from "./infer/profile.js";
 export { brentRoot } from "./math/roots.js";
 export * as distributions from "./math/distributions.js";
 export { renderFitText, CAUTION } from "./report/fit-text.js";
-export { renderFitCsv, renderFitMarkdown, renderJson } from "./report/fit-tabular.js";
+export { renderFitCsv } from "./report/fit-csv.js";
+export { renderFitMarkdown } from "./report/fit-markdown.js";
+export { renderJson } from "./report/json.js";
 export { makeStyle } from "./report/style.js";
 export { loadTableStream, makeReader } from "./io/csv.js";
 export { ColumnReader } from "./io/tokenizer.js";
@@ -55,14 +58,8 @@ export { summarizeGroups, type GroupSummary } from "./infer/groups.js";
 export { termTests, termTestContext, termTestOf, type TermTest, type TermTestContext } from "./infer/terms.js";
 export { compareModels, isNested, type CompareResult } from "./infer/compare.js";
 export { rootogram, quantileResiduals, countPmf, type Rootogram } from "./infer/diagnostics.js";
-export {
-  analyzeCheckWithFits,
-  diagnosticsOf,
-  fitFamily,
-  patternsFor,
-  MERGE_MIN_ROWS,
-  type MergeChoice,
-} from "./analysis.js";
+export { diagnosticsOf, fitFamily, patternsFor, MERGE_MIN_ROWS, type MergeChoice } from "./analysis/fit.js";
+export { analyzeCheckWithFits } from "./analysis/check.js";
 export { mergePatterns, patternKeyFor, type PatternKey, type PatternMerge } from "./design/patterns.js";
 export { expandFit } from "./fit/count-fit.js";
 export { modelFileOf } from "./report/model-file.js";

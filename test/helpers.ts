@@ -6,7 +6,7 @@ import { buildDesign, type DesignOptions } from "../src/design/design.js";
 import { parseTable } from "../src/io/csv.js";
 import { parseFormula } from "../src/formula/formula.js";
 import type { FamilyChoice } from "../src/fit/count-fit.js";
-import { analyzeFit } from "../src/analysis.js";
+import { analyzeFit } from "../src/analysis/fit.js";
 import { uniformGenerator } from "../src/math/random.js";
 import { negbinDraw } from "../src/math/random.js";
 export { gammaDraw, negbinDraw, normalDraw, poissonDraw } from "../src/math/random.js";

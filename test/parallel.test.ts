@@ -2,7 +2,7 @@
 // must give exactly what the same jobs give on one thread.
 import { test } from "node:test";
 import assert from "node:assert/strict";
-import { analyzeFit, analyzeFitParallel } from "../src/analysis.js";
+import { analyzeFit, analyzeFitParallel } from "../src/analysis/fit.js";
 import { buildDesign } from "../src/design/design.js";
 import { parseTable } from "../src/io/csv.js";
 import { parseFormula } from "../src/formula/formula.js";

@@ -9,7 +9,7 @@ import { PNG } from "pngjs";
 import { buildDesign } from "../src/design/design.js";
 import { parseTable } from "../src/io/csv.js";
 import { parseFormula } from "../src/formula/formula.js";
-import { analyzeFit, diagnosticsOf } from "../src/analysis.js";
+import { analyzeFit, diagnosticsOf } from "../src/analysis/fit.js";
 import { normalUpperTail } from "../src/math/distributions.js";
 import { renderSvg } from "../src/report/svg.js";
 import { textRootogram } from "../src/report/text-rootogram.js";

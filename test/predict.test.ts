@@ -12,7 +12,7 @@ import { predictRows } from "../src/infer/predict.js";
 import { parseModelFile } from "../src/io/model-file.js";
 import { parseTable } from "../src/io/csv.js";
 import { parseFormula } from "../src/formula/formula.js";
-import { renderJson } from "../src/report/fit-tabular.js";
+import { renderJson } from "../src/report/json.js";
 import { modelFileOf } from "../src/report/model-file.js";
 import { binomialLimits, negbinDraw, rng, runCli } from "./helpers.js";
 

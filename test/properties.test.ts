@@ -2,7 +2,7 @@
 import { test } from "node:test";
 import assert from "node:assert/strict";
 import fc from "fast-check";
-import { analyzeFit } from "../src/analysis.js";
+import { analyzeFit } from "../src/analysis/fit.js";
 import { buildDesign } from "../src/design/design.js";
 import { FitError, InputError } from "../src/errors.js";
 import { parseTable } from "../src/io/csv.js";

@@ -1,12 +1,13 @@
 // Design stage: model terms + typed columns → a row-sparse design matrix with
 // treatment (reference-level) coding, an offset, weights and the rows used.
 import { InputError } from "../errors.js";
-import { guessDelimiter, showDelimiter } from "../io/dialect.js";
 import type { Column, FactorColumn, Table } from "../io/table.js";
 import { fileRow } from "../io/table.js";
 import type { Formula } from "../formula/formula.js";
 import { termVariables } from "../formula/formula.js";
+import { lookupColumn, numericColumn } from "./columns.js";
 import { closestName, listNames, naturalCompare } from "./naming.js";
+import { exposureError, exposureRule, logOffset } from "./offset.js";
 
 export interface DesignOptions {
   exposure?: string;
@@ -88,20 +89,6 @@ export interface Design {
   notices: string[];
 }
 
-function unknownColumn(table: Table, name: string, role: string): InputError {
-  const known = table.header.filter((h) => h !== "");
-  const close = closestName(name, known);
-  let msg = `${table.source}: ${role} column '${name}' is not in the file.`;
-  if (close) msg += ` Did you mean '${close}'?`;
-  msg += ` The columns are ${listNames(known)}.`;
-  if (known.length === 1) {
-    const guess = guessDelimiter(known[0], table.delimiter);
-    if (guess)
-      msg += ` The whole header landed in one column, so the file probably uses ${showDelimiter(guess)} between fields, not ${showDelimiter(table.delimiter)}: try --delimiter ${guess === "\t" ? "$'\\t'" : `'${guess}'`}.`;
-  }
-  return new InputError(msg);
-}
-
 function firstRows(rows: number[]): string {
   const shown = rows.slice(0, 3).join(", ");
   return rows.length > 3 ? `${shown} and ${rows.length - 3} more` : shown;
@@ -112,34 +99,21 @@ function alsoRows(rows: number[]): string {
   return rows.length > 1 ? ` (${rows.length} rows: ${firstRows(rows)})` : "";
 }
 
-function numericValues(table: Table, col: Column, role: string): Float64Array {
-  if (col.kind === "numeric") return col.values;
-  const why = col.reason.forced
-    ? "it was listed in --factor"
-    : `row ${col.reason.row} holds '${col.reason.value}', which is not a finite number`;
-  throw new InputError(`${table.source}: the ${role} column '${col.name}' must be numeric, but ${why}.`);
-}
-
 /** Build the design matrix for a model on a table. */
 export function buildDesign(table: Table, model: Formula, options: DesignOptions = {}): Design {
-  const get = (name: string, role: string): Column => {
-    const c = table.columns.get(name);
-    if (!c) throw unknownColumn(table, name, role);
-    return c;
-  };
+  const get = (name: string, role: string): Column => lookupColumn(table, name, role);
   const response = get(model.response, "count");
-  const yAll = numericValues(table, response, "count");
+  const yAll = numericColumn(table, response, "count");
   const vars = termVariables(model);
   const varCols = vars.map((v) => get(v, "model"));
   const exposureCol = options.exposure ? get(options.exposure, "exposure") : null;
   const offsetCol = options.offset ? get(options.offset, "offset") : null;
   const weightsCol = options.weights ? get(options.weights, "weights") : null;
-  const expAll = exposureCol ? numericValues(table, exposureCol, "exposure") : null;
-  const offAll = offsetCol ? numericValues(table, offsetCol, "offset") : null;
-  const wAll = weightsCol ? numericValues(table, weightsCol, "weights") : null;
+  const expAll = exposureCol ? numericColumn(table, exposureCol, "exposure") : null;
+  const offAll = offsetCol ? numericColumn(table, offsetCol, "offset") : null;
+  const wAll = weightsCol ? numericColumn(table, weightsCol, "weights") : null;
   for (const [name] of Object.entries(options.refs ?? {})) {
-    const c = table.columns.get(name);
-    if (!c) throw unknownColumn(table, name, "--ref");
+    const c = lookupColumn(table, name, "--ref");
     if (!vars.includes(name)) throw new InputError(`--ref ${name}=...: '${name}' is not one of the model's terms.`);
     if (c.kind !== "factor")
       throw new InputError(
@@ -192,7 +166,7 @@ export function buildDesign(table: Table, model: Formula, options: DesignOptions
     }
     if (expAll) {
       const e = expAll[i];
-      if (e < 0 || (e === 0 && y > 0)) {
+      if (exposureRule(e, y) !== null) {
         badExposure.push(i);
         continue;
       }
@@ -220,14 +194,15 @@ export function buildDesign(table: Table, model: Formula, options: DesignOptions
       `${table.source}, row ${fileRow(i)}, column '${model.response}': the count is ${yAll[i]}; counts must be whole numbers ≥ 0${alsoRows(badCount.map(fileRow))}.`,
     );
   }
-  if (badExposure.length > 0) {
-    const i = badExposure[0];
-    const e = expAll![i];
-    throw new InputError(
-      `${table.source}, row ${fileRow(i)}, column '${options.exposure}': exposure ${e} with a count of ${yAll[i]}; ` +
-        `${e < 0 ? "exposure cannot be negative" : "a positive count needs positive exposure"}${alsoRows(badExposure.map(fileRow))}. Correct the extract or leave those rows out.`,
+  if (badExposure.length > 0)
+    throw exposureError(
+      table.source,
+      options.exposure!,
+      badExposure,
+      expAll!,
+      yAll,
+      alsoRows(badExposure.map(fileRow)),
     );
-  }
   if (negWeight.length > 0) {
     const i = negWeight[0];
     throw new InputError(
@@ -272,9 +247,7 @@ export function buildDesign(table: Table, model: Formula, options: DesignOptions
   };
   const y = pick(yAll);
   const exposure = expAll ? pick(expAll) : null;
-  const offset = new Float64Array(n);
-  if (exposure) for (let k = 0; k < n; k++) offset[k] = Math.log(exposure[k]);
-  if (offAll) for (let k = 0; k < n; k++) offset[k] += offAll[rowIndex[k]];
+  const offset = logOffset(n, rowIndex, expAll, offAll);
   const weights = wAll ? pick(wAll) : null;
 
   // Factor codings: levels present among used rows, natural order.

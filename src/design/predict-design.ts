@@ -6,7 +6,9 @@ import { fileRow } from "../io/table.js";
 import type { Formula } from "../formula/formula.js";
 import type { ModelFile } from "../io/model-file.js";
 import { layoutColumns, type DesignColumn, type FactorCoding, type DesignMatrix } from "./design.js";
+import { lookupColumn, numericColumn } from "./columns.js";
 import { closestName, listNames } from "./naming.js";
+import { exposureError, exposureRule, logOffset } from "./offset.js";
 
 export interface PredictionDesign {
   source: string;
@@ -29,23 +31,9 @@ export function specOf(saved: ModelFile): Formula {
   };
 }
 
-function need(table: Table, name: string, role: string): Column {
-  const c = table.columns.get(name);
-  if (!c) {
-    const close = closestName(name, table.header);
-    throw new InputError(
-      `${table.source}: the ${role} column '${name}' that the model uses is not in the file.${close ? ` Did you mean '${close}'?` : ""} The columns are ${listNames(table.header)}.`,
-    );
-  }
-  return c;
-}
-
+/** A numeric column of the new rows (the model's factors are read as categorical). */
 function numericOrFail(table: Table, c: Column, role: string): Float64Array {
-  if (c.kind === "numeric") return c.values;
-  const why = c.reason.forced
-    ? "it is categorical"
-    : `row ${c.reason.row} holds '${c.reason.value}', which is not a finite number`;
-  throw new InputError(`${table.source}: the ${role} column '${c.name}' must be numeric, but ${why}.`);
+  return numericColumn(table, c, role, "it is categorical");
 }
 
 function missingRow(table: Table, col: string, i: number, what: string): InputError {
@@ -56,7 +44,7 @@ export function buildPredictionDesign(table: Table, saved: ModelFile): Predictio
   const n = table.nRows;
   const factors = new Map<string, { coding: FactorCoding; codes: Int32Array }>();
   for (const f of saved.factors) {
-    const c = need(table, f.name, "model");
+    const c = lookupColumn(table, f.name, "model");
     const codes = new Int32Array(n);
     const pos = new Map(f.levels.map((l, i) => [l, i]));
     if (c.kind !== "factor")
@@ -81,31 +69,10 @@ export function buildPredictionDesign(table: Table, saved: ModelFile): Predictio
   }
   const numeric = new Map<string, Float64Array>();
   for (const v of saved.numeric) {
-    const vals = numericOrFail(table, need(table, v, "model"), "model");
+    const vals = numericOrFail(table, lookupColumn(table, v, "model"), "model");
     for (let i = 0; i < n; i++)
       if (Number.isNaN(vals[i])) throw missingRow(table, v, i, "every row needs a value to be predicted.");
     numeric.set(v, vals);
-  }
-  const offset = new Float64Array(n);
-  let exposure: Float64Array | null = null;
-  if (saved.exposure) {
-    exposure = numericOrFail(table, need(table, saved.exposure, "exposure"), "exposure");
-    for (let i = 0; i < n; i++) {
-      const e = exposure[i];
-      if (Number.isNaN(e)) throw missingRow(table, saved.exposure, i, "the expected count needs the row's exposure.");
-      if (e < 0)
-        throw new InputError(
-          `${table.source}, row ${fileRow(i)}, column '${saved.exposure}': exposure ${e} is negative.`,
-        );
-      offset[i] = Math.log(e);
-    }
-  }
-  if (saved.offset) {
-    const off = numericOrFail(table, need(table, saved.offset, "offset"), "offset");
-    for (let i = 0; i < n; i++) {
-      if (Number.isNaN(off[i])) throw missingRow(table, saved.offset, i, "the expected count needs the row's offset.");
-      offset[i] += off[i];
-    }
   }
   const respCol = table.columns.get(saved.response);
   const observed = new Float64Array(n).fill(NaN);
@@ -121,6 +88,24 @@ export function buildPredictionDesign(table: Table, saved: ModelFile): Predictio
       observed[i] = v;
     }
   }
+  let exposure: Float64Array | null = null;
+  if (saved.exposure) {
+    exposure = numericOrFail(table, lookupColumn(table, saved.exposure, "exposure"), "exposure");
+    for (let i = 0; i < n; i++) {
+      const e = exposure[i];
+      if (Number.isNaN(e)) throw missingRow(table, saved.exposure, i, "the expected count needs the row's exposure.");
+      if (exposureRule(e, observed[i]) !== null)
+        throw exposureError(table.source, saved.exposure, [i], exposure, observed);
+    }
+  }
+  let offsetColumn: Float64Array | null = null;
+  if (saved.offset) {
+    offsetColumn = numericOrFail(table, lookupColumn(table, saved.offset, "offset"), "offset");
+    for (let i = 0; i < n; i++)
+      if (Number.isNaN(offsetColumn[i]))
+        throw missingRow(table, saved.offset, i, "the expected count needs the row's offset.");
+  }
+  const offset = logOffset(n, null, exposure, offsetColumn);
   const spec = specOf(saved);
   const { columns, slots, interceptCol } = layoutColumns(spec, factors, (v) => numeric.get(v)!, n);
   if (columns.length !== saved.coefficients.length || columns.some((c, j) => c.name !== saved.coefficients[j].term))

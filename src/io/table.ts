@@ -51,3 +51,15 @@ export function checkHeader(header: string[], source: string, fail: (message: st
 export function fileRow(i: number): number {
   return i + 2;
 }
+
+/** Labels of some rows of a column: factor levels, or numbers as written by String(); "(missing)" for a missing value. */
+export function columnLabels(table: Table, column: string, rows: ArrayLike<number>): string[] {
+  const c = table.columns.get(column)!;
+  const out: string[] = new Array(rows.length);
+  for (let k = 0; k < rows.length; k++) {
+    const i = rows[k];
+    if (c.kind === "factor") out[k] = c.codes[i] < 0 ? "(missing)" : c.levels[c.codes[i]];
+    else out[k] = Number.isNaN(c.values[i]) ? "(missing)" : String(c.values[i]);
+  }
+  return out;
+}

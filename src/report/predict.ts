@@ -1,7 +1,7 @@
 // Outputs of `tallyfit predict`: the input rows plus the new columns (CSV), or a table.
 import type { GroupSummary } from "../infer/groups.js";
 import type { PredictResult } from "../infer/predict.js";
-import { csvField } from "./fit-tabular.js";
+import { csvField } from "./csv-field.js";
 import { fixed, groupTable, sig, table, wrap } from "./format.js";
 import type { Style } from "./style.js";
 

@@ -1,16 +1,16 @@
 // Compositions of the stages that the commands run: fit → infer for one
 // model, with the family chosen by the dispersion check for --family auto.
-import type { Design } from "./design/design.js";
-import { estimatePatterns, mergePatterns, patternKeyFor, type PatternMerge } from "./design/patterns.js";
-import type { FitControl } from "./fit/kernel/types.js";
-import { fitCounts, type FamilyChoice, type FamilyName, type CountFit } from "./fit/count-fit.js";
-import { dispersionFlagged, runChecks, type CheckResult } from "./infer/check.js";
-import { profileContext } from "./infer/intervals.js";
-import { inferencePlan, runJob, runJobs, type InferencePlan, type JobResult } from "./infer/parallel.js";
-import type { ProfileResult } from "./infer/profile.js";
-import { summarizeFit, type FitSummary } from "./infer/summary.js";
-import { termTestContext, type TermTest } from "./infer/terms.js";
-import { quantileResiduals, rootogram } from "./infer/diagnostics.js";
+import type { Design } from "../design/design.js";
+import { estimatePatterns, mergePatterns, patternKeyFor, type PatternMerge } from "../design/patterns.js";
+import type { FitControl } from "../fit/kernel/types.js";
+import { fitCounts, type FamilyChoice, type FamilyName, type CountFit } from "../fit/count-fit.js";
+import { type CheckResult, dispersionFlagged, runChecks } from "../infer/check.js";
+import { profileContext } from "../infer/intervals.js";
+import { inferencePlan, runJob, runJobs, type InferencePlan, type JobResult } from "../infer/parallel.js";
+import type { ProfileResult } from "../infer/profile.js";
+import { summarizeFit, type FitSummary } from "../infer/summary.js";
+import { termTestContext, type TermTest } from "../infer/terms.js";
+import { quantileResiduals, type Rootogram, rootogram } from "../infer/diagnostics.js";
 
 export interface AnalysisOptions {
   family: FamilyChoice;
@@ -181,26 +181,14 @@ export async function analyzeFitParallel(design: Design, o: AnalysisOptions): Pr
   return assemble(design, o, fitted, plan, await runJobs(plan));
 }
 
-/** The dispersion and zero-count check of a model. */
-export function analyzeCheck(
-  design: Design,
-  o: { control?: Partial<FitControl>; testLevel: number; merge?: MergeChoice },
-): CheckResult {
-  return analyzeCheckWithFits(design, o).check;
-}
-
-/** The check together with the Poisson and negative-binomial fits it used. */
-export function analyzeCheckWithFits(
-  design: Design,
-  o: { control?: Partial<FitControl>; testLevel: number; merge?: MergeChoice; onProgress?: (message: string) => void },
-): { check: CheckResult; poisson: CountFit; negbin: CountFit } {
-  const poisson = fitFamily(design, "poisson", o.control, o.merge, o.onProgress);
-  const negbin = fitFamily(design, "negbin", o.control, o.merge, o.onProgress, poisson);
-  return { check: runChecks(design, poisson, negbin, o.testLevel), poisson, negbin };
-}
-
 /** What the diagnostic picture shows, for a fit: rootogram, residuals, fitted means. */
-export function diagnosticsOf(design: Design, mf: CountFit, seed = 1) {
+export interface Diagnostics {
+  rootogram: Rootogram;
+  residuals: Float64Array;
+  fitted: Float64Array;
+}
+
+export function diagnosticsOf(design: Design, mf: CountFit, seed = 1): Diagnostics {
   const alpha = mf.family === "negbin" ? mf.fit.alpha : 0;
   return {
     rootogram: rootogram(design.y, mf.fit.mu, alpha, design.weights),

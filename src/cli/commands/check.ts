@@ -1,0 +1,42 @@
+// tallyfit check: the dispersion and zero-count tests, the verdict in the exit code.
+import { analyzeCheckWithFits } from "../../analysis/check.js";
+import { diagnosticsOf } from "../../analysis/fit.js";
+import { EXIT, InputError } from "../../errors.js";
+import { summarizeFit } from "../../infer/summary.js";
+import { renderCheckText } from "../../report/check-text.js";
+import { renderJson } from "../../report/json.js";
+import { loadDesigns } from "../input.js";
+import { type ModelOptions, oneOf, parseProbability, plotKind } from "../options.js";
+import { emit, textLayout, writePlot } from "../output.js";
+import { clearProgressLine, fittingProgress } from "../terminal.js";
+import { mergeChoice } from "./shared.js";
+
+export type CheckCliOptions = ModelOptions & { family: string; alpha: string };
+
+export async function runCheck(file: string | undefined, opts: CheckCliOptions): Promise<number> {
+  if (opts.model.length !== 1) throw new InputError('check needs one --model "COUNT ~ TERMS".');
+  oneOf("--format", opts.format, ["text", "json"]);
+  if (opts.family !== "poisson") throw new InputError("check always tests the Poisson model; leave out --family.");
+  const testLevel = parseProbability("--alpha", opts.alpha, "0.05");
+  const merge = mergeChoice(opts);
+  const { designs, control } = await loadDesigns(file, opts, [opts.model[0]]);
+  const design = designs[0];
+  if (opts.plot) plotKind(opts.plot);
+  const onProgress = fittingProgress(opts, design.n);
+  const { check, poisson } = analyzeCheckWithFits(design, { control, testLevel, merge, onProgress });
+  if (onProgress) clearProgressLine();
+  if (opts.plot) {
+    const summary = summarizeFit(design, poisson, { level: parseProbability("--level", opts.level, "0.95") });
+    await writePlot(
+      opts,
+      opts.plot,
+      `Poisson fit of ${summary.model} (check)`,
+      diagnosticsOf(design, poisson),
+      summary,
+    );
+  }
+  const content =
+    opts.format === "json" ? renderJson({ schema: check.schema, check }) : renderCheckText(check, textLayout(opts));
+  await emit(opts, content);
+  return check.flagged ? EXIT.flagged : EXIT.ok;
+}

@@ -1,0 +1,29 @@
+// tallyfit compare: two or more models on the same rows.
+import { analyzeCompare } from "../../analysis/compare.js";
+import { EXIT, InputError } from "../../errors.js";
+import type { FamilyName } from "../../fit/count-fit.js";
+import { renderCompareText } from "../../report/compare-text.js";
+import { renderJson } from "../../report/json.js";
+import { loadDesigns } from "../input.js";
+import { type ModelOptions, oneOf } from "../options.js";
+import { emit, textLayout } from "../output.js";
+import { mergeChoice } from "./shared.js";
+
+export type CompareCliOptions = ModelOptions & { family: string[] };
+
+export async function runCompare(file: string | undefined, opts: CompareCliOptions): Promise<number> {
+  if (opts.model.length < 2) throw new InputError("compare needs two or more --model options.");
+  oneOf("--format", opts.format, ["text", "json"]);
+  const given = opts.family.length === 0 ? ["poisson"] : opts.family;
+  if (given.length !== 1 && given.length !== opts.model.length)
+    throw new InputError(
+      `give --family once (for all models) or once per --model (${opts.model.length} times); got it ${given.length} times.`,
+    );
+  const families = given.map((f) => oneOf<FamilyName>("--family", f, ["poisson", "negbin", "quasipoisson"]));
+  const merge = mergeChoice(opts);
+  const { designs, control } = await loadDesigns(file, opts, opts.model);
+  const result = analyzeCompare(designs, families, control, merge);
+  const content = opts.format === "json" ? renderJson(result) : renderCompareText(result, textLayout(opts));
+  await emit(opts, content);
+  return EXIT.ok;
+}

@@ -1,0 +1,91 @@
+// tallyfit fit: one model, its report, and optionally the model file and picture.
+import { readFileSync } from "node:fs";
+import { analyzeFitParallel, diagnosticsOf } from "../../analysis/fit.js";
+import { naturalCompare } from "../../design/naming.js";
+import { EXIT, InputError } from "../../errors.js";
+import type { FamilyChoice } from "../../fit/count-fit.js";
+import { summarizeGroups } from "../../infer/groups.js";
+import { renderFitText } from "../../report/fit-text.js";
+import { renderFitCsv } from "../../report/fit-csv.js";
+import { renderFitMarkdown } from "../../report/fit-markdown.js";
+import { renderJson } from "../../report/json.js";
+import { modelFileOf } from "../../report/model-file.js";
+import { loadDesigns } from "../input.js";
+import { type ModelOptions, oneOf, parsePositive, parseProbability, plotKind } from "../options.js";
+import { emit, textLayout, writeAtomic, writePlot } from "../output.js";
+import { clearProgressLine, fittingProgress, notice } from "../terminal.js";
+import { mergeChoice } from "./shared.js";
+
+const VERSION: string = JSON.parse(readFileSync(new URL("../../../../package.json", import.meta.url), "utf8")).version;
+
+export type FitCliOptions = ModelOptions & {
+  family: string;
+  alpha: string;
+  saveModel?: string;
+  summaryBy?: string;
+  per: string;
+};
+
+export { VERSION };
+
+export async function runFit(file: string | undefined, opts: FitCliOptions): Promise<number> {
+  if (opts.model.length !== 1)
+    throw new InputError(
+      opts.model.length === 0
+        ? 'fit needs --model "COUNT ~ TERMS".'
+        : "fit takes one --model; use `tallyfit compare` for several.",
+    );
+  const level = parseProbability("--level", opts.level, "0.95");
+  oneOf("--format", opts.format, ["text", "json", "csv", "markdown"]);
+  const family: FamilyChoice = oneOf("--family", opts.family, ["poisson", "quasipoisson", "negbin", "auto"]);
+  const intervals = oneOf("--intervals", opts.intervals, ["wald", "profile", "both"]);
+  const testLevel = parseProbability("--alpha", opts.alpha, "0.05");
+  const per = parsePositive("--per", opts.per);
+  const merge = mergeChoice(opts);
+  const alsoRead = opts.summaryBy ? [opts.summaryBy] : [];
+  const { designs, control, labels, sha256 } = await loadDesigns(file, opts, [opts.model[0]], alsoRead);
+  const design = designs[0];
+  if (opts.plot) plotKind(opts.plot);
+  const onProgress = fittingProgress(opts, design.n);
+  const { summary, countFit } = await analyzeFitParallel(design, {
+    family,
+    control,
+    level,
+    intervals,
+    robust: !!opts.robust,
+    testLevel,
+    merge,
+    onProgress,
+  });
+  if (onProgress) clearProgressLine();
+  const wide = opts.format === "text" && !opts.output && process.stdout.isTTY && (process.stdout.columns ?? 0) >= 60;
+  const diag = opts.plot || wide ? diagnosticsOf(design, countFit) : null;
+  if (opts.plot && diag) await writePlot(opts, opts.plot, `${summary.family} fit of ${summary.model}`, diag, summary);
+  if (opts.summaryBy)
+    summary.summary_by = summarizeGroups(
+      opts.summaryBy,
+      labels.get(opts.summaryBy)!,
+      design.y,
+      countFit.fit.mu,
+      design.exposure,
+      per,
+      level,
+      naturalCompare,
+    );
+  if (opts.saveModel) {
+    await writeAtomic(opts.saveModel, renderJson(modelFileOf(design, countFit, { version: VERSION, sha256 })));
+    notice(opts, `model saved to ${opts.saveModel}`);
+  }
+  let content: string;
+  if (opts.format === "json") content = renderJson(summary);
+  else if (opts.format === "csv") content = renderFitCsv(summary);
+  else if (opts.format === "markdown") content = renderFitMarkdown(summary);
+  else
+    content = renderFitText(summary, {
+      ...textLayout(opts),
+      intervals,
+      rootogram: wide && diag ? diag.rootogram : undefined,
+    });
+  await emit(opts, content);
+  return EXIT.ok;
+}

@@ -1,0 +1,75 @@
+// tallyfit predict: expected counts, limits and flags for new rows under a model file.
+import { analyzePredict } from "../../analysis/predict.js";
+import { EXIT, InputError } from "../../errors.js";
+import { parseRecords, parseTable } from "../../io/csv.js";
+import { loadModelFile } from "../../io/model-file.js";
+import { readSource } from "../../io/source-bytes.js";
+import { columnLabels } from "../../io/table.js";
+import { renderJson } from "../../report/json.js";
+import { renderPredictCsv, renderPredictText } from "../../report/predict.js";
+import {
+  type IoOptions,
+  oneOf,
+  parseNa,
+  parseNonNegativeInt,
+  parsePositive,
+  parsePositiveInt,
+  parseProbability,
+} from "../options.js";
+import { emit, textLayout } from "../output.js";
+import { notice } from "../terminal.js";
+
+export interface PredictCliOptions extends IoOptions {
+  modelFile: string;
+  level: string;
+  flagLevel: string;
+  draws: string;
+  seed: string;
+  failOnFlag?: boolean;
+  summaryBy?: string;
+  per: string;
+}
+
+export async function runPredict(file: string | undefined, opts: PredictCliOptions): Promise<number> {
+  oneOf("--format", opts.format, ["csv", "json", "text"]);
+  const level = parseProbability("--level", opts.level, "0.95");
+  const flagLevel = parseProbability("--flag-level", opts.flagLevel, "0.99");
+  const draws = parsePositiveInt("--draws", opts.draws);
+  const seed = parseNonNegativeInt("--seed", opts.seed);
+  const per = parsePositive("--per", opts.per);
+  const saved = await loadModelFile(opts.modelFile);
+  const path = file ?? "-";
+  if (path === "-" && process.stdin.isTTY)
+    throw new InputError("no input: give a CSV file of new rows, or pipe one in.");
+  const { bytes, name } = await readSource(path);
+  const factors = saved.factors.map((f) => f.name);
+  const table = parseTable(bytes, { source: name, delimiter: opts.delimiter, na: parseNa(opts.na), factors });
+  if (opts.summaryBy && !table.columns.has(opts.summaryBy))
+    throw new InputError(`${name}: --summary-by column '${opts.summaryBy}' is not in the file.`);
+  const { design, result, groups } = analyzePredict(table, saved, {
+    level,
+    flagLevel,
+    draws,
+    seed,
+    summaryBy: opts.summaryBy,
+    per,
+  });
+  let content: string;
+  if (opts.format === "json") content = renderJson(groups ? { ...result, summary_by: groups } : result);
+  else if (opts.format === "csv")
+    content = renderPredictCsv(parseRecords(bytes, { source: name, delimiter: table.delimiter }), result);
+  else {
+    const all = Int32Array.from({ length: design.n }, (_, i) => i);
+    const cols = saved.factors.map((f) => columnLabels(table, f.name, all));
+    const labels = Array.from({ length: design.n }, (_, i) => cols.map((c) => c[i]).join(" "));
+    content = renderPredictText(result, groups, {
+      ...textLayout(opts),
+      labels,
+      labelHeading: saved.factors.map((f) => f.name).join(" "),
+    });
+  }
+  await emit(opts, content);
+  if (result.n_flagged > 0)
+    notice(opts, `${result.n_flagged} row${result.n_flagged === 1 ? "" : "s"} flagged above the ${flagLevel} limit`);
+  return opts.failOnFlag && result.n_flagged > 0 ? EXIT.flagged : EXIT.ok;
+}

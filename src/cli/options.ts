@@ -1,0 +1,174 @@
+// Command-line options: the shared option sets each command adds, and the
+// parsers that turn their text into values, with one message per mistake.
+import { type Command, Option } from "commander";
+import { InputError } from "../errors.js";
+import { DEFAULT_NA } from "../io/dialect.js";
+
+/** Options every command reads its input and writes its output with. */
+export interface IoOptions {
+  format: string;
+  output?: string;
+  delimiter?: string;
+  na?: string;
+  quiet?: boolean;
+  color: boolean;
+  debug?: boolean;
+}
+
+/** Options of the commands that fit models (fit, check, compare). */
+export interface ModelOptions extends IoOptions {
+  model: string[];
+  exposure?: string;
+  offset?: string;
+  factor: string[];
+  ref: string[];
+  weights?: string;
+  intercept: boolean;
+  level: string;
+  intervals: string;
+  robust?: boolean;
+  plot?: string;
+  maxIter: string;
+  tolerance: string;
+  mergePatterns: string;
+}
+
+export function collect(value: string, previous: string[]): string[] {
+  return [...previous, value];
+}
+
+/** A probability strictly between 0 and 1 (interval and test levels). */
+export function parseProbability(option: string, value: string, example: string): number {
+  const x = Number(value);
+  if (!(x > 0 && x < 1))
+    throw new InputError(`${option} must be a number between 0 and 1, such as ${example} (got '${value}').`);
+  return x;
+}
+
+export function parsePositiveInt(option: string, value: string): number {
+  const x = Number(value);
+  if (!Number.isInteger(x) || x < 1)
+    throw new InputError(`${option} must be a whole number of at least 1 (got '${value}').`);
+  return x;
+}
+
+export function parseNonNegativeInt(option: string, value: string): number {
+  const x = Number(value);
+  if (!Number.isInteger(x) || x < 0) throw new InputError(`${option} must be a whole number ≥ 0 (got '${value}').`);
+  return x;
+}
+
+export function parsePositive(option: string, value: string): number {
+  const x = Number(value);
+  if (!(x > 0) || !Number.isFinite(x)) throw new InputError(`${option} must be a positive number (got '${value}').`);
+  return x;
+}
+
+export function oneOf<T extends string>(option: string, value: string, allowed: readonly T[]): T {
+  if (!allowed.includes(value as T))
+    throw new InputError(`${option} must be one of ${allowed.join(", ")} (got '${value}').`);
+  return value as T;
+}
+
+export function parseRefs(list: string[]): Record<string, string> {
+  const refs: Record<string, string> = {};
+  for (const r of list) {
+    const k = r.indexOf("=");
+    if (k <= 0 || k === r.length - 1)
+      throw new InputError(`--ref takes COLUMN=LEVEL, such as --ref clinic=central (got '${r}').`);
+    refs[r.slice(0, k)] = r.slice(k + 1);
+  }
+  return refs;
+}
+
+export function parseNa(value: string | undefined): string[] {
+  if (value === undefined) return DEFAULT_NA;
+  return value.split(",").map((s) => s.trim());
+}
+
+/** Column names given comma-separated and repeatable (--factor a,b --factor c). */
+export function parseColumnList(list: string[]): string[] {
+  return list.flatMap((f) =>
+    f
+      .split(",")
+      .map((s) => s.trim())
+      .filter(Boolean),
+  );
+}
+
+export function plotKind(path: string): "svg" | "png" {
+  if (/\.svg$/i.test(path)) return "svg";
+  if (/\.png$/i.test(path)) return "png";
+  throw new InputError(`--plot takes a file name ending in .svg or .png (got '${path}').`);
+}
+
+/** The model, family and design options of fit, check and compare. */
+export function addModelOptions(cmd: Command, multiModel = false): Command {
+  const withModel = cmd.option(
+    "--model <spec>",
+    multiModel ? 'a model "COUNT ~ TERMS" (give two or more)' : 'response column and terms, as "COUNT ~ a + b + a:b"',
+    collect,
+    [],
+  );
+  const withFamily = multiModel
+    ? withModel.option(
+        "--family <name>",
+        "poisson, negbin or quasipoisson: once for all models, or once per --model in order",
+        collect,
+        [],
+      )
+    : withModel.addOption(new Option("--family <name>", "poisson, negbin, quasipoisson or auto").default("poisson"));
+  return withFamily
+    .option("--exposure <col>", "exposure column (person-time, open hours, bed-days); its log becomes the offset")
+    .option("--offset <col>", "an offset column already on the log scale")
+    .option(
+      "--factor <cols>",
+      "treat these numeric-looking columns as categorical (comma-separated, repeatable)",
+      collect,
+      [],
+    )
+    .option("--ref <col=level>", "reference level of a factor (repeatable)", collect, [])
+    .option("--weights <col>", "frequency weights (a row stands for that many identical rows)")
+    .option("--no-intercept", "drop the intercept")
+    .option("--level <p>", "interval level", "0.95")
+    .addOption(new Option("--intervals <kind>", "wald, profile or both").default("both"))
+    .option("--robust", "sandwich (Huber-White) standard errors");
+}
+
+/** Output options (format, file) shared by every command. */
+export function addOutputOptions(cmd: Command, formats: string, dflt: string, writes = "the report"): Command {
+  return cmd
+    .addOption(new Option("--format <fmt>", formats).default(dflt))
+    .option("--output <file>", `write ${writes} to FILE (atomically) instead of stdout`);
+}
+
+/** The plot and IRLS options of the commands that fit models. */
+export function addFitControlOptions(cmd: Command): Command {
+  return cmd
+    .option("--plot <file>", "diagnostic picture: FILE.svg or FILE.png")
+    .option("--delimiter <c>", "field delimiter (default ',' and tab for .tsv)")
+    .option("--na <tokens>", "comma-separated missing-value tokens (default: empty, NA, NaN, null, .)")
+    .option("--max-iter <n>", "IRLS iteration limit", "50")
+    .option("--tolerance <x>", "IRLS convergence tolerance on the relative change in deviance", "1e-10")
+    .addOption(
+      new Option(
+        "--merge-patterns <when>",
+        "run IRLS over rows merged by covariate pattern: auto (10,000+ rows, at most half as many patterns), always or never",
+      ).default("auto"),
+    );
+}
+
+/** Reading options of a command that takes new rows without fitting (predict). */
+export function addReadOptions(cmd: Command): Command {
+  return cmd
+    .option("--delimiter <c>", "field delimiter (default ',' and tab for .tsv)")
+    .option("--na <tokens>", "comma-separated missing-value tokens");
+}
+
+/** Terminal options shared by every command. */
+export function addTerminalOptions(cmd: Command): Command {
+  return cmd
+    .option("--quiet", "no notices on stderr")
+    .option("--no-color", "no colour")
+    .option("--debug", "show a stack trace on internal errors");
+}

@@ -1,0 +1,84 @@
+// The command surface: each command's arguments and options, wired to its run function.
+import { Command } from "commander";
+import { runCheck } from "./commands/check.js";
+import { runCompare } from "./commands/compare.js";
+import { type FitCliOptions, runFit, VERSION } from "./commands/fit.js";
+import { type PredictCliOptions, runPredict } from "./commands/predict.js";
+import {
+  addFitControlOptions,
+  addModelOptions,
+  addOutputOptions,
+  addReadOptions,
+  addTerminalOptions,
+  type ModelOptions,
+} from "./options.js";
+
+const FILE_ARG = "CSV file, or - for standard input";
+
+/** A fitting command with its shared options (model, output, IRLS, terminal). */
+function fittingCommand(
+  program: Command,
+  name: string,
+  description: string,
+  formats: string,
+  multiModel = false,
+): Command {
+  const cmd = program.command(name).description(description).argument("[file]", FILE_ARG);
+  return addTerminalOptions(addFitControlOptions(addOutputOptions(addModelOptions(cmd, multiModel), formats, "text")));
+}
+
+export function buildProgram(onResult: (code: number) => void): Command {
+  const program = new Command();
+  program
+    .name("tallyfit")
+    .description("Poisson and negative-binomial rate models for count data in CSV files.")
+    .version(VERSION)
+    .exitOverride()
+    .configureOutput({ writeErr: (s) => process.stderr.write(s), writeOut: (s) => process.stdout.write(s) })
+    .showHelpAfterError("(run tallyfit --help for the commands and options)");
+
+  fittingCommand(program, "fit", "fit one model and print the report", "text, json, csv or markdown")
+    .option("--alpha <p>", "test level of the dispersion check used by --family auto", "0.05")
+    .option("--save-model <file>", "write everything predict needs to FILE (JSON, schema tallyfit.model/1)")
+    .option("--summary-by <col>", "observed and expected totals by group, with exact O/E limits")
+    .option("--per <n>", "units of exposure for the crude rates of --summary-by", "1")
+    .action(async (file: string | undefined, opts: FitCliOptions) => onResult(await runFit(file, opts)));
+
+  const predict = program
+    .command("predict")
+    .description("expected counts, limits and excess-count flags for new rows under a saved model")
+    .argument("[file]", "CSV file of new rows, or - for standard input")
+    .requiredOption("--model-file <file>", "a model saved by tallyfit fit --save-model")
+    .option("--level <p>", "level of the mean and prediction intervals", "0.95")
+    .option("--flag-level <p>", "flag a row whose count is above this quantile of its predictive distribution", "0.99")
+    .option("--draws <n>", "draws of the estimates for the prediction interval", "2000")
+    .option("--seed <n>", "seed of those draws", "1")
+    .option("--fail-on-flag", "exit code 4 when any row is flagged")
+    .option("--summary-by <col>", "observed and expected totals by group, with exact O/E limits")
+    .option("--per <n>", "units of exposure for the crude rates of --summary-by", "1");
+  addTerminalOptions(addReadOptions(addOutputOptions(predict, "csv, json or text", "csv", "the results"))).action(
+    async (file: string | undefined, opts: PredictCliOptions) => onResult(await runPredict(file, opts)),
+  );
+
+  fittingCommand(
+    program,
+    "check",
+    "dispersion and zero-count diagnostics of the Poisson model; exit code 4 when a test flags",
+    "text or json",
+  )
+    .option("--alpha <p>", "test level: a test flags when its p-value is below this", "0.05")
+    .action(async (file: string | undefined, opts: ModelOptions & { family: string; alpha: string }) =>
+      onResult(await runCheck(file, opts)),
+    );
+
+  fittingCommand(
+    program,
+    "compare",
+    "nested-model tests and information criteria for two or more models on the same rows",
+    "text or json",
+    true,
+  ).action(async (file: string | undefined, opts: ModelOptions & { family: string[] }) =>
+    onResult(await runCompare(file, opts)),
+  );
+  return program;
+}
