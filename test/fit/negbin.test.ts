@@ -3,11 +3,11 @@ import { test } from "node:test";
 import assert from "node:assert/strict";
 import { readFileSync } from "node:fs";
 import { join } from "node:path";
-import { FIXTURES, assertRel, fitCsv, negbinDraw, rng, simulateRates } from "./helpers.js";
-import { fitGlm } from "../src/fit/kernel/glm.js";
-import { nullDeviance } from "../src/fit/count-fit.js";
-import { digamma, lgamma, trigamma } from "../src/math/distributions.js";
-import { lgammaRatio } from "../src/fit/family.js";
+import { FIXTURES, assertRel, fitCsv, negbinDraw, rng, simulateRates } from "../helpers.js";
+import { fitGlm } from "../../src/fit/kernel/glm.js";
+import { nullDeviance } from "../../src/fit/count-fit.js";
+import { digamma, lgamma, trigamma } from "../../src/math/distributions.js";
+import { lgammaRatio } from "../../src/fit/family.js";
 
 const expected = JSON.parse(readFileSync(join(FIXTURES, "scipy", "expected.json"), "utf8"));
 const fixture = (name: string) => readFileSync(join(FIXTURES, "scipy", name), "utf8");

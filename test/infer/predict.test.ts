@@ -4,17 +4,17 @@ import assert from "node:assert/strict";
 import { mkdtempSync, readFileSync, writeFileSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
-import { buildDesign } from "../src/design/design.js";
-import { buildPredictionDesign } from "../src/design/predict-design.js";
-import { fitCounts, type FamilyName } from "../src/fit/count-fit.js";
-import { garwoodInterval } from "../src/infer/garwood.js";
-import { predictRows } from "../src/infer/predict.js";
-import { parseModelFile } from "../src/io/model-file.js";
-import { parseTable } from "../src/io/csv.js";
-import { parseFormula } from "../src/formula/formula.js";
-import { renderJson } from "../src/report/json.js";
-import { modelFileOf } from "../src/report/model-file.js";
-import { binomialLimits, negbinDraw, rng, runCli } from "./helpers.js";
+import { buildDesign } from "../../src/design/design.js";
+import { buildPredictionDesign } from "../../src/design/predict-design.js";
+import { fitCounts, type FamilyName } from "../../src/fit/count-fit.js";
+import { garwoodInterval } from "../../src/infer/garwood.js";
+import { predictRows } from "../../src/infer/predict.js";
+import { parseModelFile } from "../../src/io/model-file.js";
+import { parseTable } from "../../src/io/csv.js";
+import { parseFormula } from "../../src/formula/formula.js";
+import { renderJson } from "../../src/report/json.js";
+import { modelFileOf } from "../../src/report/model-file.js";
+import { binomialLimits, negbinDraw, rng, runCli } from "../helpers.js";
 
 function simulate(u: () => number, n: number, alpha: number, scale = 1) {
   let csv = "unit,x,e,y\n";

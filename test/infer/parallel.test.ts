@@ -2,16 +2,16 @@
 // must give exactly what the same jobs give on one thread.
 import { test } from "node:test";
 import assert from "node:assert/strict";
-import { analyzeFit, analyzeFitParallel } from "../src/analysis/fit.js";
-import { buildDesign } from "../src/design/design.js";
-import { parseTable } from "../src/io/csv.js";
-import { parseFormula } from "../src/formula/formula.js";
-import { inferencePlan, runJob, runJobs, wantWorker } from "../src/infer/parallel.js";
-import { profileContext } from "../src/infer/intervals.js";
-import { termTestContext } from "../src/infer/terms.js";
-import { fitCounts } from "../src/fit/count-fit.js";
-import { negbinDraw, rng, runCli } from "./helpers.js";
-import { FitError } from "../src/errors.js";
+import { analyzeFit, analyzeFitParallel } from "../../src/analysis/fit.js";
+import { buildDesign } from "../../src/design/design.js";
+import { parseTable } from "../../src/io/csv.js";
+import { parseFormula } from "../../src/formula/formula.js";
+import { inferencePlan, runJob, runJobs, wantWorker } from "../../src/infer/parallel.js";
+import { profileContext } from "../../src/infer/intervals.js";
+import { termTestContext } from "../../src/infer/terms.js";
+import { fitCounts } from "../../src/fit/count-fit.js";
+import { negbinDraw, rng, runCli } from "../helpers.js";
+import { FitError } from "../../src/errors.js";
 
 function wardsCsv(seed: number, n: number, alpha: number): string {
   const u = rng(seed);

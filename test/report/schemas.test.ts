@@ -5,7 +5,7 @@ import { mkdtempSync, readFileSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
 import AjvModule from "ajv";
-import { ROOT, runCli } from "./helpers.js";
+import { ROOT, runCli } from "../helpers.js";
 
 const Ajv = (AjvModule as unknown as { default: typeof AjvModule }).default ?? AjvModule;
 const ajv = new (

@@ -4,7 +4,7 @@ import assert from "node:assert/strict";
 import { mkdtempSync, readFileSync, writeFileSync, existsSync, readdirSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
-import { ROOT, runCli } from "./helpers.js";
+import { ROOT, runCli } from "../helpers.js";
 import { spawnSync } from "node:child_process";
 
 const ANSI = new RegExp(`${String.fromCharCode(27)}\\[`);

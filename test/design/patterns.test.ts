@@ -3,15 +3,15 @@
 // fits over the rows themselves, on seeded simulated data (invented).
 import { test } from "node:test";
 import assert from "node:assert/strict";
-import { buildDesign, type Design } from "../src/design/design.js";
-import { estimatePatterns, mergePatterns } from "../src/design/patterns.js";
-import { parseTable } from "../src/io/csv.js";
-import { parseFormula } from "../src/formula/formula.js";
-import { analyzeFit, MERGE_MIN_ROWS, patternsFor, type MergeChoice } from "../src/analysis/fit.js";
-import { analyzeCheckWithFits } from "../src/analysis/check.js";
-import type { FamilyChoice } from "../src/fit/count-fit.js";
-import type { FitSummary } from "../src/infer/summary.js";
-import { assertRel, negbinDraw, rng, runCli } from "./helpers.js";
+import { buildDesign, type Design } from "../../src/design/design.js";
+import { estimatePatterns, mergePatterns } from "../../src/design/patterns.js";
+import { parseTable } from "../../src/io/csv.js";
+import { parseFormula } from "../../src/formula/formula.js";
+import { analyzeFit, MERGE_MIN_ROWS, patternsFor, type MergeChoice } from "../../src/analysis/fit.js";
+import { analyzeCheckWithFits } from "../../src/analysis/check.js";
+import type { FamilyChoice } from "../../src/fit/count-fit.js";
+import type { FitSummary } from "../../src/infer/summary.js";
+import { assertRel, negbinDraw, rng, runCli } from "../helpers.js";
 
 /** Ward-month style rows with few distinct covariate values: ward (4), shift (3), a 0/1 column, a coarse score. */
 function simulate(

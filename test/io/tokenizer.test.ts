@@ -2,10 +2,10 @@
 import { test } from "node:test";
 import assert from "node:assert/strict";
 import fc from "fast-check";
-import { makeReader, parseTable } from "../src/io/csv.js";
-import { parseTableWithCsvParse } from "./io/csv-parse-oracle.js";
-import { InputError } from "../src/errors.js";
-import type { Table } from "../src/io/table.js";
+import { makeReader, parseTable } from "../../src/io/csv.js";
+import { parseTableWithCsvParse } from "./csv-parse-oracle.js";
+import { InputError } from "../../src/errors.js";
+import type { Table } from "../../src/io/table.js";
 
 function snapshot(t: Table) {
   return {

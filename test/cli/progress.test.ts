@@ -6,8 +6,8 @@ import { spawnSync } from "node:child_process";
 import { existsSync, mkdtempSync, readFileSync, rmSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
-import { writeBenchFile } from "../bench/generate.js";
-import { BIN, ROOT } from "./helpers.js";
+import { writeBenchFile } from "../../bench/generate.js";
+import { BIN, ROOT } from "../helpers.js";
 
 const SCRIPT = "/usr/bin/script"; // util-linux: runs a command on a pseudo-terminal
 

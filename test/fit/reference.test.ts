@@ -3,7 +3,7 @@ import { test } from "node:test";
 import assert from "node:assert/strict";
 import { readFileSync } from "node:fs";
 import { join } from "node:path";
-import { FIXTURES, assertRel, fitCsv } from "./helpers.js";
+import { FIXTURES, assertRel, fitCsv } from "../helpers.js";
 
 test("Doll and Hill British doctors, coronary deaths (Breslow and Day 1987; Dobson and Barnett 2008): published fit to 4 decimals", () => {
   // Table and published figures recalled from memory of those texts; the

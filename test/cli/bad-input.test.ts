@@ -4,7 +4,7 @@ import assert from "node:assert/strict";
 import { spawn } from "node:child_process";
 import { readFileSync } from "node:fs";
 import { join } from "node:path";
-import { BIN, ROOT, runCli } from "./helpers.js";
+import { BIN, ROOT, runCli } from "../helpers.js";
 import { CASES, firstLine, runCase } from "./error-cases.js";
 
 for (const c of CASES) {

@@ -1,7 +1,7 @@
 // Properties of the Poisson likelihood that hold exactly (closed forms and invariances).
 import { test } from "node:test";
 import assert from "node:assert/strict";
-import { assertRel, fitCsv, poissonDraw, rng } from "./helpers.js";
+import { assertRel, fitCsv, poissonDraw, rng } from "../helpers.js";
 
 function oneFactorData(seed: number, n = 60) {
   const u = rng(seed);

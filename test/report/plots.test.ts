@@ -6,14 +6,14 @@ import { tmpdir } from "node:os";
 import { join } from "node:path";
 import { DOMParser } from "@xmldom/xmldom";
 import { PNG } from "pngjs";
-import { buildDesign } from "../src/design/design.js";
-import { parseTable } from "../src/io/csv.js";
-import { parseFormula } from "../src/formula/formula.js";
-import { analyzeFit, diagnosticsOf } from "../src/analysis/fit.js";
-import { normalUpperTail } from "../src/math/distributions.js";
-import { renderSvg } from "../src/report/svg.js";
-import { textRootogram } from "../src/report/text-rootogram.js";
-import { negbinDraw, rng, runCli } from "./helpers.js";
+import { buildDesign } from "../../src/design/design.js";
+import { parseTable } from "../../src/io/csv.js";
+import { parseFormula } from "../../src/formula/formula.js";
+import { analyzeFit, diagnosticsOf } from "../../src/analysis/fit.js";
+import { normalUpperTail } from "../../src/math/distributions.js";
+import { renderSvg } from "../../src/report/svg.js";
+import { textRootogram } from "../../src/report/text-rootogram.js";
+import { negbinDraw, rng, runCli } from "../helpers.js";
 
 const SMALL = "g,x,e,y\na,0.1,2,3\nb,0.5,2,0\na,0.9,1,5\nb,0.3,3,2\na,0.7,2,1\nb,0.2,1,4\na,0.4,2,2\nb,0.8,3,6\n";
 

@@ -4,11 +4,11 @@ import assert from "node:assert/strict";
 import { mkdtempSync, writeFileSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
-import { analyzeCheck } from "../src/analysis/check.js";
-import { buildDesign } from "../src/design/design.js";
-import { parseTable } from "../src/io/csv.js";
-import { parseFormula } from "../src/formula/formula.js";
-import { binomialLimits, rng, runCli, simulateRates } from "./helpers.js";
+import { analyzeCheck } from "../../src/analysis/check.js";
+import { buildDesign } from "../../src/design/design.js";
+import { parseTable } from "../../src/io/csv.js";
+import { parseFormula } from "../../src/formula/formula.js";
+import { binomialLimits, rng, runCli, simulateRates } from "../helpers.js";
 
 const DISPERSION = ["pearson", "deviance", "cameron_trivedi", "dean_lawless", "lr_negbin"];
 

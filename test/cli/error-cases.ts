@@ -4,7 +4,7 @@
 import { mkdtempSync, writeFileSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
-import { runCli } from "./helpers.js";
+import { runCli } from "../helpers.js";
 
 export interface ErrorCase {
   mistake: string;

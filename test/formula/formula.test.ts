@@ -1,8 +1,8 @@
 // The model string: Wilkinson–Rogers operators +, :, * and error carets.
 import { test } from "node:test";
 import assert from "node:assert/strict";
-import { parseFormula } from "../src/formula/formula.js";
-import { InputError } from "../src/errors.js";
+import { parseFormula } from "../../src/formula/formula.js";
+import { InputError } from "../../src/errors.js";
 
 const terms = (s: string) => parseFormula(s).terms.map((t) => t.variables.join(":"));
 

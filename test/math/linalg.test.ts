@@ -2,9 +2,9 @@
 import { test } from "node:test";
 import assert from "node:assert/strict";
 import { CholeskyDecomposition, Matrix, inverse } from "ml-matrix";
-import { cholesky, choleskyInverse, choleskySolve, screenRank } from "../src/math/linalg.js";
-import { rng } from "./helpers.js";
-import { brentRoot } from "../src/math/roots.js";
+import { cholesky, choleskyInverse, choleskySolve, screenRank } from "../../src/math/linalg.js";
+import { rng } from "../helpers.js";
+import { brentRoot } from "../../src/math/roots.js";
 
 function randomSpd(p: number, seed: number): number[][] {
   const u = rng(seed);

@@ -4,7 +4,7 @@ import assert from "node:assert/strict";
 import { mkdtempSync, writeFileSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
-import { fitCsv, rng, runCli, simulateRates } from "./helpers.js";
+import { fitCsv, rng, runCli, simulateRates } from "../helpers.js";
 
 const csv = simulateRates(rng(55), 300, 0, 3)
   .replace("g,x,e,y", "g,x,e,y")

@@ -8,7 +8,7 @@ import { tmpdir } from "node:os";
 import { join } from "node:path";
 import { test } from "node:test";
 import assert from "node:assert/strict";
-import { BIN, FIXTURES, ROOT } from "./helpers.js";
+import { BIN, FIXTURES, ROOT } from "../helpers.js";
 
 interface GoldenCase {
   name: string;

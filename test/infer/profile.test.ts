@@ -3,9 +3,9 @@ import { test } from "node:test";
 import assert from "node:assert/strict";
 import { readFileSync } from "node:fs";
 import { join } from "node:path";
-import { FIXTURES, assertRel, fitCsv, poissonDraw, rng } from "./helpers.js";
-import { brentRoot } from "../src/math/roots.js";
-import { chiSquareQuantile, lgamma } from "../src/math/distributions.js";
+import { FIXTURES, assertRel, fitCsv, poissonDraw, rng } from "../helpers.js";
+import { brentRoot } from "../../src/math/roots.js";
+import { chiSquareQuantile, lgamma } from "../../src/math/distributions.js";
 
 const expected = JSON.parse(readFileSync(join(FIXTURES, "scipy", "expected.json"), "utf8"));
 const fixture = (name: string) => readFileSync(join(FIXTURES, "scipy", name), "utf8");

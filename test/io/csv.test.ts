@@ -1,9 +1,9 @@
 // The loader: RFC 4180 quoting, dialects, typing and input errors.
 import { test } from "node:test";
 import assert from "node:assert/strict";
-import { parseTable } from "../src/io/csv.js";
-import { firstInvalidUtf8 } from "../src/io/source-bytes.js";
-import { InputError } from "../src/errors.js";
+import { parseTable } from "../../src/io/csv.js";
+import { firstInvalidUtf8 } from "../../src/io/source-bytes.js";
+import { InputError } from "../../src/errors.js";
 
 const load = (text: string | Uint8Array, extra: Record<string, unknown> = {}) =>
   parseTable(text, { source: "t.csv", ...extra });

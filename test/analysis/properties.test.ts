@@ -2,11 +2,11 @@
 import { test } from "node:test";
 import assert from "node:assert/strict";
 import fc from "fast-check";
-import { analyzeFit } from "../src/analysis/fit.js";
-import { buildDesign } from "../src/design/design.js";
-import { FitError, InputError } from "../src/errors.js";
-import { parseTable } from "../src/io/csv.js";
-import { parseFormula } from "../src/formula/formula.js";
+import { analyzeFit } from "../../src/analysis/fit.js";
+import { buildDesign } from "../../src/design/design.js";
+import { FitError, InputError } from "../../src/errors.js";
+import { parseTable } from "../../src/io/csv.js";
+import { parseFormula } from "../../src/formula/formula.js";
 
 export const RUNS = { data: 150, order: 100, bytes: 300, text: 300 };
 
