@@ -5,7 +5,9 @@
 //   npm run bench -- --rows 100000 --reps 5
 //   npm run bench -- --big                 also 10,000,000 rows (about 220 MB), one run per family, and the
 //                                          Poisson fit against the same data collapsed outside tallyfit
-//   npm run bench -- --smoke               10,000 rows, one run each, no yardstick (used by the tests)
+//   npm run bench -- --smoke               10,000 rows, one run each, no yardstick, and the kernel at 5% size (used by the tests)
+//   npm run bench -- --kernel [--against DIR]  the IRLS kernel micro-benchmark alone (bench/kernel.ts), which the
+//                                          default run also ends with
 // Wall time is measured around each process; peak resident memory comes from
 // /usr/bin/time when present. Medians are printed with the ratios.
 import { spawnSync } from "node:child_process";
@@ -14,6 +16,7 @@ import { dirname, join, resolve } from "node:path";
 import { fileURLToPath } from "node:url";
 import { writeBenchFile } from "./generate.js";
 import { collapseBenchFile } from "./collapse.js";
+import { runKernelBench } from "./kernel.js";
 import { loadTableStream } from "../src/io/csv.js";
 
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), "..", "..");
@@ -219,7 +222,12 @@ async function big(): Promise<void> {
 }
 
 async function main(): Promise<void> {
-  if (process.argv.includes("--smoke")) return bench(10000, 1, false);
+  // The kernel micro-benchmark alone (see bench/kernel.ts); --against DIR adds another build's kernel.
+  if (process.argv.includes("--kernel")) return runKernelBench(process.argv.slice(2));
+  if (process.argv.includes("--smoke")) {
+    await bench(10000, 1, false);
+    return runKernelBench(["--smoke"]);
+  }
   const py = yardstickPython();
   const withYardstick = py !== null;
   if (py) PYTHON = py;
@@ -230,6 +238,8 @@ async function main(): Promise<void> {
   // 100,000 rows: negative binomial and profile limits against the Poisson fit; 1,000,000 rows: against the yardstick.
   if (!process.argv.includes("--rows")) await bench(100000, arg("--reps", 3), false);
   await bench(arg("--rows", 1000000), arg("--reps", 3), withYardstick);
+  console.log("");
+  await runKernelBench([]);
   if (process.argv.includes("--big")) await big();
 }
 

@@ -172,4 +172,9 @@ test("the benchmark runs end to end on a 10,000-row smoke file", () => {
   assert.match(r.stdout, /10,000 rows/);
   assert.match(r.stdout, /tallyfit poisson \(Wald\) +[\d.]+ s/);
   assert.match(r.stdout, /byte scan/);
+  assert.match(r.stdout, /IRLS kernel \(fitGlm\)/, "the kernel micro-benchmark runs too");
+  assert.match(
+    r.stdout,
+    /poisson, row by row: [\d,]+ rows, \d+ columns, row-by-row path\n +this build +[\d.]+ ms +\d+ iterations/,
+  );
 });
