@@ -66,43 +66,31 @@ export function alphaDerivatives(
 ): { g: number; h: number } {
   const r = 1 / alpha;
   const table = CountTable.of(y, alpha);
+  const harmonicSums = table?.harmonic;
   let s1 = 0,
     s2 = 0,
     s3 = 0,
     s4 = 0,
     s5 = 0;
-  if (table !== null) {
-    const yi32 = table.counts;
-    const { d: tabD, e: tabE } = table.harmonic;
-    for (let i = 0; i < y.length; i++) {
-      const m = mu[i];
-      if (!(m > 0)) continue;
-      const k = yi32[i];
-      const am = alpha * m;
-      const iq = 1 / (1 + am);
-      const res = (k - m) * iq;
-      const w = pw === null ? 1 : pw[i];
-      s1 += w * (Math.log1p(am) - tabD[k]);
-      s2 += w * res;
-      s3 += w * m * iq;
-      s4 += w * tabE[k];
-      s5 += w * res * iq * (1 + 2 * am);
-    }
-  } else {
-    for (let i = 0; i < y.length; i++) {
-      const m = mu[i];
-      if (!(m > 0)) continue;
-      const [d, e] = harmonic(y[i], r);
-      const am = alpha * m;
-      const iq = 1 / (1 + am);
-      const res = (y[i] - m) * iq;
-      const w = pw === null ? 1 : pw[i];
-      s1 += w * (Math.log1p(am) - d);
-      s2 += w * res;
-      s3 += w * m * iq;
-      s4 += w * e;
-      s5 += w * res * iq * (1 + 2 * am);
-    }
+  for (let i = 0; i < y.length; i++) {
+    const m = mu[i];
+    if (!(m > 0)) continue;
+    // The harmonic sums of the count: from the table when the counts are whole, else directly.
+    let d: number, e: number;
+    if (harmonicSums) {
+      const k = table!.counts[i];
+      d = harmonicSums.d[k];
+      e = harmonicSums.e[k];
+    } else [d, e] = harmonic(y[i], r);
+    const am = alpha * m;
+    const iq = 1 / (1 + am);
+    const res = (y[i] - m) * iq;
+    const w = pw === null ? 1 : pw[i];
+    s1 += w * (Math.log1p(am) - d);
+    s2 += w * res;
+    s3 += w * m * iq;
+    s4 += w * e;
+    s5 += w * res * iq * (1 + 2 * am);
   }
   return alphaDerivativesFromSums([s1, s2, s3, s4, s5], alpha);
 }

@@ -5,7 +5,7 @@ import { open, stat } from "node:fs/promises";
 import { InputError } from "../errors.js";
 import { lazyModule } from "../math/lazy.js";
 import { DEFAULT_NA, defaultDelimiter } from "./dialect.js";
-import { decodeUtf8 } from "./source-bytes.js";
+import { decodeUtf8, unreadable } from "./source-bytes.js";
 import type { Table } from "./table.js";
 import { ColumnReader } from "./tokenizer.js";
 
@@ -109,16 +109,7 @@ export async function loadTableStream(
     }
   } catch (e) {
     if (e instanceof InputError) throw e;
-    const code = (e as NodeJS.ErrnoException).code;
-    const why =
-      code === "ENOENT"
-        ? "no such file"
-        : code === "EACCES"
-          ? "permission denied"
-          : code === "EISDIR"
-            ? "it is a folder"
-            : String(code ?? e);
-    throw new InputError(`${name}: cannot read the file (${why}).`);
+    throw unreadable(name, e);
   }
   if (!any || !nonBlank)
     throw new InputError(`${name}: the file is empty; expected a header row and at least one data row.`);

@@ -13,17 +13,22 @@ export async function readSource(path: string): Promise<{ bytes: Buffer; name: s
   try {
     return { bytes: await readFile(path), name: path };
   } catch (e) {
-    const code = (e as NodeJS.ErrnoException).code;
-    const why =
-      code === "ENOENT"
-        ? "no such file"
-        : code === "EACCES"
-          ? "permission denied"
-          : code === "EISDIR"
-            ? "it is a folder"
-            : String(code ?? e);
-    throw new InputError(`${path}: cannot read the file (${why}).`);
+    throw unreadable(path, e);
   }
+}
+
+/** The input error for a file that cannot be read, in words ("no such file", "permission denied", …). */
+export function unreadable(name: string, e: unknown): InputError {
+  const code = (e as NodeJS.ErrnoException).code;
+  const why =
+    code === "ENOENT"
+      ? "no such file"
+      : code === "EACCES"
+        ? "permission denied"
+        : code === "EISDIR"
+          ? "it is a folder"
+          : String(code ?? e);
+  return new InputError(`${name}: cannot read the file (${why}).`);
 }
 
 /** Byte offset of the first invalid UTF-8 sequence, or −1 (RFC 3629 §4); Node's native check first, the scan below only to locate a fault. */
