@@ -338,9 +338,10 @@ export function constrainedStatistic(
   if (mf.family === "negbin" && mf.negbin && !mf.negbin.boundary) {
     const llHat = mf.negbin.logLik;
     let alpha = mf.negbin.alpha;
-    // Centring is valid only while the intercept is free.
+    // Centring is valid only while the intercept is free; a column with no events must take its rows back
+    // into the fit (they were fitted exactly at −∞), so both screen afresh.
     const nbSetup =
-      col === design.matrix.interceptCol
+      col === design.matrix.interceptCol || mf.fit.status[col] === "no_events"
         ? prepareFit(design.matrix, design, new Map([[col, 0]]))
         : deriveSetup(mf.fit.setup, [col]);
     return (b: number) => {

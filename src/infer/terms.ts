@@ -7,7 +7,7 @@
 // would depend on the reference levels.
 import type { Design } from "../design/design.js";
 import { columnSums } from "../design/matrix-columns.js";
-import { deriveSetup } from "../fit/kernel/setup.js";
+import { deriveSetup, prepareFit } from "../fit/kernel/setup.js";
 import { fitGlm } from "../fit/kernel/glm.js";
 import type { Workspace } from "../fit/kernel/types.js";
 import { fitBaseOf, type FitBase, type CountFit } from "../fit/count-fit.js";
@@ -78,6 +78,11 @@ export function termTestOf(ctx: TermTestContext, ti: number, workspace?: Workspa
   const fixed = new Map(cols.map((c) => [c, 0]));
   let stat: number, p: number;
   const start = warmStart(fd, fm, cols);
+  // Dropping a column with no events gives its rows back to the fit (they were fitted exactly at −∞ and left
+  // out): screen afresh, so that the reduced model is fitted on every row, as compare fits it.
+  const setup = cols.some((c) => fm.fit.status[c] === "no_events")
+    ? prepareFit(fd.matrix, fd, fixed)
+    : deriveSetup(fm.fit.setup, cols);
   if (fm.family === "negbin" && fm.negbin && !fm.negbin.boundary) {
     const nb = fitNegbin(fd.matrix, fd, {
       control: fm.control,
@@ -86,7 +91,7 @@ export function termTestOf(ctx: TermTestContext, ti: number, workspace?: Workspa
       start,
       warm: true,
       likelihoodOnly: true,
-      setup: deriveSetup(fm.fit.setup, cols),
+      setup,
       workspace,
     });
     stat = Math.max(0, 2 * (ctx.llFull - nb.logLik));
@@ -98,7 +103,7 @@ export function termTestOf(ctx: TermTestContext, ti: number, workspace?: Workspa
       skipCovariance: true,
       start,
       stopOnPredicted: true,
-      setup: deriveSetup(fm.fit.setup, cols),
+      setup,
       workspace,
     });
     const dd = Math.max(0, r.deviance - fm.fit.deviance);
