@@ -8,7 +8,9 @@ import { type CheckResult, dispersionFlagged, runChecks } from "../infer/check.j
 import { profileContext } from "../infer/intervals.js";
 import { inferencePlan, runJob, runJobs, type InferencePlan, type JobResult } from "../infer/parallel.js";
 import type { ProfileResult } from "../infer/profile.js";
+import { sandwichCovariance } from "../infer/robust.js";
 import { summarizeFit, type FitSummary } from "../infer/summary.js";
+import { waldTermTests } from "../infer/wald-terms.js";
 import { termTestContext, type TermTest } from "../infer/terms.js";
 import { quantileResiduals, type Rootogram, rootogram } from "../infer/diagnostics.js";
 
@@ -123,7 +125,8 @@ function fitForAnalysis(
 function planFor(design: Design, mf: CountFit, o: AnalysisOptions): InferencePlan {
   return inferencePlan(
     o.intervals === "wald" ? null : profileContext(design, mf, o.level),
-    o.termTests !== false && design.model.terms.length > 0 ? termTestContext(design, mf) : null,
+    // With --robust the term tests are Wald tests from the sandwich (no refits; see assemble).
+    o.termTests !== false && !o.robust && design.model.terms.length > 0 ? termTestContext(design, mf) : null,
   );
 }
 
@@ -147,6 +150,8 @@ function assemble(
     familyChoice: fitted.familyChoice,
   });
   if (plan.terms) summary.term_tests = tests;
+  else if (o.robust && o.termTests !== false && design.model.terms.length > 0)
+    summary.term_tests = waldTermTests(design, fitted.mf, sandwichCovariance(design, fitted.mf.fit));
   return { countFit: fitted.mf, summary, check: fitted.check };
 }
 

@@ -35,7 +35,8 @@ export interface DesignColumn {
   term: number;
   kind: ColumnKind;
   /** Factor levels this column stands for (empty for numeric columns). */
-  levels: { factor: string; level: string }[];
+  /** The factor levels the column stands for; contrast: against the factor's reference (false: an indicator of the level itself). */
+  levels: { factor: string; level: string; contrast: boolean }[];
 }
 
 /**
@@ -333,7 +334,7 @@ export function layoutColumns(
       const coded = contrast ? f.coding.levels.filter((l) => l !== f.coding.reference) : f.coding.levels;
       const refIdx = f.coding.levels.indexOf(f.coding.reference);
       const map = f.coding.levels.map((_, li) => (contrast ? (li === refIdx ? -1 : li < refIdx ? li : li - 1) : li));
-      return { kind: "factor" as const, name: v, coded, map, codes: f.codes };
+      return { kind: "factor" as const, name: v, coded, map, codes: f.codes, contrast };
     });
     // Column names: Cartesian product of coded levels, first factor varying slowest.
     const factorParts = parts.filter((p) => p.kind === "factor") as {
@@ -341,6 +342,7 @@ export function layoutColumns(
       coded: string[];
       map: number[];
       codes: Int32Array;
+      contrast: boolean;
     }[];
     const numericParts = parts.filter((p) => p.kind === "numeric") as { name: string; values: Float64Array }[];
     const sizes = factorParts.map((p) => p.coded.length);
@@ -354,7 +356,7 @@ export function layoutColumns(
         idx[k] = rem % sizes[k];
         rem = Math.floor(rem / sizes[k]);
       }
-      const levels = factorParts.map((p, k) => ({ factor: p.name, level: p.coded[idx[k]] }));
+      const levels = factorParts.map((p, k) => ({ factor: p.name, level: p.coded[idx[k]], contrast: p.contrast }));
       const name = parts
         .map((p) => (p.kind === "numeric" ? p.name : `${p.name}=${levels.find((l) => l.factor === p.name)!.level}`))
         .join(":");

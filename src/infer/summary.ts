@@ -19,6 +19,8 @@ import type { GroupSummary } from "./groups.js";
 
 export type { FamilyName } from "../fit/count-fit.js";
 
+export type ProfileSideStatus = "limit" | "open" | "failed";
+
 export interface CoefficientRow {
   term: string;
   estimate: number | null;
@@ -29,12 +31,27 @@ export interface CoefficientRow {
   rate_ratio: number | null;
   /** Wald limits on the rate-ratio scale. */
   wald: [number | null, number | null] | null;
-  /** Profile-likelihood limits on the rate-ratio scale. */
+  /** Profile-likelihood limits on the rate-ratio scale (0 for an open lower side, null for an unbounded or failed upper side). */
   profile: [number | null, number | null] | null;
+  /**
+   * How each profile side came out: "limit" (a crossing was found), "open" (the
+   * likelihood never falls far enough on that side, so the limit is 0 or
+   * unbounded by nature), or "failed" (the computation did not succeed; the
+   * reason is in the warnings). null when no profile was computed.
+   */
+  profile_status: { lower: ProfileSideStatus; upper: ProfileSideStatus } | null;
   aliased: boolean;
   status: "estimated" | "aliased" | "no_events";
-  /** For factor-level terms: the factor, the level and its reference. */
-  levels: { factor: string; level: string; reference: string }[];
+  /** For factor-level terms: the factor, the level and its reference (null: the column is the level itself, no reference). */
+  levels: { factor: string; level: string; reference: string | null }[];
+  /**
+   * What exp(estimate) is: a rate ratio against the reference, or, for the
+   * levels of the factor that takes the intercept's place in a model without
+   * one, the rate itself per unit of exposure (then rate_ratio is null and
+   * rate holds it).
+   */
+  measure: "rate_ratio" | "rate";
+  rate?: number | null;
   kind: "intercept" | "numeric" | "indicator" | "slope";
   term_group: string;
 }
@@ -129,20 +146,28 @@ export function summarizeFit(design: Design, mf: CountFit, options: SummaryOptio
   const posOf = new Map(fit.estimable.map((c, k) => [c, k]));
   const q = cov.p;
   const refs = new Map(design.factors.map((f) => [f.name, f.reference]));
+  const rateTerm = rateTermOf(design);
   const coefficients: CoefficientRow[] = design.columns.map((col, c) => {
     const st = fit.status[c];
-    const levels = col.levels.map((l) => ({ factor: l.factor, level: l.level, reference: refs.get(l.factor) ?? "" }));
+    const levels = col.levels.map((l) => ({
+      factor: l.factor,
+      level: l.level,
+      reference: l.contrast ? (refs.get(l.factor) ?? null) : null,
+    }));
     const base = {
       term: col.name,
       levels,
       kind: col.kind,
       term_group: col.term < 0 ? "intercept" : design.termLabels[col.term],
       profile: profileRow(options.profiles?.get(c)),
+      profile_status: profileStatus(options.profiles?.get(c)),
+      measure: rateTerm >= 0 && col.term === rateTerm ? ("rate" as const) : ("rate_ratio" as const),
     };
     if (st === "aliased" || st === "fixed")
       return {
         ...base,
         profile: null,
+        profile_status: null,
         estimate: null,
         std_error: null,
         z: null,
@@ -159,7 +184,7 @@ export function summarizeFit(design: Design, mf: CountFit, options: SummaryOptio
         std_error: null,
         z: null,
         p_value: null,
-        rate_ratio: 0,
+        ...(base.measure === "rate" ? { rate_ratio: null, rate: 0 } : { rate_ratio: 0 }),
         wald: [0, null] as [number, null],
         aliased: false,
         status: "no_events" as const,
@@ -174,7 +199,7 @@ export function summarizeFit(design: Design, mf: CountFit, options: SummaryOptio
       std_error: se,
       z: zval,
       p_value: pOf(zval),
-      rate_ratio: Math.exp(b),
+      ...(base.measure === "rate" ? { rate_ratio: null, rate: Math.exp(b) } : { rate_ratio: Math.exp(b) }),
       wald: [Math.exp(b - crit * se), Math.exp(b + crit * se)] as [number, number],
       aliased: false,
       status: "estimated" as const,
@@ -308,7 +333,26 @@ export function summarizeFit(design: Design, mf: CountFit, options: SummaryOptio
   };
 }
 
+/**
+ * Without an intercept, the first term made of factors alone whose levels are
+ * all coded as indicators takes the intercept's place: its exponentiated
+ * coefficients are rates, not ratios (−1: none).
+ */
+function rateTermOf(design: Design): number {
+  if (design.matrix.interceptCol >= 0) return -1;
+  for (const col of design.columns)
+    if (col.kind === "indicator" && col.levels.every((l) => !l.contrast)) return col.term;
+  return -1;
+}
+
 /** Profile limits on the rate-ratio scale; an open lower side is 0, an open upper side null (unbounded). */
+function profileStatus(pr: ProfileResult | undefined): CoefficientRow["profile_status"] {
+  if (!pr) return null;
+  const side = (s: ProfileResult["lower"]): ProfileSideStatus =>
+    s.value !== null ? "limit" : s.open ? "open" : "failed";
+  return { lower: side(pr.lower), upper: side(pr.upper) };
+}
+
 function profileRow(pr: ProfileResult | undefined): [number | null, number | null] | null {
   if (!pr) return null;
   const lo = pr.lower.value !== null ? Math.exp(pr.lower.value) : pr.lower.open ? 0 : null;

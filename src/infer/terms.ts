@@ -20,7 +20,8 @@ export interface TermTest {
   df: number;
   statistic: number | null;
   p_value: number | null;
-  test: "LR chi-square" | "F";
+  /** LR chi-square (Poisson, NB2), F (quasi-Poisson), or Wald chi-square from the sandwich covariance (--robust). */
+  test: "LR chi-square" | "F" | "Wald chi-square";
   note: string | null;
 }
 
@@ -44,7 +45,6 @@ export interface TermTestContext {
 }
 
 export function termTestContext(design: Design, mf: CountFit): TermTestContext {
-  const terms = design.model.terms;
   const quasi = mf.family === "quasipoisson";
   // phi and the residual df from the rows; the constrained fits run where the
   // fit itself ran (over merged patterns, if it did), against that fit.
@@ -53,7 +53,14 @@ export function termTestContext(design: Design, mf: CountFit): TermTestContext {
   const fd = mf.patterns ? mf.patterns.merge.design : design;
   const fm = mf.patterns ? mf.patterns.fit : mf;
   const llFull = fm.negbin && !fm.negbin.boundary ? fm.negbin.logLik : NaN;
-  const plan = terms.map((t, ti) => {
+  const plan = termPlan(design, mf);
+  return { design: fd, base: fitBaseOf(fm), quasi, phi, df, llFull, labels: design.termLabels, plan };
+}
+
+/** Per term: the columns to drop (estimated or with no events), or why the term is not tested on its own. */
+export function termPlan(design: Design, mf: CountFit): TermTestContext["plan"] {
+  const terms = design.model.terms;
+  return terms.map((t, ti) => {
     const higher = terms.find(
       (u, ui) => ui !== ti && u.variables.length > t.variables.length && contains(u.variables, t.variables),
     );
@@ -64,7 +71,6 @@ export function termTestContext(design: Design, mf: CountFit): TermTestContext {
     if (cols.length === 0) return { note: "all its columns are aliased" };
     return { cols };
   });
-  return { design: fd, base: fitBaseOf(fm), quasi, phi, df, llFull, labels: design.termLabels, plan };
 }
 
 /** The test for dropping term ti. Centring stays valid while the intercept is free, which term tests never change. */

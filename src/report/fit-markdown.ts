@@ -1,7 +1,7 @@
 // The fit report as Markdown, for documents.
 import type { FitSummary } from "../infer/summary.js";
 import { CAUTION } from "./fit-text.js";
-import { fixed, interval, pValue, sig } from "./format.js";
+import { fixed, interval, pValue, profileInterval, sig } from "./format.js";
 
 export function renderFitMarkdown(s: FitSummary): string {
   const lv = `${+(s.level * 100).toFixed(2)}%`;
@@ -14,8 +14,11 @@ export function renderFitMarkdown(s: FitSummary): string {
   out.push(`| term | rate ratio | Wald ${lv} | profile ${lv} | p-value |`, "|---|---:|---:|---:|---:|");
   for (const c of s.coefficients) {
     if (c.kind === "intercept") continue;
-    const rr = c.status === "aliased" ? "aliased" : c.status === "no_events" ? "0 (no events)" : sig(c.rate_ratio);
-    out.push(`| ${c.term} | ${rr} | ${interval(c.wald)} | ${interval(c.profile)} | ${pValue(c.p_value)} |`);
+    const value = c.measure === "rate" ? `${sig(c.rate)} (a rate)` : sig(c.rate_ratio);
+    const rr = c.status === "aliased" ? "aliased" : c.status === "no_events" ? "0 (no events)" : value;
+    out.push(
+      `| ${c.term} | ${rr} | ${interval(c.wald)} | ${profileInterval(c.profile, c.profile_status)} | ${pValue(c.p_value)} |`,
+    );
   }
   out.push("");
   out.push(

@@ -1,7 +1,7 @@
 // The text report of one fitted model, in tallyfit's own layout:
 // rate ratios first, then the coefficients, fit figures, dispersion, warnings.
 import type { CoefficientRow, FitSummary } from "../infer/summary.js";
-import { fixed, groupTable, interval, pEquals, pValue, sig, table, wrap } from "./format.js";
+import { fixed, groupTable, interval, pEquals, pValue, profileInterval, sig, table, wrap } from "./format.js";
 import type { Style } from "./style.js";
 import type { Rootogram } from "../infer/diagnostics.js";
 import { textRootogram } from "./text-rootogram.js";
@@ -48,10 +48,53 @@ function mergedText(s: FitSummary): string {
 
 function groupHeading(rows: CoefficientRow[]): string {
   const r = rows[0];
-  const refs = [...new Map(r.levels.map((l) => [l.factor, l.reference])).entries()];
+  const refs = [...new Map(r.levels.filter((l) => l.reference !== null).map((l) => [l.factor, l.reference])).entries()];
   if (refs.length === 0) return r.kind === "numeric" ? "" : r.term_group;
   const refText = refs.map(([f, l]) => `${f} = ${l}`).join(", ");
   return `${r.term_group}  (reference: ${refText})`;
+}
+
+/** Rows of exp(estimate) with intervals and p-values, grouped by term under a heading that names the reference. */
+function estimateTable(
+  members: CoefficientRow[],
+  valueHeader: string,
+  lv: string,
+  showW: boolean,
+  showP: boolean,
+): string[] {
+  const head = ["term", valueHeader];
+  if (showW) head.push(`Wald ${lv}`);
+  if (showP) head.push(`profile ${lv}`);
+  head.push("p-value");
+  const rows: string[][] = [head];
+  const groups: string[] = [];
+  for (const c of members) if (!groups.includes(c.term_group)) groups.push(c.term_group);
+  for (const g of groups) {
+    const inGroup = members.filter((c) => c.term_group === g);
+    const h = groupHeading(inGroup);
+    if (h) rows.push([h, "", ...(showW ? [""] : []), ...(showP ? [""] : []), ""]);
+    for (const c of inGroup) {
+      const label = (h ? "  " : "") + c.term;
+      if (c.status === "aliased") {
+        rows.push([label, "aliased", ...(showW ? [""] : []), ...(showP ? [""] : []), ""]);
+        continue;
+      }
+      if (c.status === "no_events") {
+        const profile = showP ? [profileInterval(c.profile, c.profile_status)] : [];
+        rows.push([label, "0 (no events)", ...(showW ? ["–"] : []), ...profile, "–"]);
+        continue;
+      }
+      rows.push([
+        label,
+        sig(c.measure === "rate" ? c.rate : c.rate_ratio),
+        ...(showW ? [interval(c.wald)] : []),
+        ...(showP ? [c.profile ? profileInterval(c.profile, c.profile_status) : "–"] : []),
+        pValue(c.p_value),
+      ]);
+    }
+  }
+  const align: ("l" | "r")[] = ["l", "r", ...(showW ? ["r" as const] : []), ...(showP ? ["r" as const] : []), "r"];
+  return table(rows, align);
 }
 
 export function renderFitText(s: FitSummary, o: TextOptions): string {
@@ -79,45 +122,22 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
     );
   out.push("");
 
-  // Rate ratios, grouped by term.
+  // Rates (the levels that take the intercept's place in a model without one), then rate ratios, grouped by term.
   const showW = o.intervals !== "profile";
   const showP = o.intervals !== "wald";
   const nonIntercept = s.coefficients.filter((c) => c.kind !== "intercept");
-  out.push(st.heading(`Rate ratios with ${lv} intervals`));
+  const rates = nonIntercept.filter((c) => c.measure === "rate");
+  const ratios = nonIntercept.filter((c) => c.measure !== "rate");
+  if (rates.length) {
+    const per = s.exposure ? `per unit of ${s.exposure}` : s.offset ? "per unit of exp(offset)" : "per row";
+    out.push(st.heading(`Rates ${per} with ${lv} intervals (no intercept: each level is a rate, not a ratio)`));
+    out.push(...estimateTable(rates, "rate", lv, showW, showP));
+    out.push("");
+  }
+  if (ratios.length || !rates.length) out.push(st.heading(`Rate ratios with ${lv} intervals`));
   if (nonIntercept.length === 0) out.push("  (the model has no terms besides the intercept)");
-  else {
-    const head = ["term", "rate ratio"];
-    if (showW) head.push(`Wald ${lv}`);
-    if (showP) head.push(`profile ${lv}`);
-    head.push("p-value");
-    const rows: string[][] = [head];
-    const groups: string[] = [];
-    for (const c of nonIntercept) if (!groups.includes(c.term_group)) groups.push(c.term_group);
-    for (const g of groups) {
-      const members = nonIntercept.filter((c) => c.term_group === g);
-      const h = groupHeading(members);
-      if (h) rows.push([h, "", ...(showW ? [""] : []), ...(showP ? [""] : []), ""]);
-      for (const c of members) {
-        const label = (h ? "  " : "") + c.term;
-        if (c.status === "aliased") {
-          rows.push([label, "aliased", ...(showW ? [""] : []), ...(showP ? [""] : []), ""]);
-          continue;
-        }
-        if (c.status === "no_events") {
-          rows.push([label, "0 (no events)", ...(showW ? ["–"] : []), ...(showP ? [interval(c.profile)] : []), "–"]);
-          continue;
-        }
-        rows.push([
-          label,
-          sig(c.rate_ratio),
-          ...(showW ? [interval(c.wald)] : []),
-          ...(showP ? [c.profile ? interval(c.profile) : "–"] : []),
-          pValue(c.p_value),
-        ]);
-      }
-    }
-    const align: ("l" | "r")[] = ["l", "r", ...(showW ? ["r" as const] : []), ...(showP ? ["r" as const] : []), "r"];
-    out.push(...table(rows, align));
+  else if (ratios.length) {
+    out.push(...estimateTable(ratios, "rate ratio", lv, showW, showP));
     const numeric = nonIntercept.filter((c) => c.kind === "numeric" || c.kind === "slope");
     if (numeric.length) out.push(`  A numeric term's rate ratio is per one unit of that column.`);
   }
@@ -138,7 +158,7 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
   out.push("");
 
   out.push(st.heading("Coefficients on the log scale"));
-  const crow: string[][] = [["term", "estimate", "std. error", "z", "p-value"]];
+  const crow: string[][] = [["term", "estimate", "std. error", s.test_distribution === "t" ? "t" : "z", "p-value"]];
   for (const c of s.coefficients) {
     if (c.status === "aliased") crow.push([c.term, "aliased", "", "", ""]);
     else if (c.status === "no_events") crow.push([c.term, "−∞", "–", "–", "–"]);
@@ -158,9 +178,15 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
   out.push("");
 
   if (s.term_tests?.length) {
-    const kind = s.term_tests[0].test === "F" ? "F test (deviance change / df / φ)" : "likelihood-ratio test";
-    out.push(st.heading(`Dropping each term (${kind}, other terms kept, same rows)`));
-    const trows: string[][] = [["term", "df", s.term_tests[0].test === "F" ? "F" : "LR chi-square", "p-value", ""]];
+    const kind = s.term_tests[0].test;
+    const how =
+      kind === "F"
+        ? "F test (deviance change / df / φ), other terms kept, same rows"
+        : kind === "Wald chi-square"
+          ? "Wald test with the sandwich covariance, other terms kept"
+          : "likelihood-ratio test, other terms kept, same rows";
+    out.push(st.heading(`Dropping each term (${how})`));
+    const trows: string[][] = [["term", "df", kind === "F" ? "F" : kind, "p-value", ""]];
     for (const t of s.term_tests)
       trows.push([
         t.term,
@@ -275,7 +301,12 @@ function dispersionBlock(s: FitSummary, o: TextOptions): string[] {
   if (s.df_residual <= 0)
     verdict = st.caution("No residual degrees of freedom: the dispersion cannot be judged from this fit.");
   else if (s.family === "poisson") {
-    if (d.pearson > 1 && d.pearson_p_value < 0.05)
+    if (d.pearson > 1 && d.pearson_p_value < 0.05 && s.standard_errors === "robust")
+      verdict = st.caution(
+        `The counts vary more than a Poisson model allows (Pearson ratio ${fixed(d.pearson, 2)}). The standard errors, Wald limits and term tests above are sandwich estimates, which allow for that; the profile limits are likelihood-based and too narrow. ` +
+          "Run `tallyfit check` for the formal tests; --family negbin models the extra variation.",
+      );
+    else if (d.pearson > 1 && d.pearson_p_value < 0.05)
       verdict = st.caution(
         `The counts vary more than a Poisson model allows (Pearson ratio ${fixed(d.pearson, 2)}); the standard errors and p-values above are too small. ` +
           "Run `tallyfit check` for the formal tests, and refit with --family negbin or --family quasipoisson.",

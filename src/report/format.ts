@@ -35,6 +35,18 @@ export function pValue(p: number | null | undefined): string {
 }
 
 /** An interval "low – high" on the rate-ratio scale; open ends shown as 0 or ∞. */
+/** A profile interval: an open side reads 0 or ∞, a failed side "n/a" (never ∞: the reason is in the warnings). */
+export function profileInterval(
+  iv: [number | null, number | null] | null | undefined,
+  status: { lower: string; upper: string } | null | undefined,
+  digits = 4,
+): string {
+  if (!iv) return "–";
+  const lo = status?.lower === "failed" || iv[0] === null ? "n/a" : sig(iv[0], digits);
+  const hi = status?.upper === "failed" ? "n/a" : iv[1] === null ? "∞" : sig(iv[1], digits);
+  return `${lo} – ${hi}`;
+}
+
 export function interval(iv: [number | null, number | null] | null | undefined, digits = 4): string {
   if (!iv) return "–";
   const lo = iv[0] === null ? "?" : sig(iv[0], digits);

@@ -1,0 +1,43 @@
+// Wald tests for dropping each term, from a given covariance of the
+// estimates (the sandwich with --robust): W = bᵀV⁻¹b over the term's
+// columns, against chi-square on their number (Wald 1943; for sandwich
+// covariances, e.g. Boos and Stefanski, Essential Statistical Inference, 2013, §7.2).
+import type { Design } from "../design/design.js";
+import type { CountFit } from "../fit/count-fit.js";
+import { chiSquareUpperTail } from "../math/distributions.js";
+import { cholesky, choleskySolve, type SymMatrix } from "../math/linalg.js";
+import { type TermTest, termPlan } from "./terms.js";
+
+/** Wald tests of every term with the covariance `cov` over the fit's estimated columns. */
+export function waldTermTests(design: Design, mf: CountFit, cov: SymMatrix): TermTest[] {
+  const pos = new Map(mf.fit.estimable.map((c, k) => [c, k]));
+  return termPlan(design, mf).map((step, ti) => {
+    const term = design.termLabels[ti];
+    const test = "Wald chi-square" as const;
+    if ("note" in step) return { term, df: 0, statistic: null, p_value: null, test, note: step.note };
+    if (step.cols.some((c) => mf.fit.status[c] === "no_events"))
+      return {
+        term,
+        df: 0,
+        statistic: null,
+        p_value: null,
+        test,
+        note: "a level has no events, so its estimate is not finite and a Wald test does not exist; the likelihood-ratio test without --robust does",
+      };
+    const k = step.cols.map((c) => pos.get(c)!);
+    const v: SymMatrix = { p: k.length, data: new Float64Array(k.length * k.length) };
+    k.forEach((r, i) => {
+      k.forEach((s, j) => {
+        v.data[i * k.length + j] = cov.data[r * cov.p + s];
+      });
+    });
+    const b = Float64Array.from(step.cols, (c) => mf.fit.beta[c]);
+    const l = cholesky(v);
+    if (l === null)
+      return { term, df: 0, statistic: null, p_value: null, test, note: "its covariance is singular; no Wald test" };
+    const sol = choleskySolve(l, k.length, b);
+    let w = 0;
+    for (let i = 0; i < k.length; i++) w += b[i] * sol[i];
+    return { term, df: k.length, statistic: w, p_value: chiSquareUpperTail(w, k.length), test, note: null };
+  });
+}
