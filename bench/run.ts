@@ -17,6 +17,7 @@ import { fileURLToPath } from "node:url";
 import { writeBenchFile } from "./generate.js";
 import { collapseBenchFile } from "./collapse.js";
 import { runKernelBench } from "./kernel.js";
+import { predictBench } from "./predict.js";
 import { loadTableStream } from "../src/io/csv.js";
 
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), "..", "..");
@@ -226,6 +227,7 @@ async function main(): Promise<void> {
   if (process.argv.includes("--kernel")) return runKernelBench(process.argv.slice(2));
   if (process.argv.includes("--smoke")) {
     await bench(10000, 1, false);
+    await predictBench(run, BIN, DATA, MODEL, 1);
     return runKernelBench(["--smoke"]);
   }
   const py = yardstickPython();
@@ -238,6 +240,7 @@ async function main(): Promise<void> {
   // 100,000 rows: negative binomial and profile limits against the Poisson fit; 1,000,000 rows: against the yardstick.
   if (!process.argv.includes("--rows")) await bench(100000, arg("--reps", 3), false);
   await bench(arg("--rows", 1000000), arg("--reps", 3), withYardstick);
+  await predictBench(run, BIN, DATA, MODEL, arg("--reps", 3));
   console.log("");
   await runKernelBench([]);
   if (process.argv.includes("--big")) await big();

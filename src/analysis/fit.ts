@@ -5,7 +5,7 @@ import { estimatePatterns, mergePatterns, patternKeyFor, type PatternMerge } fro
 import type { FitControl } from "../fit/kernel/types.js";
 import { fitCounts, type FamilyChoice, type FamilyName, type CountFit } from "../fit/count-fit.js";
 import { type CheckResult, dispersionFlagged, runChecks } from "../infer/check.js";
-import { profileContext } from "../infer/intervals.js";
+import { profileContext, profileOf } from "../infer/intervals.js";
 import { inferencePlan, runJob, runJobs, type InferencePlan, type JobResult } from "../infer/parallel.js";
 import type { ProfileResult } from "../infer/profile.js";
 import { sandwichCovariance } from "../infer/robust.js";
@@ -184,6 +184,27 @@ export async function analyzeFitParallel(design: Design, o: AnalysisOptions): Pr
       `refitting for ${[nProfiles ? `${nProfiles} profile limits` : "", nTerms ? `${nTerms} term tests` : ""].filter(Boolean).join(" and ")}…`,
     );
   return assemble(design, o, fitted, plan, await runJobs(plan));
+}
+
+/**
+ * The upper profile limits (log scale) of the levels with no events, for the
+ * model file: taken from the summary when it has profile limits, else computed.
+ */
+export function noEventsUpperLimits(
+  design: Design,
+  mf: CountFit,
+  summary: FitSummary,
+): { level: number; limits: Map<number, number | null> } {
+  const limits = new Map<number, number | null>();
+  const cols = mf.fit.status.flatMap((st, c) => (st === "no_events" ? [c] : []));
+  if (cols.length === 0) return { level: summary.level, limits };
+  const ctx = cols.some((c) => !summary.coefficients[c].profile) ? profileContext(design, mf, summary.level) : null;
+  for (const c of cols) {
+    const row = summary.coefficients[c];
+    const upper = row.profile ? row.profile[1] : ctx ? profileOf(ctx, c).upper.value : null;
+    limits.set(c, row.profile ? (upper === null ? null : Math.log(upper)) : upper);
+  }
+  return { level: summary.level, limits };
 }
 
 /** What the diagnostic picture shows, for a fit: rootogram, residuals, fitted means. */

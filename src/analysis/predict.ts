@@ -3,7 +3,8 @@
 import { naturalCompare } from "../design/naming.js";
 import { buildPredictionDesign, type PredictionDesign } from "../design/predict-design.js";
 import { type GroupSummary, summarizeGroups } from "../infer/groups.js";
-import { type PredictOptions, type PredictResult, predictRows } from "../infer/predict.js";
+import type { PredictOptions, PredictResult } from "../infer/predict.js";
+import { predictRowsParallel } from "../infer/predict-parallel.js";
 import type { ModelFile } from "../io/model-file.js";
 import { columnLabels, type Table } from "../io/table.js";
 
@@ -13,14 +14,17 @@ export interface PredictAnalysis {
   groups?: GroupSummary;
 }
 
-/** Predict the rows of a table under a model file; with summaryBy, also observed and expected totals by group. */
-export function analyzePredict(
+/**
+ * Predict the rows of a table under a model file (on two threads when the
+ * work is large); with summaryBy, also observed and expected totals by group.
+ */
+export async function analyzePredict(
   table: Table,
   model: ModelFile,
   options: PredictOptions & { summaryBy?: string; per: number },
-): PredictAnalysis {
+): Promise<PredictAnalysis> {
   const design = buildPredictionDesign(table, model);
-  const result = predictRows(design, model, options);
+  const result = await predictRowsParallel(design, model, options);
   if (!options.summaryBy) return { design, result };
   const all = Int32Array.from({ length: design.n }, (_, i) => i);
   const groups = summarizeGroups(

@@ -8,8 +8,8 @@ import { InputError } from "../errors.js";
 import { cholesky } from "../math/linalg.js";
 import type { ModelFile } from "../io/model-file.js";
 import { normalQuantile } from "../math/distributions.js";
-import { negbinCdf, poissonCdf } from "../math/distributions.js";
 import { normalGenerator } from "../math/random.js";
+import { predictiveTable, tableQuantile } from "./predictive.js";
 
 export interface PredictOptions {
   level: number;
@@ -28,6 +28,8 @@ export interface PredictedRow {
   /** The largest count not flagged: the flag-level quantile of the predictive distribution. */
   flag_limit: number;
   flagged: boolean;
+  /** Why a row is predicted differently (a level with no events), or null. */
+  note: string | null;
 }
 
 export interface PredictResult {
@@ -43,46 +45,35 @@ export interface PredictResult {
   n_flagged: number;
 }
 
-/** Smallest k with F(k) ≥ q (0 < q < 1) for a non-decreasing F on the whole numbers, searched out from `start`. */
-export function quantile(F: (k: number) => number, q: number, start: number): number {
-  let hi = Math.max(0, Math.floor(start));
-  let step = Math.max(1, Math.ceil(Math.sqrt(hi + 1)));
-  let lo: number;
-  if (F(hi) >= q) {
-    lo = hi - step;
-    while (lo >= 0 && F(lo) >= q) {
-      hi = lo;
-      step *= 2;
-      lo = hi - step;
-    }
-    lo = Math.max(lo, -1); // F(−1) = 0 < q
-  } else {
-    lo = hi;
-    hi = lo + step;
-    while (F(hi) < q) {
-      lo = hi;
-      step *= 2;
-      hi = lo + step;
-      if (hi > 1e15) return Infinity;
-    }
-  }
-  while (hi - lo > 1) {
-    const mid = Math.floor((lo + hi) / 2);
-    if (F(mid) >= q) hi = mid;
-    else lo = mid;
-  }
-  return hi;
+/** What every row's prediction shares: coefficients, the covariance, and the draws (the same for every row range). */
+interface Prepared {
+  beta: Float64Array;
+  pos: Int32Array;
+  upper: Float64Array;
+  v: Float64Array;
+  q: number;
+  dev: Float64Array;
+  alphas: Float64Array;
+  alpha: number;
+  phi: number;
+  zq: number;
+  quasi: boolean;
 }
 
-export function predictRows(pd: PredictionDesign, saved: ModelFile, o: PredictOptions): PredictResult {
+function prepare(pd: PredictionDesign, saved: ModelFile, o: PredictOptions): Prepared {
   const p = pd.columns.length;
   const covIndex = new Map(saved.covariance.terms.map((t, k) => [t, k]));
   const q = saved.covariance.terms.length;
   const beta = new Float64Array(p);
   const pos = new Int32Array(p).fill(-1);
+  // A level with no events: its estimate is −∞ (a rate of 0), but the data only say the rate is small, so its
+  // rows are predicted at the upper profile limit saved with the model (a conservative plug-in of the largest
+  // rate the data allow at that level), and say so.
+  const upper = new Float64Array(p).fill(NaN);
   saved.coefficients.forEach((c, j) => {
     beta[j] = c.status === "estimated" ? c.estimate! : c.status === "no_events" ? -Infinity : NaN;
     if (c.status === "estimated") pos[j] = covIndex.get(c.term) ?? -1;
+    if (c.status === "no_events" && typeof c.upper_limit === "number") upper[j] = c.upper_limit;
   });
   const phi = saved.family === "quasipoisson" ? saved.dispersion_phi : 1;
   const v = new Float64Array(q * q);
@@ -111,20 +102,40 @@ export function predictRows(pd: PredictionDesign, saved: ModelFile, o: PredictOp
     for (let d = 0; d < D; d++) alphas[d] = alpha * Math.exp(sd * gen());
   }
   const zq = normalQuantile(1 - (1 - o.level) / 2);
+  const quasi = saved.family === "quasipoisson";
+  return { beta, pos, upper, v, q, dev, alphas, alpha, phi, zq, quasi };
+}
+
+/** The predictions of rows from … to − 1 (0-based) of the new rows. */
+export function predictRange(
+  pd: PredictionDesign,
+  saved: ModelFile,
+  o: PredictOptions,
+  from: number,
+  to: number,
+): PredictedRow[] {
+  const { beta, pos, upper, v, q, dev, alphas, phi, zq, quasi } = prepare(pd, saved, o);
+  const D = o.draws;
   const rows: PredictedRow[] = [];
   const mus = new Float64Array(D);
   const idx: number[] = [];
   const val: number[] = [];
-  for (let i = 0; i < pd.n; i++) {
+  for (let i = from; i < to; i++) {
     idx.length = 0;
     val.length = 0;
     let eta = pd.offset[i];
     let zero = false;
+    let atLimit: number | null = null;
     for (const s of pd.matrix.slots) {
       const c = s.cols === null ? s.colStart : s.cols[i];
       if (c < 0) continue;
       const x = s.values === null ? 1 : s.values[i];
-      if (beta[c] === -Infinity && x !== 0) zero = true;
+      if (beta[c] === -Infinity && x !== 0) {
+        if (Number.isFinite(upper[c])) {
+          eta += upper[c] * x;
+          atLimit = c;
+        } else zero = true;
+      }
       if (pos[c] < 0) continue;
       eta += beta[c] * x;
       idx.push(pos[c]);
@@ -141,6 +152,9 @@ export function predictRows(pd: PredictionDesign, saved: ModelFile, o: PredictOp
         upper_tail_p: obs === null ? null : obs === 0 ? 1 : 0,
         flag_limit: 0,
         flagged: obs !== null && obs > 0,
+        note: zero
+          ? "a level with no events in the fitted data and no upper limit in the model file (saved by an older version): its rate is taken as 0; refit and save the model to predict with its upper profile limit"
+          : null,
       });
       continue;
     }
@@ -148,38 +162,49 @@ export function predictRows(pd: PredictionDesign, saved: ModelFile, o: PredictOp
     for (let a = 0; a < idx.length; a++)
       for (let b = 0; b < idx.length; b++) varEta += val[a] * val[b] * v[idx[a] * q + idx[b]];
     const se = Math.sqrt(Math.max(0, varEta));
-    const expected = Math.exp(eta);
+    const expected = atLimit === null ? Math.exp(eta) : 0;
     for (let d = 0; d < D; d++) {
       let e = eta;
       for (let a = 0; a < idx.length; a++) e += dev[d * q + idx[a]] * val[a];
       mus[d] = Math.exp(e);
     }
-    const cdf = (k: number): number => {
-      let s = 0;
-      for (let d = 0; d < D; d++) {
-        const m = mus[d];
-        // Quasi-Poisson: a negative binomial with the same mean and variance phi·mu.
-        const a = saved.family === "quasipoisson" ? (phi > 1 ? (phi - 1) / m : 0) : alphas[d];
-        s += a > 0 ? negbinCdf(k, m, a) : poissonCdf(k, m);
-      }
-      return s / D;
-    };
+    // Quasi-Poisson: a negative binomial with the same mean and variance phi·mu.
+    const dispersion = quasi ? (m: number) => (phi > 1 ? (phi - 1) / m : 0) : alphas;
+    const table = predictiveTable(mus, dispersion, obs);
     const tail = (1 - o.level) / 2;
-    const lo = quantile(cdf, tail, expected);
-    const hi = quantile(cdf, 1 - tail, expected);
-    const limit = quantile(cdf, o.flagLevel, hi);
-    const upper = obs === null ? null : obs === 0 ? 1 : Math.max(0, 1 - cdf(obs - 1));
+    const lo = tableQuantile(table.pmf, tail);
+    const hi = tableQuantile(table.pmf, 1 - tail);
+    const limit = tableQuantile(table.pmf, o.flagLevel);
+    const upperTail = table.upperTail;
+    const limitNote =
+      atLimit === null
+        ? null
+        : `${saved.coefficients[atLimit].term} had no events in the fitted data, so its estimate is a rate of 0; the mean interval, prediction interval, tail probability and flag use its upper ${saved.coefficients[atLimit].upper_limit_level ?? ""} profile limit (rate ratio ${Math.exp(upper[atLimit]).toPrecision(4)}), the largest rate the data allow`;
     rows.push({
       row: i + 2,
       expected,
-      mean_ci: [Math.exp(eta - zq * se), Math.exp(eta + zq * se)],
-      prediction_interval: [lo, hi],
+      mean_ci: atLimit === null ? [Math.exp(eta - zq * se), Math.exp(eta + zq * se)] : [0, Math.exp(eta)],
+      // At a no-events level the rate may be 0, so the interval for a new count starts at 0.
+      prediction_interval: [atLimit === null ? lo : 0, hi],
       observed: obs,
-      upper_tail_p: upper,
+      upper_tail_p: upperTail,
       flag_limit: limit,
       flagged: obs !== null && obs > limit,
+      note: limitNote,
     });
   }
+  return rows;
+}
+
+/** Predict every new row on this thread. */
+export function predictRows(pd: PredictionDesign, saved: ModelFile, o: PredictOptions): PredictResult {
+  return predictResult(saved, o, predictRange(pd, saved, o, 0, pd.n));
+}
+
+/** The result record around the rows' predictions. */
+export function predictResult(saved: ModelFile, o: PredictOptions, rows: PredictedRow[]): PredictResult {
+  const D = o.draws;
+  const alpha = saved.family === "negbin" ? (saved.alpha ?? 0) : 0;
   const method =
     `mean interval: delta method on the log scale (Wald ${o.level}); prediction interval and tail probability: the ${saved.family === "negbin" ? "negative-binomial" : saved.family === "quasipoisson" ? "negative binomial with variance phi·mu" : "Poisson"} ` +
     `distribution mixed over ${D} draws of the coefficients${alpha > 0 ? " and log alpha" : ""} from their asymptotic normal distribution (seed ${o.seed}); flagged when the observed count is above the ${o.flagLevel} quantile`;

@@ -21,7 +21,18 @@ export interface ModelFile {
   factors: { name: string; levels: string[]; reference: string }[];
   /** Numeric variables used by the terms. */
   numeric: string[];
-  coefficients: { term: string; status: "estimated" | "aliased" | "no_events"; estimate: number | null }[];
+  coefficients: {
+    term: string;
+    status: "estimated" | "aliased" | "no_events";
+    estimate: number | null;
+    /**
+     * For a level with no events: the upper profile-likelihood limit of its
+     * coefficient (log scale) at upper_limit_level; predict uses it as the
+     * largest rate the data allow (the estimate itself is −∞).
+     */
+    upper_limit?: number | null;
+    upper_limit_level?: number;
+  }[];
   /** Model-based covariance (inverse Fisher information) of the estimated coefficients, original scale. */
   covariance: { terms: string[]; matrix: number[][] };
   /** Quasi-Poisson phi (1 otherwise); the covariance above is not yet multiplied by it. */

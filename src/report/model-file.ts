@@ -4,7 +4,16 @@ import type { CountFit } from "../fit/count-fit.js";
 import { quasiPhi } from "../infer/fit-statistics.js";
 import { MODEL_FILE_SCHEMA, type ModelFile } from "../io/model-file.js";
 
-export function modelFileOf(design: Design, mf: CountFit, meta: { version: string; sha256: string }): ModelFile {
+/**
+ * The model file of a fit; noEventsUpper gives, by design column, the upper
+ * profile limit (log scale, at `level`) of each level with no events.
+ */
+export function modelFileOf(
+  design: Design,
+  mf: CountFit,
+  meta: { version: string; sha256: string },
+  noEventsUpper: { level: number; limits: Map<number, number | null> } = { level: 0.95, limits: new Map() },
+): ModelFile {
   const fit = mf.fit;
   const est = fit.estimable;
   const q = fit.covariance.p;
@@ -29,6 +38,14 @@ export function modelFileOf(design: Design, mf: CountFit, meta: { version: strin
     coefficients: design.columns.map((c, j) => {
       const st = fit.status[j];
       const status = st === "estimated" ? "estimated" : st === "no_events" ? "no_events" : "aliased";
+      if (st === "no_events")
+        return {
+          term: c.name,
+          status,
+          estimate: null,
+          upper_limit: noEventsUpper.limits.get(j) ?? null,
+          upper_limit_level: noEventsUpper.level,
+        };
       return { term: c.name, status, estimate: st === "estimated" ? fit.beta[j] : null };
     }),
     covariance: {

@@ -13,6 +13,7 @@ export const PREDICT_COLUMNS = [
   "predicted_high",
   "upper_tail_p",
   "flagged",
+  "prediction_note",
 ];
 
 export function renderPredictCsv(records: string[][], r: PredictResult): string {
@@ -32,6 +33,7 @@ export function renderPredictCsv(records: string[][], r: PredictResult): string 
         p.prediction_interval[1],
         p.upper_tail_p,
         p.flagged,
+        p.note,
       ]
         .map(csvField)
         .join(","),
@@ -78,6 +80,11 @@ export function renderPredictText(
       p.flagged ? st.caution("FLAG") : "",
     ]);
   out.push(...table(rows, ["r", "l", "r", "r", "r", "r", "r", "r", "l"]));
+  const notes = [...new Set(r.rows.flatMap((p) => (p.note ? [p.note] : [])))];
+  for (const n of notes) {
+    const which = r.rows.filter((p) => p.note === n).map((p) => p.row);
+    out.push(...wrap(`Rows ${which.join(", ")}: ${n}.`, o.width - 2, "  ").map((l) => `  ${l}`));
+  }
   out.push("");
   if (groups) {
     out.push(st.heading(`Observed and expected by ${groups.column}`));

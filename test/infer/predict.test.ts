@@ -140,12 +140,12 @@ test("CLI: fit --save-model then predict, CSV by default with the input columns,
   const lines = r.stdout.trim().split("\n");
   assert.equal(
     lines[0],
-    "unit,x,e,y,note,expected,expected_low,expected_high,predicted_low,predicted_high,upper_tail_p,flagged",
+    "unit,x,e,y,note,expected,expected_low,expected_high,predicted_low,predicted_high,upper_tail_p,flagged,prediction_note",
   );
-  assert.match(lines[2], /^u3,0\.9,8,200,"b, c",[\d.]+,[\d.]+,[\d.]+,\d+,\d+,[\d.e-]+,true$/);
+  assert.match(lines[2], /^u3,0\.9,8,200,"b, c",[\d.]+,[\d.]+,[\d.]+,\d+,\d+,[\d.e-]+,true,$/);
   assert.match(
     lines[3],
-    /^u2,0\.1,12,,d,[\d.]+,[\d.]+,[\d.]+,\d+,\d+,,false$/,
+    /^u2,0\.1,12,,d,[\d.]+,[\d.]+,[\d.]+,\d+,\d+,,false,$/,
     "a row without a count has no tail probability",
   );
   const j = JSON.parse(runCli(["predict", "--model-file", model, fresh, "--format", "json"]).stdout);

@@ -1,6 +1,6 @@
 // tallyfit fit: one model, its report, and optionally the model file and picture.
 import { readFileSync } from "node:fs";
-import { analyzeFitParallel, diagnosticsOf } from "../../analysis/fit.js";
+import { analyzeFitParallel, diagnosticsOf, noEventsUpperLimits } from "../../analysis/fit.js";
 import { naturalCompare } from "../../design/naming.js";
 import { EXIT, InputError } from "../../errors.js";
 import type { FamilyChoice } from "../../fit/count-fit.js";
@@ -73,7 +73,13 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
       naturalCompare,
     );
   if (opts.saveModel) {
-    await writeAtomic(opts.saveModel, renderJson(modelFileOf(design, countFit, { version: VERSION, sha256 })));
+    const model = modelFileOf(
+      design,
+      countFit,
+      { version: VERSION, sha256 },
+      noEventsUpperLimits(design, countFit, summary),
+    );
+    await writeAtomic(opts.saveModel, renderJson(model));
     notice(opts, `model saved to ${opts.saveModel}`);
   }
   let content: string;

@@ -46,7 +46,7 @@ export async function runPredict(file: string | undefined, opts: PredictCliOptio
   const table = parseTable(bytes, { source: name, delimiter: opts.delimiter, na: parseNa(opts.na), factors });
   if (opts.summaryBy && !table.columns.has(opts.summaryBy))
     throw new InputError(`${name}: --summary-by column '${opts.summaryBy}' is not in the file.`);
-  const { design, result, groups } = analyzePredict(table, saved, {
+  const { design, result, groups } = await analyzePredict(table, saved, {
     level,
     flagLevel,
     draws,
