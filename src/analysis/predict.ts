@@ -36,6 +36,11 @@ export async function analyzePredict(
     options.per,
     options.level,
     naturalCompare,
+    model.family === "negbin"
+      ? { family: "negbin", alpha: model.alpha ?? 0 }
+      : model.family === "quasipoisson"
+        ? { family: "quasipoisson", phi: model.dispersion_phi }
+        : { family: "poisson" },
   );
   return { design, result, groups };
 }

@@ -252,11 +252,7 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
   }
 
   if (s.summary_by) {
-    out.push(
-      st.heading(
-        `Observed and expected by ${s.summary_by.column} (O/E limits: exact Poisson limits of the observed count, divided by the expected)`,
-      ),
-    );
+    out.push(st.heading(`Observed and expected by ${s.summary_by.column} (O/E limits: ${s.summary_by.method})`));
     out.push(...groupTable(s.summary_by));
     out.push("");
   }

@@ -98,11 +98,11 @@ export function pEquals(p: number | null | undefined): string {
   return t.startsWith("<") ? `p < ${t.slice(1)}` : `p = ${t}`;
 }
 
-/** The --summary-by table: observed, expected, O/E with exact limits, exposure and crude rate. */
+/** The --summary-by table: observed, expected, O/E with its limits (GroupSummary.method), exposure and crude rate. */
 export function groupTable(g: GroupSummary): string[] {
   const lv = `${+(g.level * 100).toFixed(2)}%`;
   const rows: string[][] = [
-    [g.column, "rows", "observed", "expected", "O/E", `exact ${lv}`, "exposure", `rate per ${group(String(g.per))}`],
+    [g.column, "rows", "observed", "expected", "O/E", `O/E ${lv}`, "exposure", `rate per ${group(String(g.per))}`],
   ];
   for (const r of g.groups)
     rows.push([

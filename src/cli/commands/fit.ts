@@ -5,6 +5,8 @@ import { naturalCompare } from "../../design/naming.js";
 import { EXIT, InputError } from "../../errors.js";
 import type { FamilyChoice } from "../../fit/count-fit.js";
 import { summarizeGroups } from "../../infer/groups.js";
+import type { CountSpread } from "../../infer/ratio-limits.js";
+import type { FitSummary } from "../../infer/summary.js";
 import { renderFitText } from "../../report/fit-text.js";
 import { renderFitCsv } from "../../report/fit-csv.js";
 import { renderFitMarkdown } from "../../report/fit-markdown.js";
@@ -27,6 +29,13 @@ export type FitCliOptions = ModelOptions & {
 };
 
 export { VERSION };
+
+/** How the counts vary about the fitted means, for the O/E limits of --summary-by. */
+function spreadOf(summary: FitSummary): CountSpread {
+  if (summary.family === "negbin" && summary.negbin) return { family: "negbin", alpha: summary.negbin.alpha };
+  if (summary.family === "quasipoisson") return { family: "quasipoisson", phi: summary.dispersion.phi_used };
+  return { family: "poisson" };
+}
 
 export async function runFit(file: string | undefined, opts: FitCliOptions): Promise<number> {
   if (opts.model.length !== 1)
@@ -71,6 +80,7 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
       per,
       level,
       naturalCompare,
+      spreadOf(summary),
     );
   if (opts.saveModel) {
     const model = modelFileOf(
