@@ -5,7 +5,15 @@ import { InputError } from "../errors.js";
 import { parseFormula, termVariables } from "../formula/formula.js";
 import { loadTableStream } from "../io/csv.js";
 import { columnLabels } from "../io/table.js";
-import { type ModelOptions, parseColumnList, parseNa, parsePositive, parsePositiveInt, parseRefs } from "./options.js";
+import {
+  type ModelOptions,
+  parseColumnList,
+  parseNa,
+  parseOrder,
+  parsePositive,
+  parsePositiveInt,
+  parseRefs,
+} from "./options.js";
 import { clearProgressLine, notice, readingProgress } from "./terminal.js";
 
 export interface LoadedDesigns {
@@ -33,6 +41,7 @@ export async function loadDesigns(
   };
   const specs = modelTexts.map((t) => parseFormula(t, { intercept: opts.intercept }));
   const refs = parseRefs(opts.ref);
+  const order = parseOrder(opts.order);
   const factors = parseColumnList(opts.factor);
   const path = file ?? "-";
   if (path === "-" && process.stdin.isTTY)
@@ -42,13 +51,14 @@ export async function loadDesigns(
     ...vars,
     ...[opts.exposure, opts.offset, opts.weights].filter((x): x is string => !!x),
     ...Object.keys(refs),
+    ...Object.keys(order),
     ...alsoRead,
   ];
   const name = path === "-" ? "<stdin>" : path;
   const progress = opts.quiet || !process.stderr.isTTY ? undefined : readingProgress();
   const { table, sha256 } = await loadTableStream(
     path,
-    { delimiter: opts.delimiter, na: parseNa(opts.na), factors, select },
+    { delimiter: opts.delimiter, decimalComma: opts.decimalComma, na: parseNa(opts.na), factors, select },
     progress,
   );
   if (progress) clearProgressLine();
@@ -66,6 +76,7 @@ export async function loadDesigns(
       offset: opts.offset,
       weights: opts.weights,
       refs: ownRefs,
+      order,
       complete: specs.length > 1 ? vars : undefined,
     });
   });

@@ -9,6 +9,7 @@ export interface IoOptions {
   format: string;
   output?: string;
   delimiter?: string;
+  decimalComma?: boolean;
   na?: string;
   quiet?: boolean;
   color: boolean;
@@ -22,10 +23,11 @@ export interface ModelOptions extends IoOptions {
   offset?: string;
   factor: string[];
   ref: string[];
+  order: string[];
   weights?: string;
   intercept: boolean;
-  level: string;
-  intervals: string;
+  level?: string;
+  intervals?: string;
   robust?: boolean;
   plot?: string;
   maxIter: string;
@@ -81,6 +83,25 @@ export function parseRefs(list: string[]): Record<string, string> {
   return refs;
 }
 
+/** --order COL=L1,L2,… (repeatable) → the listed order of each factor's levels. */
+export function parseOrder(list: string[]): Record<string, string[]> {
+  const order: Record<string, string[]> = {};
+  for (const o of list) {
+    const k = o.indexOf("=");
+    const levels = o
+      .slice(k + 1)
+      .split(",")
+      .map((s) => s.trim())
+      .filter(Boolean);
+    if (k <= 0 || levels.length === 0)
+      throw new InputError(`--order takes COLUMN=LEVEL,LEVEL,…, such as --order weekday=mon,tue,wed (got '${o}').`);
+    if (new Set(levels).size !== levels.length)
+      throw new InputError(`--order ${o.slice(0, k)}=…: a level is named twice (got '${o}').`);
+    order[o.slice(0, k)] = levels;
+  }
+  return order;
+}
+
 export function parseNa(value: string | undefined): string[] {
   if (value === undefined) return DEFAULT_NA;
   return value.split(",").map((s) => s.trim());
@@ -104,6 +125,18 @@ export function plotKind(path: string): "svg" | "png" {
 
 /** The model, family and design options of fit, check and compare. */
 export function addModelOptions(cmd: Command, multiModel = false): Command {
+  return addModelSpecOptions(cmd, multiModel);
+}
+
+/** The interval and covariance options of fit. */
+export function addIntervalOptions(cmd: Command): Command {
+  return cmd
+    .option("--level <p>", "interval level", "0.95")
+    .addOption(new Option("--intervals <kind>", "wald, profile or both").default("both"))
+    .option("--robust", "sandwich (Huber-White) standard errors");
+}
+
+function addModelSpecOptions(cmd: Command, multiModel: boolean): Command {
   const withModel = cmd.option(
     "--model <spec>",
     multiModel ? 'a model "COUNT ~ TERMS" (give two or more)' : 'response column and terms, as "COUNT ~ a + b + a:b"',
@@ -128,11 +161,19 @@ export function addModelOptions(cmd: Command, multiModel = false): Command {
       [],
     )
     .option("--ref <col=level>", "reference level of a factor (repeatable)", collect, [])
+    .option(
+      "--order <col=levels>",
+      "order of a factor's levels in tables and pictures, e.g. weekday=mon,tue,wed (repeatable); the first with events is the default reference",
+      collect,
+      [],
+    )
     .option("--weights <col>", "frequency weights (a row stands for that many identical rows)")
-    .option("--no-intercept", "drop the intercept")
-    .option("--level <p>", "interval level", "0.95")
-    .addOption(new Option("--intervals <kind>", "wald, profile or both").default("both"))
-    .option("--robust", "sandwich (Huber-White) standard errors");
+    .option("--no-intercept", "drop the intercept");
+}
+
+/** The diagnostic picture (fit and check). */
+export function addPlotOption(cmd: Command): Command {
+  return cmd.option("--plot <file>", "diagnostic picture: FILE.svg or FILE.png");
 }
 
 /** Output options (format, file) shared by every command. */
@@ -145,8 +186,8 @@ export function addOutputOptions(cmd: Command, formats: string, dflt: string, wr
 /** The plot and IRLS options of the commands that fit models. */
 export function addFitControlOptions(cmd: Command): Command {
   return cmd
-    .option("--plot <file>", "diagnostic picture: FILE.svg or FILE.png")
-    .option("--delimiter <c>", "field delimiter (default ',' and tab for .tsv)")
+    .option("--delimiter <c>", "field delimiter: one character, or tab (default ',', and tab for .tsv)")
+    .option("--decimal-comma", "numbers are written with a decimal comma (1,5); needs another --delimiter, such as ';'")
     .option("--na <tokens>", "comma-separated missing-value tokens (default: empty, NA, NaN, null, .)")
     .option("--max-iter <n>", "IRLS iteration limit", "50")
     .option("--tolerance <x>", "IRLS convergence tolerance on the relative change in deviance", "1e-10")
@@ -161,7 +202,8 @@ export function addFitControlOptions(cmd: Command): Command {
 /** Reading options of a command that takes new rows without fitting (predict). */
 export function addReadOptions(cmd: Command): Command {
   return cmd
-    .option("--delimiter <c>", "field delimiter (default ',' and tab for .tsv)")
+    .option("--delimiter <c>", "field delimiter: one character, or tab (default ',', and tab for .tsv)")
+    .option("--decimal-comma", "numbers are written with a decimal comma (1,5); needs another --delimiter, such as ';'")
     .option("--na <tokens>", "comma-separated missing-value tokens");
 }
 

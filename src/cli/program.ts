@@ -6,7 +6,9 @@ import { type FitCliOptions, runFit, VERSION } from "./commands/fit.js";
 import { type PredictCliOptions, runPredict } from "./commands/predict.js";
 import {
   addFitControlOptions,
+  addIntervalOptions,
   addModelOptions,
+  addPlotOption,
   addOutputOptions,
   addReadOptions,
   addTerminalOptions,
@@ -15,16 +17,44 @@ import {
 
 const FILE_ARG = "CSV file, or - for standard input";
 
-/** A fitting command with its shared options (model, output, IRLS, terminal). */
+/** A fitting command with the options it uses: the model, then any extras, then output, reading and IRLS, terminal. */
 function fittingCommand(
   program: Command,
   name: string,
   description: string,
   formats: string,
+  extras: (cmd: Command) => Command,
   multiModel = false,
 ): Command {
   const cmd = program.command(name).description(description).argument("[file]", FILE_ARG);
-  return addTerminalOptions(addFitControlOptions(addOutputOptions(addModelOptions(cmd, multiModel), formats, "text")));
+  return addTerminalOptions(
+    addFitControlOptions(addOutputOptions(extras(addModelOptions(cmd, multiModel)), formats, "text")),
+  );
+}
+
+const EXAMPLES = {
+  fit: [
+    'tallyfit fit visits.csv --model "visits ~ clinic + weekday" --exposure open_hours',
+    'tallyfit fit falls.csv --model "falls ~ ward" --exposure bed_days --family negbin --format json --output fit.json',
+    'tallyfit fit visits.csv --model "visits ~ clinic" --exposure open_hours --save-model clinic-model.json --quiet',
+  ],
+  check: [
+    'tallyfit check visits.csv --model "visits ~ clinic + weekday" --exposure open_hours',
+    'tallyfit check weekly.csv --model "visits ~ clinic" --exposure open_hours --quiet --format json > check.json || exit 1',
+  ],
+  compare: [
+    'tallyfit compare visits.csv --exposure open_hours --model "visits ~ clinic" --model "visits ~ clinic + weekday"',
+    'tallyfit compare falls.csv --exposure bed_days --model "falls ~ ward" --family poisson --model "falls ~ ward" --family negbin',
+  ],
+  predict: [
+    "tallyfit predict --model-file clinic-model.json week49.csv > week49-flags.csv",
+    "tallyfit predict --model-file clinic-model.json week49.csv --format text --summary-by clinic",
+    "tallyfit predict --model-file clinic-model.json week49.csv --fail-on-flag --quiet > flags.csv || exit 4",
+  ],
+};
+
+function withExamples(cmd: Command, lines: string[]): Command {
+  return cmd.addHelpText("after", `\nExamples:\n${lines.map((l) => `  ${l}`).join("\n")}\n`);
 }
 
 export function buildProgram(onResult: (code: number) => void): Command {
@@ -37,12 +67,15 @@ export function buildProgram(onResult: (code: number) => void): Command {
     .configureOutput({ writeErr: (s) => process.stderr.write(s), writeOut: (s) => process.stdout.write(s) })
     .showHelpAfterError("(run tallyfit --help for the commands and options)");
 
-  fittingCommand(program, "fit", "fit one model and print the report", "text, json, csv or markdown")
+  const fit = fittingCommand(program, "fit", "fit one model and print the report", "text, json, csv or markdown", (c) =>
+    addPlotOption(addIntervalOptions(c)),
+  )
     .option("--alpha <p>", "test level of the dispersion check used by --family auto", "0.05")
     .option("--save-model <file>", "write everything predict needs to FILE (JSON, schema tallyfit.model/1)")
-    .option("--summary-by <col>", "observed and expected totals by group, with exact O/E limits")
+    .option("--summary-by <col>", "observed and expected totals by group, with O/E limits under the fitted family")
     .option("--per <n>", "units of exposure for the crude rates of --summary-by", "1")
     .action(async (file: string | undefined, opts: FitCliOptions) => onResult(await runFit(file, opts)));
+  withExamples(fit, EXAMPLES.fit);
 
   const predict = program
     .command("predict")
@@ -54,31 +87,36 @@ export function buildProgram(onResult: (code: number) => void): Command {
     .option("--draws <n>", "draws of the estimates for the prediction interval", "2000")
     .option("--seed <n>", "seed of those draws", "1")
     .option("--fail-on-flag", "exit code 4 when any row is flagged")
-    .option("--summary-by <col>", "observed and expected totals by group, with exact O/E limits")
+    .option("--summary-by <col>", "observed and expected totals by group (text and JSON output)")
     .option("--per <n>", "units of exposure for the crude rates of --summary-by", "1");
   addTerminalOptions(addReadOptions(addOutputOptions(predict, "csv, json or text", "csv", "the results"))).action(
     async (file: string | undefined, opts: PredictCliOptions) => onResult(await runPredict(file, opts)),
   );
+  withExamples(predict, EXAMPLES.predict);
 
-  fittingCommand(
+  const check = fittingCommand(
     program,
     "check",
     "dispersion and zero-count diagnostics of the Poisson model; exit code 4 when a test flags",
     "text or json",
+    addPlotOption,
   )
     .option("--alpha <p>", "test level: a test flags when its p-value is below this", "0.05")
     .action(async (file: string | undefined, opts: ModelOptions & { family: string; alpha: string }) =>
       onResult(await runCheck(file, opts)),
     );
+  withExamples(check, EXAMPLES.check);
 
-  fittingCommand(
+  const compare = fittingCommand(
     program,
     "compare",
     "nested-model tests and information criteria for two or more models on the same rows",
     "text or json",
+    (c) => c,
     true,
   ).action(async (file: string | undefined, opts: ModelOptions & { family: string[] }) =>
     onResult(await runCompare(file, opts)),
   );
+  withExamples(compare, EXAMPLES.compare);
   return program;
 }

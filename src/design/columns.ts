@@ -19,7 +19,7 @@ export function lookupColumn(table: Table, name: string, role: string): Column {
   if (known.length === 1) {
     const guess = guessDelimiter(known[0], table.delimiter);
     if (guess)
-      msg += ` The whole header landed in one column, so the file probably uses ${showDelimiter(guess)} between fields, not ${showDelimiter(table.delimiter)}: try --delimiter ${guess === "\t" ? "$'\\t'" : `'${guess}'`}.`;
+      msg += ` The whole header landed in one column, so the file probably uses ${showDelimiter(guess)} between fields, not ${showDelimiter(table.delimiter)}: try --delimiter ${guess === "\t" ? "tab" : `'${guess}'`}${guess === ";" ? " (and --decimal-comma if its numbers are written 1,5)" : ""}.`;
   }
   throw new InputError(msg);
 }
@@ -35,5 +35,9 @@ export function numericColumn(
   const why = col.reason.forced
     ? forcedWhy
     : `row ${col.reason.row} holds '${col.reason.value}', which is not a finite number`;
-  throw new InputError(`${table.source}: the ${role} column '${col.name}' must be numeric, but ${why}.`);
+  const comma =
+    !col.reason.forced && /^[+-]?\d*,\d+$/.test(col.reason.value)
+      ? ` It looks like a decimal comma: add --decimal-comma${table.delimiter === "," ? " with the file's own --delimiter (such as ';')" : ""}.`
+      : "";
+  throw new InputError(`${table.source}: the ${role} column '${col.name}' must be numeric, but ${why}.${comma}`);
 }

@@ -15,6 +15,12 @@ export interface DesignOptions {
   weights?: string;
   /** Reference level per factor. */
   refs?: Record<string, string>;
+  /**
+   * The order of a factor's levels in tables and pictures (levels not named
+   * follow in natural order); the first level with events in that order is the
+   * default reference.
+   */
+  order?: Record<string, string[]>;
   /** Further columns that must be present in a row for it to be used (so several models share rows). */
   complete?: string[];
 }
@@ -256,7 +262,9 @@ export function buildDesign(table: Table, model: Formula, options: DesignOptions
   vars.forEach((v, j) => {
     const c = varCols[j];
     if (c.kind !== "factor") return;
-    factors.set(v, codeFactor(table, c, rowIndex, options.refs?.[v]));
+    const coded = codeFactor(table, c, rowIndex, options.refs?.[v], options.order?.[v], yAll);
+    if (coded.notice) notices.push(coded.notice);
+    factors.set(v, coded);
   });
 
   const { columns, slots, termColumns, interceptCol } = layoutColumns(
@@ -403,10 +411,25 @@ function codeFactor(
   c: FactorColumn,
   rowIndex: Int32Array,
   ref: string | undefined,
-): { coding: FactorCoding; codes: Int32Array } {
+  order: string[] | undefined,
+  y: Float64Array,
+): { coding: FactorCoding; codes: Int32Array; notice: string | null } {
   const present = new Uint8Array(c.levels.length);
-  for (let k = 0; k < rowIndex.length; k++) present[c.codes[rowIndex[k]]] = 1;
-  const levels = c.levels.filter((_, i) => present[i]).sort(naturalCompare);
+  const events = new Float64Array(c.levels.length);
+  for (let k = 0; k < rowIndex.length; k++) {
+    const code = c.codes[rowIndex[k]];
+    present[code] = 1;
+    events[code] += y[rowIndex[k]];
+  }
+  const natural = c.levels.filter((_, i) => present[i]).sort(naturalCompare);
+  for (const l of order ?? [])
+    if (!natural.includes(l)) {
+      const close = closestName(l, natural);
+      throw new InputError(
+        `--order ${c.name}=…: '${l}' is not a level of '${c.name}' among the rows used.${close ? ` Did you mean '${close}'?` : ""} The levels are ${listNames(natural, 30)}.`,
+      );
+    }
+  const levels = order ? [...order, ...natural.filter((l) => !order.includes(l))] : natural;
   if (ref !== undefined && !levels.includes(ref)) {
     const close = closestName(ref, levels);
     throw new InputError(
@@ -418,9 +441,21 @@ function codeFactor(
       `${table.source}: factor '${c.name}' has a single level ('${levels[0]}') among the rows used, so it cannot explain any difference; remove it from the model.`,
     );
   }
+  // Default reference: the first level (in the order above) that has events; a level without events would make
+  // every rate ratio against it infinite. An explicit --ref is kept as given (the fit then says why it fails).
+  const eventsOf = (l: string) => events[c.levels.indexOf(l)];
+  let reference = ref ?? levels[0];
+  let notice: string | null = null;
+  if (ref === undefined && !(eventsOf(levels[0]) > 0)) {
+    const first = levels.find((l) => eventsOf(l) > 0);
+    if (first !== undefined) {
+      reference = first;
+      notice = `the first level of '${c.name}', '${levels[0]}', has no events, so '${first}' is the reference level (choose another with --ref ${c.name}=LEVEL)`;
+    }
+  }
   const pos = new Map(levels.map((l, i) => [l, i]));
   const remap = c.levels.map((l) => pos.get(l) ?? -1);
   const codes = new Int32Array(rowIndex.length);
   for (let k = 0; k < rowIndex.length; k++) codes[k] = remap[c.codes[rowIndex[k]]];
-  return { coding: { name: c.name, levels, reference: ref ?? levels[0] }, codes };
+  return { coding: { name: c.name, levels, reference }, codes, notice };
 }

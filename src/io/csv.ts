@@ -22,6 +22,8 @@ export interface LoadOptions {
   na?: string[];
   /** Columns to read as categorical even when every value is a number. */
   factors?: string[];
+  /** Numbers use a decimal comma (1,5 is one and a half); the delimiter must then be something else. */
+  decimalComma?: boolean;
   /** Keep only these columns (others are parsed and checked, not stored). */
   select?: string[];
 }
@@ -51,7 +53,9 @@ function isBlank(b: Uint8Array): boolean {
 
 /** A chunked reader for the given options (the dialect checks of parseTable included). */
 export function makeReader(options: LoadOptions): ColumnReader {
-  const delimiter = options.delimiter ?? defaultDelimiter(options.source);
+  const given = options.delimiter ?? defaultDelimiter(options.source);
+  // "tab" and a typed backslash-t both mean the tab character.
+  const delimiter = given === "tab" || given === "\\t" ? "\t" : given;
   if (
     delimiter.length !== 1 ||
     delimiter === '"' ||
@@ -60,11 +64,16 @@ export function makeReader(options: LoadOptions): ColumnReader {
     delimiter.charCodeAt(0) > 127
   )
     throw new InputError(
-      `--delimiter must be one ASCII character other than a quote or a line break (got ${JSON.stringify(delimiter)}).`,
+      `--delimiter must be one ASCII character other than a quote or a line break, or tab (got ${JSON.stringify(given)}).`,
+    );
+  if (options.decimalComma && delimiter === ",")
+    throw new InputError(
+      "--decimal-comma needs another field delimiter than the comma: give --delimiter ';' (or the one the file uses).",
     );
   return new ColumnReader({
     source: options.source,
     delimiter: delimiter.charCodeAt(0),
+    decimal: options.decimalComma ? 0x2c : 0x2e,
     na: new Set(options.na ?? DEFAULT_NA),
     factors: new Set(options.factors ?? []),
     select: options.select ? new Set(options.select) : null,

@@ -7,7 +7,7 @@
 import { InputError } from "../errors.js";
 import { checkHeader, type Column, type Table } from "./table.js";
 import { firstInvalidUtf8 } from "./source-bytes.js";
-import { parseDecimal, showDelimiter } from "./dialect.js";
+import { guessDelimiter, parseDecimal, showDelimiter } from "./dialect.js";
 
 const QUOTE = 0x22,
   LF = 0x0a,
@@ -33,6 +33,8 @@ interface Builder {
 export interface StreamOptions {
   source: string;
   delimiter: number;
+  /** The decimal mark of numbers: '.' (0x2e), or ',' (0x2c) with --decimal-comma. */
+  decimal?: number;
   na: Set<string>;
   factors: Set<string>;
   select: Set<string> | null;
@@ -262,10 +264,18 @@ export class ColumnReader {
     }
     const hdr = this.header;
     const row = this.nRows + 2;
-    if (nf !== hdr.length)
+    if (nf !== hdr.length) {
+      const delim = String.fromCharCode(this.o.delimiter);
+      // A header that is one field holding another common delimiter: the file uses that one (and, with ';', often
+      // decimal commas, which is why the rows split on ',').
+      const guess = hdr.length === 1 ? guessDelimiter(hdr[0], delim) : null;
+      const hint = guess
+        ? ` The header is one field holding ${showDelimiter(guess)}: the file probably uses ${showDelimiter(guess)} between fields; try --delimiter ${guess === "\t" ? "tab" : `'${guess}'`}${guess === ";" ? " (and --decimal-comma if its numbers are written 1,5)" : ""}.`
+        : ` Check for an unquoted ${showDelimiter(delim)} inside a value, or a missing field.`;
       throw new InputError(
-        `${this.o.source}, row ${row} (line ${line}): ${nf} fields where the header has ${hdr.length}. Check for an unquoted ${showDelimiter(String.fromCharCode(this.o.delimiter))} inside a value, or a missing field.`,
+        `${this.o.source}, row ${row} (line ${line}): ${nf} fields where the header has ${hdr.length}.${hint}`,
       );
+    }
     const i = this.nRows;
     for (let j = 0; j < nf; j++) {
       const bd = this.builders[j];
@@ -282,7 +292,7 @@ export class ColumnReader {
           bd.values[i] = NaN;
           continue;
         }
-        const v = fq[j] ? parseDecimal(this.text(b, s, e, true).trim()) : this.number(b, s, e);
+        const v = fq[j] ? this.decimalText(this.text(b, s, e, true).trim()) : this.number(b, s, e);
         if (!Number.isNaN(v)) {
           bd.values[i] = v;
           continue;
@@ -343,7 +353,7 @@ export class ColumnReader {
         m = m * 10 + (c - 0x30);
         digits++;
         if (seenDot) frac++;
-      } else if (c === 0x2e && !seenDot) seenDot = true;
+      } else if (c === this.decimalMark && !seenDot) seenDot = true;
       else break;
     }
     if (p === e && any && digits <= 15 && frac <= 22) {
@@ -353,7 +363,17 @@ export class ColumnReader {
     // Exponents, long mantissas and anything unusual: the general (exact) path.
     let str = "";
     for (let k = s; k < e; k++) str += String.fromCharCode(b[k]);
-    return parseDecimal(str);
+    return this.decimalText(str);
+  }
+
+  private get decimalMark(): number {
+    return this.o.decimal ?? 0x2e;
+  }
+
+  /** A field's text as a number with the file's decimal mark (a decimal-comma file's '.' is not a decimal point). */
+  private decimalText(str: string): number {
+    if (this.decimalMark === 0x2e) return parseDecimal(str);
+    return str.includes(".") ? NaN : parseDecimal(str.replace(",", "."));
   }
 
   private codeOfBytes(bd: Builder, b: Uint8Array, s: number, e: number): number {

@@ -25,6 +25,16 @@ export function renderFitMarkdown(s: FitSummary): string {
     `Deviance ${fixed(s.deviance, 2)} on ${s.df_residual} df; Pearson chi-square / df ${fixed(s.dispersion.pearson, 3)}; AIC ${fixed(s.aic, 2)}.`,
     "",
   );
+  if (s.summary_by) {
+    const g = s.summary_by;
+    out.push(`Observed and expected by \`${g.column}\` (O/E limits: ${g.method}):`, "");
+    out.push(`| ${g.column} | rows | observed | expected | O/E | O/E ${lv} |`, "|---|---:|---:|---:|---:|---:|");
+    for (const r of g.groups)
+      out.push(
+        `| ${r.group} | ${r.rows} | ${fixed(r.observed, 0)} | ${fixed(r.expected, 1)} | ${r.ratio === null ? "–" : fixed(r.ratio, 3)} | ${r.ratio_ci ? interval(r.ratio_ci) : "–"} |`,
+      );
+    out.push("");
+  }
   if (s.warnings.length) {
     out.push("Warnings:", "");
     s.warnings.forEach((w, i) => out.push(`${i + 1}. ${w}`));

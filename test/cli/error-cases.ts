@@ -208,9 +208,9 @@ export const CASES: ErrorCase[] = [
     message: /--level must be a number between 0 and 1/,
   },
   {
-    mistake: "reference level with no events",
+    mistake: "reference level with no events (given with --ref)",
     content: "ward,beds,falls,x\na,100,0,1\nb,100,3,2\na,100,0,3\nb,90,5,1\n",
-    args: M,
+    args: [...M, "--ref", "ward=a"],
     code: 3,
     message: /the reference level 'a' of 'ward' has no events in its 2 rows.*--ref ward=b/,
   },

@@ -26,7 +26,8 @@ export async function runCheck(file: string | undefined, opts: CheckCliOptions):
   const { check, poisson } = analyzeCheckWithFits(design, { control, testLevel, merge, onProgress });
   if (onProgress) clearProgressLine();
   if (opts.plot) {
-    const summary = summarizeFit(design, poisson, { level: parseProbability("--level", opts.level, "0.95") });
+    // The picture's forest panel shows 95% Wald intervals (check has no interval options of its own).
+    const summary = summarizeFit(design, poisson, { level: 0.95 });
     await writePlot(
       opts,
       opts.plot,

@@ -22,6 +22,8 @@ const VERSION: string = JSON.parse(readFileSync(new URL("../../../../package.jso
 
 export type FitCliOptions = ModelOptions & {
   family: string;
+  level: string;
+  intervals: string;
   alpha: string;
   saveModel?: string;
   summaryBy?: string;
@@ -46,6 +48,10 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
     );
   const level = parseProbability("--level", opts.level, "0.95");
   oneOf("--format", opts.format, ["text", "json", "csv", "markdown"]);
+  if (opts.summaryBy && opts.format === "csv")
+    throw new InputError(
+      "--summary-by is not part of the CSV output (one line per coefficient); use --format text, json or markdown for the group table.",
+    );
   const family: FamilyChoice = oneOf("--family", opts.family, ["poisson", "quasipoisson", "negbin", "auto"]);
   const intervals = oneOf("--intervals", opts.intervals, ["wald", "profile", "both"]);
   const testLevel = parseProbability("--alpha", opts.alpha, "0.05");

@@ -32,6 +32,10 @@ export interface PredictCliOptions extends IoOptions {
 
 export async function runPredict(file: string | undefined, opts: PredictCliOptions): Promise<number> {
   oneOf("--format", opts.format, ["csv", "json", "text"]);
+  if (opts.summaryBy && opts.format === "csv")
+    throw new InputError(
+      "--summary-by is not part of the CSV output (one line per input row); use --format text or json for the group table.",
+    );
   const level = parseProbability("--level", opts.level, "0.95");
   const flagLevel = parseProbability("--flag-level", opts.flagLevel, "0.99");
   const draws = parsePositiveInt("--draws", opts.draws);
@@ -43,7 +47,13 @@ export async function runPredict(file: string | undefined, opts: PredictCliOptio
     throw new InputError("no input: give a CSV file of new rows, or pipe one in.");
   const { bytes, name } = await readSource(path);
   const factors = saved.factors.map((f) => f.name);
-  const table = parseTable(bytes, { source: name, delimiter: opts.delimiter, na: parseNa(opts.na), factors });
+  const table = parseTable(bytes, {
+    source: name,
+    delimiter: opts.delimiter,
+    decimalComma: opts.decimalComma,
+    na: parseNa(opts.na),
+    factors,
+  });
   if (opts.summaryBy && !table.columns.has(opts.summaryBy))
     throw new InputError(`${name}: --summary-by column '${opts.summaryBy}' is not in the file.`);
   const { design, result, groups } = await analyzePredict(table, saved, {
