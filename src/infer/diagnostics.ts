@@ -3,6 +3,7 @@ import { negbinCdf, poissonCdf } from "../math/distributions.js";
 import { normalQuantile } from "../math/distributions.js";
 import { lgamma } from "../math/distributions.js";
 import { uniformGenerator } from "../math/random.js";
+import { predictiveTable } from "./predictive.js";
 
 /** P(Y = k) under the Poisson (alpha = 0) or NB2 with mean mu. */
 export function countPmf(k: number, mu: number, alpha: number): number {
@@ -17,47 +18,57 @@ export function countPmf(k: number, mu: number, alpha: number): number {
 }
 
 export interface Rootogram {
-  /** Count values 0..max shown as bars. */
+  /**
+   * The lower end of each bar's bin: with binWidth 1 every count value has its
+   * own bar; larger counts are put in bins of binWidth values, so that every
+   * observed count is shown and none is cut off.
+   */
   counts: number[];
+  binWidth: number;
   observed: number[];
   expected: number[];
-  /** Rows with counts above the last bar, observed and expected. */
+  /** Beyond the last bin: no row is there (the bins reach the largest count); the expected frequency that is. */
   tailObserved: number;
   tailExpected: number;
 }
 
+/** Bars at most; larger counts are binned. */
+const MAX_BARS = 60;
+
 /**
- * Observed and expected frequencies of each count value (Tukey 1977's
- * rootogram plots their square roots): expected_k = Σ_i w_i·P(Y_i = k).
- * The expected frequencies, tail included, sum to the number of rows.
+ * Observed and expected frequencies of each count value, or of bins of count
+ * values (Tukey 1977's rootogram plots their square roots): expected =
+ * Σ_i w_i·P(Y_i in bin), from each row's fitted distribution (see
+ * predictive.ts). The bins reach the largest count; the expected frequencies,
+ * tail included, sum to the number of rows.
  */
-export function rootogram(
-  y: Float64Array,
-  mu: Float64Array,
-  alpha: number,
-  weights: Float64Array | null,
-  maxCount = 100,
-): Rootogram {
+export function rootogram(y: Float64Array, mu: Float64Array, alpha: number, weights: Float64Array | null): Rootogram {
   let top = 0;
   for (let i = 0; i < y.length; i++) if (y[i] > top) top = y[i];
-  const K = Math.min(top, maxCount);
-  const observed = new Array(K + 1).fill(0);
-  const expected = new Array(K + 1).fill(0);
-  let tailObs = 0,
-    tailExp = 0;
+  const binWidth =
+    [1, 2, 5, 10, 20, 50, 100, 200, 500, 1000, 2000, 5000, 10000].find((w) => Math.ceil((top + 1) / w) <= MAX_BARS) ??
+    Math.ceil((top + 1) / MAX_BARS);
+  const bins = Math.ceil((top + 1) / binWidth);
+  const observed = new Array(bins).fill(0);
+  const expected = new Array(bins).fill(0);
+  let tailExp = 0;
+  const one = new Float64Array(1),
+    oneAlpha = Float64Array.of(alpha);
   for (let i = 0; i < y.length; i++) {
     const w = weights ? weights[i] : 1;
-    if (y[i] <= K) observed[y[i]] += w;
-    else tailObs += w;
-    let s = 0;
-    for (let k = 0; k <= K; k++) {
-      const p = countPmf(k, mu[i], alpha);
-      expected[k] += w * p;
-      s += p;
+    observed[Math.floor(y[i] / binWidth)] += w;
+    one[0] = mu[i];
+    const { pmf } = predictiveTable(one, oneAlpha, null);
+    let inside = 0;
+    const end = Math.min(pmf.length, bins * binWidth);
+    for (let k = 0; k < end; k++) {
+      expected[Math.floor(k / binWidth)] += w * pmf[k];
+      inside += pmf[k];
     }
-    tailExp += w * Math.max(0, 1 - s);
+    tailExp += w * Math.max(0, 1 - inside);
   }
-  return { counts: observed.map((_, k) => k), observed, expected, tailObserved: tailObs, tailExpected: tailExp };
+  const counts = observed.map((_, j) => j * binWidth);
+  return { counts, binWidth, observed, expected, tailObserved: 0, tailExpected: tailExp };
 }
 
 /**

@@ -4,7 +4,7 @@
 // Palette: a dark slate for data marks and a burnt orange for model marks,
 // distinct for the common colour-vision deficiencies and apart in lightness,
 // so the page also reads in greyscale.
-import type { FitSummary } from "../infer/summary.js";
+import type { CoefficientRow, FitSummary } from "../infer/summary.js";
 import type { Rootogram } from "../infer/diagnostics.js";
 import { normalQuantile } from "../math/distributions.js";
 
@@ -101,7 +101,7 @@ function axisY(b: Box, ticks: number[], sy: (v: number) => number): string {
 }
 
 function rootogramPanel(b: Box, r: Rootogram): string {
-  const K = r.counts.length - 1;
+  const n = r.counts.length;
   const se = r.expected.map(Math.sqrt),
     so = r.observed.map(Math.sqrt);
   let ymax = 0,
@@ -112,24 +112,28 @@ function rootogramPanel(b: Box, r: Rootogram): string {
   });
   ymin = Math.min(ymin, -0.05 * ymax);
   const pad = 0.05 * (ymax - ymin);
-  const sx = (k: number) => b.x + ((k + 0.5) / (K + 1)) * b.w;
+  // Bar j covers counts[j] … counts[j] + binWidth − 1; the x axis is in count values.
+  const top = r.counts[n - 1] + r.binWidth;
+  const sx = (v: number) => b.x + ((v + 0.5 * r.binWidth) / top) * b.w;
   const sy = (v: number) => b.y + b.h - ((v - (ymin - pad)) / (ymax + pad - (ymin - pad))) * b.h;
-  const bw = Math.max(1, (b.w / (K + 1)) * 0.8);
+  const bw = Math.max(1, (b.w / n) * 0.8);
   let s =
     axisY(b, niceTicks(ymin, ymax), sy) +
     axisX(
       b,
-      niceTicks(0, K, 8).filter((t) => Number.isInteger(t)),
+      niceTicks(0, top - r.binWidth, 8).filter((t) => Number.isInteger(t / r.binWidth)),
       sx,
     );
   s += `<line x1="${b.x}" y1="${f2(sy(0))}" x2="${b.x + b.w}" y2="${f2(sy(0))}" stroke="${INK}" stroke-width="1.2"/>`;
-  r.counts.forEach((k) => {
-    const top = se[k],
-      bottom = se[k] - so[k];
-    s += `<rect class="bar" x="${f2(sx(k) - bw / 2)}" y="${f2(sy(top))}" width="${f2(bw)}" height="${f2(Math.max(0, sy(bottom) - sy(top)))}" fill="${DATA_LIGHT}" stroke="${DATA}" stroke-width="0.8"/>`;
+  r.counts.forEach((c, j) => {
+    const hi = se[j],
+      bottom = se[j] - so[j];
+    const label = r.binWidth === 1 ? `count ${c}` : `counts ${c}–${c + r.binWidth - 1}`;
+    s += `<rect class="bar" x="${f2(sx(c) - bw / 2)}" y="${f2(sy(hi))}" width="${f2(bw)}" height="${f2(Math.max(0, sy(bottom) - sy(hi)))}" fill="${DATA_LIGHT}" stroke="${DATA}" stroke-width="0.8"><title>${label}: observed ${f2(r.observed[j])}, expected ${f2(r.expected[j])}</title></rect>`;
   });
-  s += `<polyline class="curve" fill="none" stroke="${MODEL}" stroke-width="2.2" points="${r.counts.map((k) => `${f2(sx(k))},${f2(sy(se[k]))}`).join(" ")}"/>`;
-  return panel(b, "Hanging rootogram: observed bars hung from the expected curve", "count", "√frequency", s);
+  s += `<polyline class="curve" fill="none" stroke="${MODEL}" stroke-width="2.2" points="${r.counts.map((c, j) => `${f2(sx(c))},${f2(sy(se[j]))}`).join(" ")}"/>`;
+  const xlabel = r.binWidth === 1 ? "count" : `count (bars are bins of ${r.binWidth} values, up to the largest count)`;
+  return panel(b, "Hanging rootogram: observed bars hung from the expected curve", xlabel, "√frequency", s);
 }
 
 function residualPanel(b: Box, fitted: Float64Array, res: Float64Array): string {
@@ -163,66 +167,112 @@ function qqPanel(b: Box, res: Float64Array): string {
   return panel(b, "Normal quantiles of the residuals", "standard normal quantile", "residual quantile", s);
 }
 
+/** The rows of the forest panel: each factor's reference level, then its levels; numeric terms as they come. */
+function forestRows(summary: FitSummary): { label: string; full: string; c: CoefficientRow | null }[] {
+  const out: { label: string; full: string; c: CoefficientRow | null }[] = [];
+  const seen = new Set<string>();
+  for (const c of summary.coefficients) {
+    if (c.kind === "intercept" || c.status === "aliased") continue;
+    const ref = c.kind === "indicator" && c.levels.length === 1 ? c.levels[0] : null;
+    if (ref?.reference && !seen.has(ref.factor)) {
+      seen.add(ref.factor);
+      const full = `${ref.factor}=${ref.reference} (reference)`;
+      out.push({ label: shorten(full), full, c: null });
+    }
+    out.push({ label: shorten(c.term), full: c.term, c });
+  }
+  return out;
+}
+
+/** Labels longer than the panel's label column are cut with an ellipsis (the full term is in the mark's title). */
+function shorten(s: string, max = 30): string {
+  return [...s].length <= max ? s : `${[...s].slice(0, max - 1).join("")}…`;
+}
+
+/** Height of the forest panel: a line per row, at least as tall as the other panels. */
+export function forestHeight(summary: FitSummary): number {
+  return Math.max(300, 18 * (forestRows(summary).length + 1));
+}
+
 function forestPanel(b: Box, summary: FitSummary): string {
-  const rows = summary.coefficients.filter(
-    (c) => c.kind !== "intercept" && (c.status === "estimated" || c.status === "no_events"),
-  );
-  const iv = (c: (typeof rows)[number]) => c.profile ?? c.wald;
+  const rows = forestRows(summary);
+  const iv = (c: CoefficientRow) => c.profile ?? c.wald;
   const vals: number[] = [1];
   const usable = (v: number | null | undefined): v is number => typeof v === "number" && v > 0 && Number.isFinite(v);
-  for (const c of rows) {
-    if (usable(c.rate_ratio)) vals.push(c.rate_ratio);
+  const shownValue = (c: CoefficientRow) => (c.measure === "rate" ? c.rate : c.rate_ratio);
+  for (const { c } of rows) {
+    if (!c) continue;
+    if (usable(shownValue(c))) vals.push(shownValue(c)!);
     const i = iv(c);
     if (usable(i?.[0])) vals.push(i![0]!);
     if (usable(i?.[1])) vals.push(i![1]!);
+    // A level with no events: leave room to its left, so its open interval reads as open, not as a short stub.
+    if (c.status === "no_events" && usable(i?.[1])) vals.push(i![1]! / 30);
   }
   const lo = Math.min(...vals) / 1.15,
     hi = Math.max(...vals) * 1.15;
-  const labelW = 190;
+  const labelW = 210;
   const plot: Box = { x: b.x + labelW, y: b.y, w: b.w - labelW, h: b.h };
   const sx = (v: number) => plot.x + ((Math.log(v) - Math.log(lo)) / (Math.log(hi) - Math.log(lo))) * plot.w;
   const step = b.h / Math.max(1, rows.length + 1);
   let s = axisX(plot, logTicks(lo, hi), sx);
   s += `<line x1="${f2(sx(1))}" y1="${b.y}" x2="${f2(sx(1))}" y2="${b.y + b.h}" stroke="${INK}" stroke-dasharray="4 3"/>`;
-  rows.forEach((c, k) => {
+  rows.forEach(({ label, full, c }, k) => {
     const y = b.y + step * (k + 1);
-    s += `<text x="${b.x + labelW - 8}" y="${f2(y + 4)}" font-size="11" text-anchor="end" fill="${INK}">${esc(c.term)}</text>`;
+    s += `<text x="${b.x + labelW - 8}" y="${f2(y + 4)}" font-size="11" text-anchor="end" fill="${INK}"${c ? "" : ' font-style="italic"'}><title>${esc(full)}</title>${esc(label)}</text>`;
+    if (!c) {
+      // The reference level: rate ratio 1 by definition, a hollow mark on the dashed line.
+      s += `<rect class="ref" x="${f2(sx(1) - 4)}" y="${f2(y - 4)}" width="8" height="8" fill="#ffffff" stroke="${MODEL}" stroke-width="1.5"/>`;
+      return;
+    }
     const i = iv(c);
-    const l = usable(i?.[0]) ? sx(i![0]!) : plot.x;
     const h = usable(i?.[1]) ? sx(i![1]!) : plot.x + plot.w;
+    if (c.status === "no_events") {
+      // No events: the interval is open toward 0, drawn as a line that runs off the left edge with an arrowhead.
+      s += `<line class="ci" x1="${f2(plot.x)}" y1="${f2(y)}" x2="${f2(h)}" y2="${f2(y)}" stroke="${DATA}" stroke-width="2" stroke-dasharray="6 3"/>`;
+      s += `<path d="M${f2(plot.x)},${f2(y)} l8,-5 l0,10 z" fill="${DATA}"/>`;
+      s += `<text x="${f2(plot.x + 12)}" y="${f2(y - 5)}" font-size="10" fill="${INK}">no events: open toward 0</text>`;
+      return;
+    }
+    const l = usable(i?.[0]) ? sx(i![0]!) : plot.x;
     s += `<line class="ci" x1="${f2(l)}" y1="${f2(y)}" x2="${f2(h)}" y2="${f2(y)}" stroke="${DATA}" stroke-width="2"/>`;
-    if (c.status === "estimated" && usable(c.rate_ratio))
-      s += `<rect class="est" x="${f2(sx(c.rate_ratio) - 4)}" y="${f2(y - 4)}" width="8" height="8" fill="${MODEL}"/>`;
-    else s += `<text x="${f2(l + 4)}" y="${f2(y - 5)}" font-size="10" fill="${INK}">no events</text>`;
+    if (usable(shownValue(c)))
+      s += `<rect class="est" x="${f2(sx(shownValue(c)!) - 4)}" y="${f2(y - 4)}" width="8" height="8" fill="${MODEL}"/>`;
   });
   const which = summary.coefficients.some((c) => c.profile) ? "profile" : "Wald";
   const lv = `${+(summary.level * 100).toFixed(2)}%`;
   return panel(
     b,
     `Rate ratios with ${lv} ${which} intervals`,
-    "rate ratio (log scale; dashed line: no difference)",
+    "rate ratio (log scale; dashed line: no difference; hollow: reference level)",
     "",
     s,
   );
 }
 
 export function renderSvg(p: PlotInput): string {
-  const W = 1200,
-    H = 880;
+  const W = 1200;
+  const fh = forestHeight(p.summary);
+  const H = 580 + fh;
   const boxes: Box[] = [
     { x: 80, y: 90, w: 460, h: 300 },
     { x: 690, y: 90, w: 460, h: 300 },
     { x: 80, y: 500, w: 460, h: 300 },
-    { x: 640, y: 500, w: 510, h: 300 }, // wider: the forest plot needs room for term names
+    { x: 640, y: 500, w: 510, h: fh }, // wider, and as tall as its rows need: the forest plot holds the term names
   ];
   const body =
     rootogramPanel(boxes[0], p.rootogram) +
     residualPanel(boxes[1], p.fitted, p.residuals) +
     qqPanel(boxes[2], p.residuals) +
     forestPanel(boxes[3], p.summary);
+  const desc =
+    "Four panels: a hanging rootogram of observed against expected count frequencies; randomized quantile residuals against fitted means; " +
+    "the normal quantile plot of those residuals; and rate ratios with their intervals, reference levels hollow.";
   return (
     `<?xml version="1.0" encoding="UTF-8"?>\n` +
-    `<svg xmlns="http://www.w3.org/2000/svg" width="${W}" height="${H}" viewBox="0 0 ${W} ${H}" font-family="${FONT}">` +
+    `<svg xmlns="http://www.w3.org/2000/svg" width="${W}" height="${H}" viewBox="0 0 ${W} ${H}" font-family="${FONT}" role="img" aria-labelledby="tf-title tf-desc">` +
+    `<title id="tf-title">${esc(p.title)}</title>` +
+    `<desc id="tf-desc">${esc(desc)}</desc>` +
     `<rect width="${W}" height="${H}" fill="#ffffff"/>` +
     `<text x="80" y="40" font-size="19" font-weight="bold" fill="${INK}">${esc(p.title)}</text>` +
     body +

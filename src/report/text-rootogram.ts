@@ -4,20 +4,23 @@ import type { Rootogram } from "../infer/diagnostics.js";
 import { fixed, padStart } from "./format.js";
 
 export function textRootogram(r: Rootogram, width: number, maxLines = 14): string[] {
-  const K = r.counts.length - 1;
-  const bw = Math.max(1, Math.ceil((K + 1) / maxLines));
+  const n = r.counts.length;
+  const per = Math.max(1, Math.ceil(n / maxLines)); // the rootogram's bins merged per line
   const bins: { label: string; o: number; e: number }[] = [];
-  for (let a = 0; a <= K; a += bw) {
-    const b = Math.min(K, a + bw - 1);
+  for (let j = 0; j < n; j += per) {
+    const last = Math.min(n, j + per) - 1;
+    const a = r.counts[j],
+      b = r.counts[last] + r.binWidth - 1;
     let o = 0,
       e = 0;
-    for (let k = a; k <= b; k++) {
+    for (let k = j; k <= last; k++) {
       o += r.observed[k];
       e += r.expected[k];
     }
     bins.push({ label: a === b ? `${a}` : `${a}–${b}`, o, e });
   }
-  if (r.tailObserved > 0 || r.tailExpected > 0.5) bins.push({ label: `>${K}`, o: r.tailObserved, e: r.tailExpected });
+  const end = r.counts[n - 1] + r.binWidth - 1;
+  if (r.tailObserved > 0 || r.tailExpected > 0.5) bins.push({ label: `>${end}`, o: r.tailObserved, e: r.tailExpected });
   const labelW = Math.max(...bins.map((b) => b.label.length), 5);
   const barW = Math.max(10, width - labelW - 26);
   const top = Math.max(...bins.map((b) => Math.sqrt(Math.max(b.o, b.e))), 1e-9);
