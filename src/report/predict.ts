@@ -87,7 +87,7 @@ export function renderPredictText(
   }
   out.push("");
   if (groups) {
-    out.push(st.heading(`Observed and expected by ${groups.column}`));
+    out.push(st.heading(`Observed and expected by ${groups.column} (O/E limits: ${groups.method})`));
     out.push(...groupTable(groups));
     out.push("");
   }

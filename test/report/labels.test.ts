@@ -43,6 +43,10 @@ test("quasi-Poisson: the coefficient table's statistic column says t, as the tes
   const text = runCli([...args, "--family", "quasipoisson", "--intervals", "wald"]).stdout;
   assert.match(text, /term +estimate +std\. error +t +p-value/);
   assert.match(text, /t and p against Student's t on [\d,]+ df/);
+  const json = JSON.parse(
+    runCli([...args, "--family", "quasipoisson", "--intervals", "wald", "--format", "json"]).stdout,
+  );
+  assert.equal(json.test_distribution, "t");
   const poisson = runCli([...args, "--intervals", "wald"]).stdout;
   assert.match(poisson, /term +estimate +std\. error +z +p-value/);
 });
