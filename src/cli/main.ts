@@ -4,14 +4,17 @@
 import { CommanderError } from "commander";
 import { EXIT, FitError, InputError } from "../errors.js";
 import { buildProgram } from "./program.js";
+import { noteStdoutError, stdoutState } from "./output.js";
 import { stripAnsi } from "./terminal.js";
 
 export { buildProgram };
 
 export async function main(argv: string[]): Promise<void> {
-  process.stdout.on("error", (e: NodeJS.ErrnoException) => {
-    if (e.code === "EPIPE") process.exit(EXIT.ok);
-  });
+  // A reader that closes the pipe early (| head) ends the output quietly but keeps the run's exit code; any
+  // other failure of stdout (a full disk) is reported and makes the exit code non-zero. A notice that cannot be
+  // written to stderr never stops the work.
+  process.stdout.on("error", noteStdoutError);
+  process.stderr.on("error", () => undefined);
   const debug = argv.includes("--debug");
   let code: number = EXIT.ok;
   try {
@@ -28,6 +31,10 @@ export async function main(argv: string[]): Promise<void> {
     await program.parseAsync(argv);
   } catch (e) {
     code = exitCodeOf(e, debug);
+  }
+  if (stdoutState.error) {
+    process.stderr.write(`tallyfit: error: cannot write the output to standard output (${stdoutState.error}).\n`);
+    if (code === EXIT.ok || code === EXIT.flagged) code = EXIT.input;
   }
   process.exitCode = code;
 }

@@ -1,45 +1,39 @@
-// Writing results without ever destroying an earlier file: write a temporary
-// file in the same folder, then rename it into place (atomic on POSIX).
-import { randomBytes } from "node:crypto";
-import { rename, unlink, writeFile } from "node:fs/promises";
-import { basename, dirname, join } from "node:path";
+// Where a run's results go: files all or nothing (run-outputs.ts), the report
+// to stdout otherwise, with a failed stdout remembered for the exit code.
 import type { Diagnostics } from "../analysis/fit.js";
-import { InputError } from "../errors.js";
 import type { FitSummary } from "../infer/summary.js";
 import { svgToPng } from "../report/png.js";
 import { makeStyle, type Style, wantColor } from "../report/style.js";
 import { renderSvg } from "../report/svg.js";
 import { plotKind } from "./options.js";
+import type { RunOutputs } from "./run-outputs.js";
 import { notice } from "./terminal.js";
 
-export async function writeAtomic(path: string, content: string | Uint8Array): Promise<void> {
-  const tmp = join(dirname(path), `.${basename(path)}.tmp-${process.pid}-${randomBytes(4).toString("hex")}`);
-  try {
-    await writeFile(tmp, content, { flag: "wx" });
-    await rename(tmp, path);
-  } catch (e) {
-    await unlink(tmp).catch(() => undefined);
-    const code = (e as NodeJS.ErrnoException).code;
-    const why =
-      code === "ENOENT"
-        ? "the folder does not exist"
-        : code === "EACCES" || code === "EPERM"
-          ? "permission denied"
-          : code === "ENOSPC"
-            ? "the disk is full"
-            : code === "EISDIR"
-              ? "it is a folder"
-              : String(code ?? e);
-    throw new InputError(`cannot write ${path} (${why}); any earlier file there is unchanged.`);
-  }
-}
+/** Set when standard output failed: a closed pipe (EPIPE) is quiet, any other error is reported at exit. */
+export const stdoutState: { closed: boolean; error: string | null } = { closed: false, error: null };
 
-/** Write to stdout, resolving when flushed; a closed pipe (EPIPE) ends quietly. */
+/** Write to stdout, resolving when the data is handed on; after a failure further writes are dropped. */
 export function writeStdout(content: string): Promise<void> {
   return new Promise((resolve) => {
-    if (!process.stdout.write(content)) process.stdout.once("drain", () => resolve());
-    else resolve();
+    if (stdoutState.closed || stdoutState.error) return resolve();
+    try {
+      process.stdout.write(content, (e) => {
+        if (e) noteStdoutError(e);
+        resolve();
+      });
+    } catch (e) {
+      // A file on a full disk (stdout redirected to it) fails at once.
+      noteStdoutError(e as Error);
+      resolve();
+    }
   });
+}
+
+/** Remember a failure of stdout: a closed pipe quietly, anything else for the exit code. */
+export function noteStdoutError(e: Error): void {
+  const code = (e as NodeJS.ErrnoException).code;
+  if (code === "EPIPE") stdoutState.closed = true;
+  else stdoutState.error ??= code === "ENOSPC" ? "the disk is full" : String(code ?? e.message);
 }
 
 /** The text layout for a report: colour and width when it goes to a terminal. */
@@ -49,23 +43,23 @@ export function textLayout(opts: { output?: string; color: boolean }): { style: 
   return { style: makeStyle(color), width: toTTY ? Math.max(60, Math.min(process.stdout.columns ?? 100, 120)) : 100 };
 }
 
-/** The report to --output (atomically, with a notice) or to stdout. */
-export async function emit(opts: { output?: string; quiet?: boolean }, content: string): Promise<void> {
-  if (opts.output) {
-    await writeAtomic(opts.output, content);
-    notice(opts, `report written to ${opts.output}`);
-  } else await writeStdout(content);
+/**
+ * The end of a run: every file it writes, all or nothing (the report with
+ * --output among them), then the report on stdout when there is no --output.
+ */
+export async function finish(
+  outputs: RunOutputs,
+  opts: { output?: string; quiet?: boolean },
+  content: string,
+): Promise<void> {
+  if (opts.output) outputs.add(opts.output, "--output", content);
+  await outputs.commit();
+  for (const [path, what] of outputs.written()) notice(opts, `${what} written to ${path}`);
+  if (!opts.output) await writeStdout(content);
 }
 
-/** The diagnostic page as SVG or PNG (by the file name). */
-export async function writePlot(
-  opts: { quiet?: boolean },
-  path: string,
-  title: string,
-  d: Diagnostics,
-  summary: FitSummary,
-): Promise<void> {
+/** The diagnostic page as SVG or PNG (by the file name), queued with the run's outputs. */
+export function addPlot(outputs: RunOutputs, path: string, title: string, d: Diagnostics, summary: FitSummary): void {
   const svg = renderSvg({ title, rootogram: d.rootogram, fitted: d.fitted, residuals: d.residuals, summary });
-  await writeAtomic(path, plotKind(path) === "svg" ? svg : svgToPng(svg));
-  notice(opts, `picture written to ${path}`);
+  outputs.add(path, "--plot", plotKind(path) === "svg" ? svg : svgToPng(svg));
 }

@@ -7,7 +7,8 @@ import { renderCheckText } from "../../report/check-text.js";
 import { renderJson } from "../../report/json.js";
 import { loadDesigns } from "../input.js";
 import { type ModelOptions, oneOf, parseProbability, plotKind } from "../options.js";
-import { emit, textLayout, writePlot } from "../output.js";
+import { addPlot, finish, textLayout } from "../output.js";
+import { RunOutputs } from "../run-outputs.js";
 import { clearProgressLine, fittingProgress } from "../terminal.js";
 import { mergeChoice } from "./shared.js";
 
@@ -19,6 +20,9 @@ export async function runCheck(file: string | undefined, opts: CheckCliOptions):
   if (opts.family !== "poisson") throw new InputError("check always tests the Poisson model; leave out --family.");
   const testLevel = parseProbability("--alpha", opts.alpha, "0.05");
   const merge = mergeChoice(opts);
+  const outputs = new RunOutputs([file ?? "-"]);
+  if (opts.output) outputs.claim(opts.output, "--output");
+  if (opts.plot) outputs.claim(opts.plot, "--plot");
   const { designs, control } = await loadDesigns(file, opts, [opts.model[0]]);
   const design = designs[0];
   if (opts.plot) plotKind(opts.plot);
@@ -28,16 +32,10 @@ export async function runCheck(file: string | undefined, opts: CheckCliOptions):
   if (opts.plot) {
     // The picture's forest panel shows 95% Wald intervals (check has no interval options of its own).
     const summary = summarizeFit(design, poisson, { level: 0.95 });
-    await writePlot(
-      opts,
-      opts.plot,
-      `Poisson fit of ${summary.model} (check)`,
-      diagnosticsOf(design, poisson),
-      summary,
-    );
+    addPlot(outputs, opts.plot, `Poisson fit of ${summary.model} (check)`, diagnosticsOf(design, poisson), summary);
   }
   const content =
     opts.format === "json" ? renderJson({ schema: check.schema, check }) : renderCheckText(check, textLayout(opts));
-  await emit(opts, content);
+  await finish(outputs, opts, content);
   return check.flagged ? EXIT.flagged : EXIT.ok;
 }

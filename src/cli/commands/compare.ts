@@ -6,7 +6,8 @@ import { renderCompareText } from "../../report/compare-text.js";
 import { renderJson } from "../../report/json.js";
 import { loadDesigns } from "../input.js";
 import { type ModelOptions, oneOf } from "../options.js";
-import { emit, textLayout } from "../output.js";
+import { finish, textLayout } from "../output.js";
+import { RunOutputs } from "../run-outputs.js";
 import { mergeChoice } from "./shared.js";
 
 export type CompareCliOptions = ModelOptions & { family: string[] };
@@ -21,9 +22,11 @@ export async function runCompare(file: string | undefined, opts: CompareCliOptio
     );
   const families = given.map((f) => oneOf<FamilyName>("--family", f, ["poisson", "negbin", "quasipoisson"]));
   const merge = mergeChoice(opts);
+  const outputs = new RunOutputs([file ?? "-"]);
+  if (opts.output) outputs.claim(opts.output, "--output");
   const { designs, control } = await loadDesigns(file, opts, opts.model);
   const result = analyzeCompare(designs, families, control, merge);
   const content = opts.format === "json" ? renderJson(result) : renderCompareText(result, textLayout(opts));
-  await emit(opts, content);
+  await finish(outputs, opts, content);
   return EXIT.ok;
 }

@@ -14,8 +14,9 @@ import { renderJson } from "../../report/json.js";
 import { modelFileOf } from "../../report/model-file.js";
 import { loadDesigns } from "../input.js";
 import { type ModelOptions, oneOf, parsePositive, parseProbability, plotKind } from "../options.js";
-import { emit, textLayout, writeAtomic, writePlot } from "../output.js";
-import { clearProgressLine, fittingProgress, notice } from "../terminal.js";
+import { addPlot, finish, textLayout } from "../output.js";
+import { RunOutputs } from "../run-outputs.js";
+import { clearProgressLine, fittingProgress } from "../terminal.js";
 import { mergeChoice } from "./shared.js";
 
 const VERSION: string = JSON.parse(readFileSync(new URL("../../../../package.json", import.meta.url), "utf8")).version;
@@ -57,6 +58,11 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
   const testLevel = parseProbability("--alpha", opts.alpha, "0.05");
   const per = parsePositive("--per", opts.per);
   const merge = mergeChoice(opts);
+  // Every file this run writes is checked before the work and written all or nothing at the end.
+  const outputs = new RunOutputs([file ?? "-"]);
+  if (opts.output) outputs.claim(opts.output, "--output");
+  if (opts.saveModel) outputs.claim(opts.saveModel, "--save-model");
+  if (opts.plot) outputs.claim(opts.plot, "--plot");
   const alsoRead = opts.summaryBy ? [opts.summaryBy] : [];
   const { designs, control, labels, sha256 } = await loadDesigns(file, opts, [opts.model[0]], alsoRead);
   const design = designs[0];
@@ -75,7 +81,7 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
   if (onProgress) clearProgressLine();
   const wide = opts.format === "text" && !opts.output && process.stdout.isTTY && (process.stdout.columns ?? 0) >= 60;
   const diag = opts.plot || wide ? diagnosticsOf(design, countFit) : null;
-  if (opts.plot && diag) await writePlot(opts, opts.plot, `${summary.family} fit of ${summary.model}`, diag, summary);
+  if (opts.plot && diag) addPlot(outputs, opts.plot, `${summary.family} fit of ${summary.model}`, diag, summary);
   if (opts.summaryBy)
     summary.summary_by = summarizeGroups(
       opts.summaryBy,
@@ -95,8 +101,7 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
       { version: VERSION, sha256 },
       noEventsUpperLimits(design, countFit, summary),
     );
-    await writeAtomic(opts.saveModel, renderJson(model));
-    notice(opts, `model saved to ${opts.saveModel}`);
+    outputs.add(opts.saveModel, "--save-model", renderJson(model));
   }
   let content: string;
   if (opts.format === "json") content = renderJson(summary);
@@ -108,6 +113,6 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
       intervals,
       rootogram: wide && diag ? diag.rootogram : undefined,
     });
-  await emit(opts, content);
+  await finish(outputs, opts, content);
   return EXIT.ok;
 }

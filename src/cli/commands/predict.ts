@@ -16,7 +16,8 @@ import {
   parsePositiveInt,
   parseProbability,
 } from "../options.js";
-import { emit, textLayout } from "../output.js";
+import { finish, textLayout } from "../output.js";
+import { RunOutputs } from "../run-outputs.js";
 import { notice } from "../terminal.js";
 
 export interface PredictCliOptions extends IoOptions {
@@ -41,6 +42,8 @@ export async function runPredict(file: string | undefined, opts: PredictCliOptio
   const draws = parsePositiveInt("--draws", opts.draws);
   const seed = parseNonNegativeInt("--seed", opts.seed);
   const per = parsePositive("--per", opts.per);
+  const outputs = new RunOutputs([file ?? "-", opts.modelFile]);
+  if (opts.output) outputs.claim(opts.output, "--output");
   const saved = await loadModelFile(opts.modelFile);
   const path = file ?? "-";
   if (path === "-" && process.stdin.isTTY)
@@ -78,7 +81,7 @@ export async function runPredict(file: string | undefined, opts: PredictCliOptio
       labelHeading: saved.factors.map((f) => f.name).join(" "),
     });
   }
-  await emit(opts, content);
+  await finish(outputs, opts, content);
   if (result.n_flagged > 0)
     notice(opts, `${result.n_flagged} row${result.n_flagged === 1 ? "" : "s"} flagged above the ${flagLevel} limit`);
   return opts.failOnFlag && result.n_flagged > 0 ? EXIT.flagged : EXIT.ok;
