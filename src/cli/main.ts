@@ -5,7 +5,7 @@ import { CommanderError } from "commander";
 import { EXIT, FitError, InputError } from "../errors.js";
 import { buildProgram } from "./program.js";
 import { noteStdoutError, stdoutState } from "./output.js";
-import { stripAnsi } from "./terminal.js";
+import { plainMessage, stripAnsi } from "./terminal.js";
 
 export { buildProgram };
 
@@ -47,12 +47,12 @@ function exitCodeOf(e: unknown, debug: boolean): number {
       : EXIT.input;
   if (e instanceof InputError || e instanceof FitError) {
     const kind = e instanceof FitError ? "the model could not be fitted" : "error";
-    process.stderr.write(`tallyfit: ${kind}: ${stripAnsi(e.message)}\n`);
+    process.stderr.write(`tallyfit: ${kind}: ${plainMessage(stripAnsi(e.message))}\n`);
     return e.exitCode;
   }
   const err = e as Error;
   process.stderr.write(
-    `tallyfit: internal error: ${err?.message ?? String(e)}\nThis is a bug in tallyfit; please report it with the command you ran.${debug ? "" : " (--debug shows the stack trace)"}\n`,
+    `tallyfit: internal error: ${plainMessage(err?.message ?? String(e))}\nThis is a bug in tallyfit; please report it with the command you ran.${debug ? "" : " (--debug shows the stack trace)"}\n`,
   );
   if (debug && err?.stack) process.stderr.write(`${err.stack}\n`);
   return EXIT.internal;

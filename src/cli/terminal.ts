@@ -1,9 +1,16 @@
 // What goes to stderr: notices and progress lines (progress only on a
 // terminal, never with --quiet).
+import { escapeControls, shortenLongWords } from "../report/safe-text.js";
+
 const ESC = String.fromCharCode(27);
 
 export function notice(opts: { quiet?: boolean }, msg: string): void {
-  if (!opts.quiet) process.stderr.write(`tallyfit: ${msg}\n`);
+  if (!opts.quiet) process.stderr.write(`tallyfit: ${plainMessage(msg)}\n`);
+}
+
+/** A message fit for a terminal: no control characters from the data, no 10 MB words. */
+export function plainMessage(msg: string): string {
+  return escapeControls(shortenLongWords(msg));
 }
 
 /** Wipe the progress line before anything else is written to stderr. */

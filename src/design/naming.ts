@@ -43,10 +43,18 @@ export function editDistance(a: string, b: string): number {
 }
 
 /** The closest candidate (case-insensitive edit distance), when it is close enough to be a likely typo. */
+/** Names longer than this, and more candidates than SUGGEST_MAX_CANDIDATES, get no suggestion (bounded effort). */
+export const SUGGEST_MAX_LENGTH = 200;
+export const SUGGEST_MAX_CANDIDATES = 10_000;
+
 export function closestName(name: string, candidates: string[]): string | null {
+  if (name.length > SUGGEST_MAX_LENGTH || candidates.length > SUGGEST_MAX_CANDIDATES) return null;
   let best: string | null = null;
   let bestD = Infinity;
+  const limit = Math.max(1, Math.floor(name.length / 3));
   for (const c of candidates) {
+    // Only names within the accepted distance in length can be within it in edit distance.
+    if (Math.abs(c.length - name.length) > limit) continue;
     const d = editDistance(name.toLowerCase(), c.toLowerCase());
     if (d < bestD) {
       bestD = d;

@@ -2,13 +2,14 @@
 import type { FitSummary } from "../infer/summary.js";
 import { CAUTION } from "./fit-text.js";
 import { fixed, interval, pValue, profileInterval, sig } from "./format.js";
+import { escapeControls, markdownCell, markdownCode } from "./safe-text.js";
 
 export function renderFitMarkdown(s: FitSummary): string {
   const lv = `${+(s.level * 100).toFixed(2)}%`;
   const out: string[] = [];
-  out.push(`### ${s.family} rate model for \`${s.response}\``, "");
+  out.push(`### ${s.family} rate model for ${markdownCode(s.response)}`, "");
   out.push(
-    `Model \`${s.model}\`${s.exposure ? `, exposure \`${s.exposure}\`` : ""}; ${s.n_used} of ${s.n_rows} rows used.`,
+    `Model ${markdownCode(s.model)}${s.exposure ? `, exposure ${markdownCode(s.exposure)}` : ""}; ${s.n_used} of ${s.n_rows} rows used.`,
     "",
   );
   out.push(`| term | rate ratio | Wald ${lv} | profile ${lv} | p-value |`, "|---|---:|---:|---:|---:|");
@@ -17,7 +18,7 @@ export function renderFitMarkdown(s: FitSummary): string {
     const value = c.measure === "rate" ? `${sig(c.rate)} (a rate)` : sig(c.rate_ratio);
     const rr = c.status === "aliased" ? "aliased" : c.status === "no_events" ? "0 (no events)" : value;
     out.push(
-      `| ${c.term} | ${rr} | ${interval(c.wald)} | ${profileInterval(c.profile, c.profile_status)} | ${pValue(c.p_value)} |`,
+      `| ${markdownCell(c.term)} | ${rr} | ${interval(c.wald)} | ${profileInterval(c.profile, c.profile_status)} | ${pValue(c.p_value)} |`,
     );
   }
   out.push("");
@@ -27,17 +28,20 @@ export function renderFitMarkdown(s: FitSummary): string {
   );
   if (s.summary_by) {
     const g = s.summary_by;
-    out.push(`Observed and expected by \`${g.column}\` (O/E limits: ${g.method}):`, "");
-    out.push(`| ${g.column} | rows | observed | expected | O/E | O/E ${lv} |`, "|---|---:|---:|---:|---:|---:|");
+    out.push(`Observed and expected by ${markdownCode(g.column)} (O/E limits: ${g.method}):`, "");
+    out.push(
+      `| ${markdownCell(g.column)} | rows | observed | expected | O/E | O/E ${lv} |`,
+      "|---|---:|---:|---:|---:|---:|",
+    );
     for (const r of g.groups)
       out.push(
-        `| ${r.group} | ${r.rows} | ${fixed(r.observed, 0)} | ${fixed(r.expected, 1)} | ${r.ratio === null ? "–" : fixed(r.ratio, 3)} | ${r.ratio_ci ? interval(r.ratio_ci) : "–"} |`,
+        `| ${markdownCell(r.group)} | ${r.rows} | ${fixed(r.observed, 0)} | ${fixed(r.expected, 1)} | ${r.ratio === null ? "–" : fixed(r.ratio, 3)} | ${r.ratio_ci ? interval(r.ratio_ci) : "–"} |`,
       );
     out.push("");
   }
   if (s.warnings.length) {
     out.push("Warnings:", "");
-    s.warnings.forEach((w, i) => out.push(`${i + 1}. ${w}`));
+    s.warnings.forEach((w, i) => out.push(`${i + 1}. ${escapeControls(w)}`));
     out.push("");
   }
   out.push(`*${CAUTION}*`, "");

@@ -8,6 +8,7 @@ import { renderJson } from "../../report/json.js";
 import { loadDesigns } from "../input.js";
 import { type ModelOptions, oneOf, parseProbability, plotKind } from "../options.js";
 import { addPlot, finish, textLayout } from "../output.js";
+import { displaySafe } from "../../report/safe-text.js";
 import { RunOutputs } from "../run-outputs.js";
 import { clearProgressLine, fittingProgress } from "../terminal.js";
 import { mergeChoice } from "./shared.js";
@@ -35,7 +36,9 @@ export async function runCheck(file: string | undefined, opts: CheckCliOptions):
     addPlot(outputs, opts.plot, `Poisson fit of ${summary.model} (check)`, diagnosticsOf(design, poisson), summary);
   }
   const content =
-    opts.format === "json" ? renderJson({ schema: check.schema, check }) : renderCheckText(check, textLayout(opts));
+    opts.format === "json"
+      ? renderJson({ schema: check.schema, check })
+      : renderCheckText(displaySafe(check), textLayout(opts));
   await finish(outputs, opts, content);
   return check.flagged ? EXIT.flagged : EXIT.ok;
 }

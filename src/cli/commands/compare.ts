@@ -7,6 +7,7 @@ import { renderJson } from "../../report/json.js";
 import { loadDesigns } from "../input.js";
 import { type ModelOptions, oneOf } from "../options.js";
 import { finish, textLayout } from "../output.js";
+import { displaySafe } from "../../report/safe-text.js";
 import { RunOutputs } from "../run-outputs.js";
 import { mergeChoice } from "./shared.js";
 
@@ -26,7 +27,8 @@ export async function runCompare(file: string | undefined, opts: CompareCliOptio
   if (opts.output) outputs.claim(opts.output, "--output");
   const { designs, control } = await loadDesigns(file, opts, opts.model);
   const result = analyzeCompare(designs, families, control, merge);
-  const content = opts.format === "json" ? renderJson(result) : renderCompareText(result, textLayout(opts));
+  const content =
+    opts.format === "json" ? renderJson(result) : renderCompareText(displaySafe(result), textLayout(opts));
   await finish(outputs, opts, content);
   return EXIT.ok;
 }

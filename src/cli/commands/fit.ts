@@ -15,6 +15,7 @@ import { modelFileOf } from "../../report/model-file.js";
 import { loadDesigns } from "../input.js";
 import { type ModelOptions, oneOf, parsePositive, parseProbability, plotKind } from "../options.js";
 import { addPlot, finish, textLayout } from "../output.js";
+import { displaySafe } from "../../report/safe-text.js";
 import { RunOutputs } from "../run-outputs.js";
 import { clearProgressLine, fittingProgress } from "../terminal.js";
 import { mergeChoice } from "./shared.js";
@@ -108,7 +109,7 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
   else if (opts.format === "csv") content = renderFitCsv(summary);
   else if (opts.format === "markdown") content = renderFitMarkdown(summary);
   else
-    content = renderFitText(summary, {
+    content = renderFitText(displaySafe(summary), {
       ...textLayout(opts),
       intervals,
       rootogram: wide && diag ? diag.rootogram : undefined,

@@ -17,6 +17,7 @@ import {
   parseProbability,
 } from "../options.js";
 import { finish, textLayout } from "../output.js";
+import { displaySafe } from "../../report/safe-text.js";
 import { RunOutputs } from "../run-outputs.js";
 import { notice } from "../terminal.js";
 
@@ -75,10 +76,10 @@ export async function runPredict(file: string | undefined, opts: PredictCliOptio
     const all = Int32Array.from({ length: design.n }, (_, i) => i);
     const cols = saved.factors.map((f) => columnLabels(table, f.name, all));
     const labels = Array.from({ length: design.n }, (_, i) => cols.map((c) => c[i]).join(" "));
-    content = renderPredictText(result, groups, {
+    content = renderPredictText(displaySafe(result), displaySafe(groups), {
       ...textLayout(opts),
-      labels,
-      labelHeading: saved.factors.map((f) => f.name).join(" "),
+      labels: displaySafe(labels),
+      labelHeading: displaySafe(saved.factors.map((f) => f.name).join(" ")),
     });
   }
   await finish(outputs, opts, content);
