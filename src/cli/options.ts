@@ -73,7 +73,8 @@ export function oneOf<T extends string>(option: string, value: string, allowed: 
 }
 
 export function parseRefs(list: string[]): Record<string, string> {
-  const refs: Record<string, string> = {};
+  // No prototype: a column may be called "constructor" or "__proto__".
+  const refs: Record<string, string> = Object.create(null);
   for (const r of list) {
     const k = r.indexOf("=");
     if (k <= 0 || k === r.length - 1)
@@ -85,7 +86,7 @@ export function parseRefs(list: string[]): Record<string, string> {
 
 /** --order COL=L1,L2,… (repeatable) → the listed order of each factor's levels. */
 export function parseOrder(list: string[]): Record<string, string[]> {
-  const order: Record<string, string[]> = {};
+  const order: Record<string, string[]> = Object.create(null);
   for (const o of list) {
     const k = o.indexOf("=");
     const levels = o

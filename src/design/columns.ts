@@ -35,9 +35,15 @@ export function numericColumn(
   const why = col.reason.forced
     ? forcedWhy
     : `row ${col.reason.row} holds '${col.reason.value}', which is not a finite number`;
+  const value = col.reason.forced ? "" : col.reason.value;
+  const range = /^[+-]?(\d+\.?\d*|\.\d+)[eE][+-]?\d+$/.test(value)
+    ? " (it is beyond the range of a double-precision number)"
+    : "";
   const comma =
     !col.reason.forced && /^[+-]?\d*,\d+$/.test(col.reason.value)
       ? ` It looks like a decimal comma: add --decimal-comma${table.delimiter === "," ? " with the file's own --delimiter (such as ';')" : ""}.`
       : "";
-  throw new InputError(`${table.source}: the ${role} column '${col.name}' must be numeric, but ${why}.${comma}`);
+  throw new InputError(
+    `${table.source}: the ${role} column '${col.name}' must be numeric, but ${why}${range}.${comma}`,
+  );
 }

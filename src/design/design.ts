@@ -106,6 +106,9 @@ function alsoRows(rows: number[]): string {
   return rows.length > 1 ? ` (${rows.length} rows: ${firstRows(rows)})` : "";
 }
 
+/** The largest design: the information matrix is p × p and dense. */
+export const DESIGN_LIMITS = { columns: 2_000 } as const;
+
 /** Build the design matrix for a model on a table. */
 export function buildDesign(table: Table, model: Formula, options: DesignOptions = {}): Design {
   const get = (name: string, role: string): Column => lookupColumn(table, name, role);
@@ -125,6 +128,15 @@ export function buildDesign(table: Table, model: Formula, options: DesignOptions
     if (c.kind !== "factor")
       throw new InputError(
         `--ref ${name}=...: '${name}' is numeric; a reference level applies to a factor (add --factor ${name} to treat it as one).`,
+      );
+  }
+
+  for (const name of Object.keys(options.order ?? {})) {
+    const c = lookupColumn(table, name, "--order");
+    if (!vars.includes(name)) throw new InputError(`--order ${name}=...: '${name}' is not one of the model's terms.`);
+    if (c.kind !== "factor")
+      throw new InputError(
+        `--order ${name}=...: '${name}' is numeric; a level order applies to a factor (add --factor ${name} to treat it as one).`,
       );
   }
 
@@ -262,7 +274,10 @@ export function buildDesign(table: Table, model: Formula, options: DesignOptions
   vars.forEach((v, j) => {
     const c = varCols[j];
     if (c.kind !== "factor") return;
-    const coded = codeFactor(table, c, rowIndex, options.refs?.[v], options.order?.[v], yAll);
+    // Own properties only: a column may be called "constructor" or "__proto__".
+    const ref = options.refs && Object.hasOwn(options.refs, v) ? options.refs[v] : undefined;
+    const order = options.order && Object.hasOwn(options.order, v) ? options.order[v] : undefined;
+    const coded = codeFactor(table, c, rowIndex, ref, order, yAll);
     if (coded.notice) notices.push(coded.notice);
     factors.set(v, coded);
   });
@@ -274,6 +289,10 @@ export function buildDesign(table: Table, model: Formula, options: DesignOptions
     n,
   );
   const p = columns.length;
+  if (p > DESIGN_LIMITS.columns)
+    throw new InputError(
+      `${table.source}: the model has ${p} coefficients; tallyfit fits at most ${DESIGN_LIMITS.columns} (their information matrix is dense). A factor with that many levels is better aggregated or left out.`,
+    );
   if (p === 0)
     throw new InputError("--model: the model has no terms and no intercept; add a term or drop --no-intercept.");
   const nEff = weights ? weights.reduce((a, b) => a + b, 0) : n;

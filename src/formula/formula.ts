@@ -18,12 +18,24 @@ export interface Formula {
 
 type Tok = { kind: "name" | "op" | "one" | "end"; value: string; pos: number };
 
+/** Limits that keep parsing bounded in time and memory; each refusal says which was reached. */
+export const FORMULA_LIMITS = { length: 10_000, nesting: 100, terms: 1_000 } as const;
+
 function fail(text: string, pos: number, what: string): never {
-  const caret = `${" ".repeat(Math.max(0, pos))}^`;
-  throw new InputError(`--model: ${what}\n  ${text}\n  ${caret}`);
+  // A long model string is shown as a window around the fault, so the message stays short.
+  const from = Math.max(0, pos - 40);
+  const to = Math.min(text.length, pos + 40);
+  const shown = `${from > 0 ? "…" : ""}${text.slice(from, to)}${to < text.length ? "…" : ""}`;
+  const caret = `${" ".repeat(Math.max(0, pos - from + (from > 0 ? 1 : 0)))}^`;
+  throw new InputError(`--model: ${what}\n  ${shown}\n  ${caret}`);
 }
 
+const NAME = /[A-Za-z_.][A-Za-z0-9_.]*/y;
+const NUMBER = /\d+(?:\.\d*)?/y;
+
 function tokenize(text: string): Tok[] {
+  if (text.length > FORMULA_LIMITS.length)
+    fail(text, FORMULA_LIMITS.length, `the model string is longer than ${FORMULA_LIMITS.length} characters`);
   const toks: Tok[] = [];
   let i = 0;
   while (i < text.length) {
@@ -45,13 +57,15 @@ function tokenize(text: string): Tok[] {
       i = end + 1;
       continue;
     }
-    const m = /^[A-Za-z_.][A-Za-z0-9_.]*/.exec(text.slice(i));
+    NAME.lastIndex = i;
+    const m = NAME.exec(text);
     if (m) {
       toks.push({ kind: "name", value: m[0], pos: i });
       i += m[0].length;
       continue;
     }
-    const num = /^\d+(?:\.\d*)?/.exec(text.slice(i));
+    NUMBER.lastIndex = i;
+    const num = NUMBER.exec(text);
     if (num) {
       if (num[0] === "1") {
         toks.push({ kind: "one", value: "1", pos: i });
@@ -92,7 +106,8 @@ function union(a: TermSet, b: TermSet): TermSet {
   return out;
 }
 
-function interact(a: TermSet, b: TermSet): TermSet {
+function interact(a: TermSet, b: TermSet, tooMany: () => never): TermSet {
+  if (a.length * b.length > FORMULA_LIMITS.terms) tooMany();
   const out: TermSet = [];
   for (const s of a)
     for (const t of b) {
@@ -124,6 +139,13 @@ export function parseFormula(text: string, options: { intercept?: boolean } = {}
   if (!(tilde.kind === "op" && tilde.value === "~")) fail(text, tilde.pos, "expected '~' after the count column");
 
   let sawOne = false;
+  let depth = 0;
+  const tooMany = (): never =>
+    fail(
+      text,
+      toks[Math.max(0, k - 1)].pos,
+      `the model expands to more than ${FORMULA_LIMITS.terms} terms; write the interactions you need with ':' instead of '*'`,
+    );
   const atom = (): TermSet => {
     const t = next();
     if (t.kind === "name") {
@@ -140,7 +162,10 @@ export function parseFormula(text: string, options: { intercept?: boolean } = {}
       return [[]];
     }
     if (t.kind === "op" && t.value === "(") {
+      if (++depth > FORMULA_LIMITS.nesting)
+        fail(text, t.pos, `parentheses nest more than ${FORMULA_LIMITS.nesting} deep`);
       const inner = sum();
+      depth--;
       const close = next();
       if (!(close.kind === "op" && close.value === ")"))
         fail(text, close.pos, "expected ')' to close the '(' opened earlier");
@@ -153,7 +178,7 @@ export function parseFormula(text: string, options: { intercept?: boolean } = {}
     let acc = atom();
     while (peek().kind === "op" && peek().value === ":") {
       next();
-      acc = interact(acc, atom());
+      acc = interact(acc, atom(), tooMany);
     }
     return acc;
   };
@@ -162,7 +187,8 @@ export function parseFormula(text: string, options: { intercept?: boolean } = {}
     while (peek().kind === "op" && peek().value === "*") {
       next();
       const r = inter();
-      acc = union(union(acc, r), interact(acc, r));
+      acc = union(union(acc, r), interact(acc, r, tooMany));
+      if (acc.length > FORMULA_LIMITS.terms) tooMany();
     }
     return acc;
   };
@@ -171,6 +197,7 @@ export function parseFormula(text: string, options: { intercept?: boolean } = {}
     while (peek().kind === "op" && peek().value === "+") {
       next();
       acc = union(acc, product());
+      if (acc.length > FORMULA_LIMITS.terms) tooMany();
     }
     return acc;
   };

@@ -5,10 +5,15 @@ export const DEFAULT_NA = ["", "NA", "NaN", "null", "."];
 // A decimal number: optional sign, digits with an optional fraction, optional exponent.
 const DECIMAL = /^[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?$/;
 
-/** Parse one trimmed field as a finite decimal number, or return NaN. */
+/**
+ * Parse one trimmed field as a finite decimal number, or return NaN. A number
+ * too small for a double (1e-400, which would read as 0) is NaN too, so the
+ * message that follows names it as written.
+ */
 export function parseDecimal(s: string): number {
   if (!DECIMAL.test(s)) return NaN;
   const v = Number(s);
+  if (v === 0 && /[1-9]/.test(s.replace(/[eE].*$/, ""))) return NaN;
   return Number.isFinite(v) ? v : NaN;
 }
 

@@ -54,6 +54,27 @@ function grow<T extends Float64Array | Int32Array>(a: T, need: number, estimate 
   return next;
 }
 
+/** Limits that keep reading bounded in memory; each refusal names the limit. */
+export const READER_LIMITS = { lineBytes: 64_000_000, columns: 100_000 } as const;
+
+/** Refuse, by their first bytes, files that are not UTF-8 text: gzip, UTF-16 (with or without a byte-order mark). */
+function checkTextKind(b: Uint8Array, source: string): void {
+  if (b[0] === 0x1f && b[1] === 0x8b)
+    throw new InputError(
+      `${source}: a gzip-compressed file, not CSV text; decompress it first (for example gunzip -c FILE | tallyfit … -).`,
+    );
+  const utf16 =
+    (b[0] === 0xff && b[1] === 0xfe) ||
+    (b[0] === 0xfe && b[1] === 0xff) ||
+    (b.length >= 4 &&
+      ((b[0] !== 0 && b[1] === 0 && b[2] !== 0 && b[3] === 0) ||
+        (b[0] === 0 && b[1] !== 0 && b[2] === 0 && b[3] !== 0)));
+  if (utf16)
+    throw new InputError(
+      `${source}: UTF-16 text, not UTF-8; save it as UTF-8 (for example with iconv -f utf-16 -t utf-8) and run again.`,
+    );
+}
+
 /** Incremental reader: feed() chunks of bytes, then finish(). */
 export class ColumnReader {
   private header: string[] | null = null;
@@ -93,6 +114,7 @@ export class ColumnReader {
   /** Process every complete record in chunk (plus any carried bytes); keep the incomplete tail. */
   feed(chunk: Uint8Array, last = false): void {
     this.bytesRead += chunk.length;
+    if (this.bytesRead === chunk.length) checkTextKind(chunk, this.o.source);
     let buf: Uint8Array;
     if (this.carry?.length) {
       buf = new Uint8Array(this.carry.length + chunk.length);
@@ -113,6 +135,15 @@ export class ColumnReader {
     if (!last) {
       upto = buf.lastIndexOf(LF) + 1;
     }
+    const nul = buf.subarray(this.validated).indexOf(0);
+    if (nul >= 0) {
+      const at = this.validated + nul;
+      let line = this.line;
+      for (let k = 0; k < at; k++) if (buf[k] === LF) line++;
+      throw new InputError(
+        `${this.o.source}, line ${line}: the file holds a NUL byte (offset ${this.bufferBase + at}), so it is not a text file; export the data as CSV text in UTF-8.`,
+      );
+    }
     const bad = firstInvalidUtf8(buf.subarray(this.validated, upto));
     if (bad >= 0) {
       const at = this.validated + bad;
@@ -123,6 +154,10 @@ export class ColumnReader {
       );
     }
     const consumed = this.records(buf, last);
+    if (buf.length - consumed > READER_LIMITS.lineBytes)
+      throw new InputError(
+        `${this.o.source}, line ${this.line}: a line longer than ${READER_LIMITS.lineBytes / 1e6} MB, so the file is probably not CSV text (or a quote is never closed).`,
+      );
     this.validated = Math.max(0, upto - consumed);
     // Copies, never views: the caller may refill its buffer.
     this.carry = consumed < buf.length ? copyBytes(buf.subarray(consumed)) : null;
@@ -239,6 +274,10 @@ export class ColumnReader {
       fe = this.fieldEnd,
       fq = this.fieldQuoted;
     if (this.header === null) {
+      if (nf > READER_LIMITS.columns)
+        throw new InputError(
+          `${this.o.source}, row 1: the header has ${nf} columns; tallyfit reads at most ${READER_LIMITS.columns}.`,
+        );
       const header: string[] = [];
       for (let j = 0; j < nf; j++) header.push(this.text(b, fs[j], fe[j], fq[j]).trim());
       this.header = header;

@@ -221,6 +221,62 @@ export const CASES: ErrorCase[] = [
     code: 3,
     message: /the model could not be fitted: IRLS did not converge in 1 iterations/,
   },
+  {
+    mistake: "limit: parentheses nested over 100 deep",
+    content: ok,
+    args: ["--model", `falls ~ ${"(".repeat(101)}ward${")".repeat(101)}`],
+    code: 2,
+    message: /--model: parentheses nest more than 100 deep/,
+  },
+  {
+    mistake: "limit: a model of over 1,000 terms",
+    content: ok,
+    args: ["--model", `falls ~ ${Array.from({ length: 11 }, (_, i) => `v${i}`).join("*")}`],
+    code: 2,
+    message: /--model: the model expands to more than 1000 terms/,
+  },
+  {
+    mistake: "limit: a model string over 10,000 characters",
+    content: ok,
+    args: ["--model", `falls ~ ${"ward+".repeat(2100)}ward`],
+    code: 2,
+    message: /--model: the model string is longer than 10000 characters/,
+  },
+  {
+    mistake: "limit: over 2,000 coefficients",
+    content: `g,falls\n${Array.from({ length: 2100 }, (_, i) => `l${i},${i % 3}`).join("\n")}\n`,
+    args: ["--model", "falls ~ g"],
+    code: 2,
+    message: /the model has 2100 coefficients; tallyfit fits at most 2000/,
+  },
+  {
+    mistake: "limit: a line over 64 MB (or a file with no line breaks)",
+    content: new Uint8Array(65_000_000).fill(0x61),
+    args: M,
+    code: 2,
+    message: /a line longer than 64 MB/,
+  },
+  {
+    mistake: "NUL bytes (not a text file)",
+    content: "ward,beds,falls\na,1\u0000,2\n",
+    args: M,
+    code: 2,
+    message: /line 2: the file holds a NUL byte/,
+  },
+  {
+    mistake: "UTF-16 text",
+    content: new Uint8Array(Buffer.from("\ufeffward,beds,falls\n", "utf16le")),
+    args: M,
+    code: 2,
+    message: /UTF-16 text, not UTF-8/,
+  },
+  {
+    mistake: "gzip-compressed file",
+    content: new Uint8Array([0x1f, 0x8b, 8, 0, 0, 0, 0, 0]),
+    args: M,
+    code: 2,
+    message: /a gzip-compressed file, not CSV text/,
+  },
 ];
 
 export function runCase(c: ErrorCase) {

@@ -21,6 +21,9 @@ import { displaySafe } from "../../report/safe-text.js";
 import { RunOutputs } from "../run-outputs.js";
 import { notice } from "../terminal.js";
 
+/** The most draws of the estimates behind a prediction interval (time and memory grow with them). */
+export const PREDICT_MAX_DRAWS = 100_000;
+
 export interface PredictCliOptions extends IoOptions {
   modelFile: string;
   level: string;
@@ -41,6 +44,10 @@ export async function runPredict(file: string | undefined, opts: PredictCliOptio
   const level = parseProbability("--level", opts.level, "0.95");
   const flagLevel = parseProbability("--flag-level", opts.flagLevel, "0.99");
   const draws = parsePositiveInt("--draws", opts.draws);
+  if (draws > PREDICT_MAX_DRAWS)
+    throw new InputError(
+      `--draws must be at most ${PREDICT_MAX_DRAWS.toLocaleString("en")} (got '${opts.draws}'); the default 2,000 is plenty for limits at the 0.99 level.`,
+    );
   const seed = parseNonNegativeInt("--seed", opts.seed);
   const per = parsePositive("--per", opts.per);
   const outputs = new RunOutputs([file ?? "-", opts.modelFile]);
