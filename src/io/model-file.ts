@@ -1,7 +1,9 @@
 // The model file (schema tallyfit.model/1): everything `predict` needs, as
 // `fit --save-model` writes it; reading one, with clear errors for another
 // schema or a damaged file.
+import { readFileSync } from "node:fs";
 import { readFile } from "node:fs/promises";
+import { createRequire } from "node:module";
 import { InputError } from "../errors.js";
 
 export interface ModelFile {
@@ -64,7 +66,49 @@ export function parseModelFile(text: string, source: string): ModelFile {
   for (const k of ["family", "model", "response", "terms", "factors", "numeric", "coefficients", "covariance"] as const)
     if (m[k] === undefined)
       throw new InputError(`${source}: the model file is incomplete (no "${k}"); refit and save it again.`);
+  const damaged = schemaFault(m) ?? consistencyFault(m as ModelFile);
+  if (damaged) throw new InputError(`${source}: the model file is damaged: ${damaged}; refit and save it again.`);
   return m as ModelFile;
+}
+
+// The model file's own JSON Schema (schemas/model-1.schema.json), checked by ajv, loaded on first use.
+type Validate = ((data: unknown) => boolean) & { errors?: { instancePath: string; message?: string }[] | null };
+let validateModel: Validate | null = null;
+
+/** The first place where the file breaks its JSON Schema, as "field: what is wrong", or null. */
+function schemaFault(m: unknown): string | null {
+  if (validateModel === null) {
+    const require = createRequire(import.meta.url);
+    const Ajv = require("ajv") as new (o: object) => { compile(s: object): Validate };
+    const schema = JSON.parse(readFileSync(new URL("../../../schemas/model-1.schema.json", import.meta.url), "utf8"));
+    validateModel = new Ajv({ allErrors: false, strict: false }).compile(schema);
+  }
+  if (validateModel(m)) return null;
+  const e = validateModel.errors?.[0];
+  return `${e?.instancePath || "(top level)"} ${e?.message ?? "does not match the format"}`;
+}
+
+/** What the schema cannot say: the covariance matches the estimated coefficients, the numbers are usable. */
+function consistencyFault(m: ModelFile): string | null {
+  const estimated = m.coefficients.filter((c) => c.status === "estimated");
+  for (const c of estimated)
+    if (typeof c.estimate !== "number" || !Number.isFinite(c.estimate))
+      return `/coefficients: '${c.term}' is estimated but its estimate is not a number`;
+  const q = m.covariance.terms.length;
+  if (q !== estimated.length || m.covariance.terms.some((t, k) => t !== estimated[k].term))
+    return "/covariance/terms do not match the estimated coefficients";
+  if (m.covariance.matrix.length !== q || m.covariance.matrix.some((row) => row.length !== q))
+    return `/covariance/matrix is not ${q} × ${q}`;
+  for (let r = 0; r < q; r++)
+    if (!(m.covariance.matrix[r][r] > 0))
+      return `/covariance/matrix has a variance that is not positive (row ${r + 1})`;
+  if (m.family === "negbin" && !(typeof m.alpha === "number" && m.alpha >= 0))
+    return "/alpha must be a number ≥ 0 for the negative binomial";
+  if (!(m.dispersion_phi > 0)) return "/dispersion_phi must be positive";
+  for (const f of m.factors)
+    if (!f.levels.includes(f.reference))
+      return `/factors: the reference '${f.reference}' is not a level of '${f.name}'`;
+  return null;
 }
 
 export async function loadModelFile(path: string): Promise<ModelFile> {
