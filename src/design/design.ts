@@ -1,12 +1,13 @@
 // Design stage: model terms + typed columns → a row-sparse design matrix with
 // treatment (reference-level) coding, an offset, weights and the rows used.
 import { InputError } from "../errors.js";
-import type { Column, FactorColumn, Table } from "../io/table.js";
+import type { Column, Table } from "../io/table.js";
 import { fileRow } from "../io/table.js";
 import type { Formula } from "../formula/formula.js";
 import { termVariables } from "../formula/formula.js";
+import { parseDecimal } from "../io/dialect.js";
 import { lookupColumn, numericColumn } from "./columns.js";
-import { closestName, listNames, naturalCompare } from "./naming.js";
+import { codeFactor, datesAmong, type FactorCoding } from "./factor-coding.js";
 import { exposureError, exposureRule, logOffset } from "./offset.js";
 
 export interface DesignOptions {
@@ -25,12 +26,7 @@ export interface DesignOptions {
   complete?: string[];
 }
 
-export interface FactorCoding {
-  name: string;
-  /** Levels present among the rows used, in natural order. */
-  levels: string[];
-  reference: string;
-}
+export type { FactorCoding } from "./factor-coding.js";
 
 export type ColumnKind = "intercept" | "numeric" | "indicator" | "slope";
 
@@ -106,8 +102,8 @@ function alsoRows(rows: number[]): string {
   return rows.length > 1 ? ` (${rows.length} rows: ${firstRows(rows)})` : "";
 }
 
-/** The largest design: the information matrix is p × p and dense. */
-export const DESIGN_LIMITS = { columns: 2_000 } as const;
+/** The largest design (the information matrix is p × p and dense), and the largest count or weight (2^53 ≈ 9e15 holds whole numbers exactly). */
+export const DESIGN_LIMITS = { columns: 2_000, count: 1e15 } as const;
 
 /** Build the design matrix for a model on a table. */
 export function buildDesign(table: Table, model: Formula, options: DesignOptions = {}): Design {
@@ -174,12 +170,13 @@ export function buildDesign(table: Table, model: Formula, options: DesignOptions
   const badCount: number[] = [];
   const badExposure: number[] = [];
   const negWeight: number[] = [];
+  const fractionalWeights: number[] = [];
   let zeroExp = 0;
   let zeroW = 0;
   for (let i = 0; i < N; i++) {
     if (!usable[i]) continue;
     const y = yAll[i];
-    if (y < 0 || !Number.isInteger(y)) {
+    if (y < 0 || !Number.isInteger(y) || y > DESIGN_LIMITS.count) {
       badCount.push(i);
       continue;
     }
@@ -197,10 +194,11 @@ export function buildDesign(table: Table, model: Formula, options: DesignOptions
     }
     if (wAll) {
       const w = wAll[i];
-      if (w < 0) {
+      if (w < 0 || w > DESIGN_LIMITS.count) {
         negWeight.push(i);
         continue;
       }
+      if (!Number.isInteger(w)) fractionalWeights.push(i);
       if (w === 0) {
         usable[i] = 0;
         zeroW++;
@@ -210,7 +208,7 @@ export function buildDesign(table: Table, model: Formula, options: DesignOptions
   if (badCount.length > 0) {
     const i = badCount[0];
     throw new InputError(
-      `${table.source}, row ${fileRow(i)}, column '${model.response}': the count is ${yAll[i]}; counts must be whole numbers ≥ 0${alsoRows(badCount.map(fileRow))}.`,
+      `${table.source}, row ${fileRow(i)}, column '${model.response}': the count is ${yAll[i]}; counts must be whole numbers ≥ 0${yAll[i] > DESIGN_LIMITS.count ? ` and at most ${DESIGN_LIMITS.count.toExponential(0)} (beyond that a double holds no exact whole number)` : ""}${alsoRows(badCount.map(fileRow))}.`,
     );
   }
   if (badExposure.length > 0)
@@ -225,7 +223,7 @@ export function buildDesign(table: Table, model: Formula, options: DesignOptions
   if (negWeight.length > 0) {
     const i = negWeight[0];
     throw new InputError(
-      `${table.source}, row ${fileRow(i)}, column '${options.weights}': weight ${wAll![i]}; frequency weights cannot be negative${alsoRows(negWeight.map(fileRow))}.`,
+      `${table.source}, row ${fileRow(i)}, column '${options.weights}': weight ${wAll![i]}; frequency weights cannot be negative or above ${DESIGN_LIMITS.count.toExponential(0)}${alsoRows(negWeight.map(fileRow))}.`,
     );
   }
 
@@ -297,9 +295,25 @@ export function buildDesign(table: Table, model: Formula, options: DesignOptions
     throw new InputError("--model: the model has no terms and no intercept; add a term or drop --no-intercept.");
   const nEff = weights ? weights.reduce((a, b) => a + b, 0) : n;
   if (p > nEff) {
+    const dates = datesAmong(factors);
     throw new InputError(
-      `${table.source}: the model has ${p} coefficients but only ${n} rows are used; a model needs fewer coefficients than rows. Drop terms or interactions.`,
+      `${table.source}: the model has ${p} coefficients but only ${n} rows are used; a model needs fewer coefficients than rows${dates ? ` ('${dates}' holds dates, read as a factor with one coefficient per date: a date is not a term; to model time, add a numeric column such as the week number)` : ""}. Drop terms or interactions.`,
     );
+  }
+  if (fractionalWeights.length > 0)
+    notices.push(
+      `the weights column '${options.weights}' holds fractional values (row ${fileRow(fractionalWeights[0])}: ${wAll![fractionalWeights[0]]}); frequency weights count rows, so the standard errors treat each weight as that many rows`,
+    );
+  for (const v of vars) {
+    const c = table.columns.get(v);
+    const f = factors.get(v);
+    if (c?.kind === "factor" && f && !c.reason.forced) {
+      const numbers = f.coding.levels.filter((l) => !Number.isNaN(parseDecimal(l))).length;
+      if (numbers >= f.coding.levels.length / 2)
+        notices.push(
+          `'${v}' is read as categorical (${f.coding.levels.length} levels) because row ${c.reason.row} holds '${c.reason.value}', which is not a finite decimal number, while most of its values are numbers; fix that value, or give --factor ${v} to make it categorical on purpose`,
+        );
+    }
   }
   return {
     source: table.source,
@@ -423,58 +437,4 @@ export function layoutColumns(
     }
   });
   return { columns, slots, termColumns, interceptCol };
-}
-
-function codeFactor(
-  table: Table,
-  c: FactorColumn,
-  rowIndex: Int32Array,
-  ref: string | undefined,
-  order: string[] | undefined,
-  y: Float64Array,
-): { coding: FactorCoding; codes: Int32Array; notice: string | null } {
-  const present = new Uint8Array(c.levels.length);
-  const events = new Float64Array(c.levels.length);
-  for (let k = 0; k < rowIndex.length; k++) {
-    const code = c.codes[rowIndex[k]];
-    present[code] = 1;
-    events[code] += y[rowIndex[k]];
-  }
-  const natural = c.levels.filter((_, i) => present[i]).sort(naturalCompare);
-  for (const l of order ?? [])
-    if (!natural.includes(l)) {
-      const close = closestName(l, natural);
-      throw new InputError(
-        `--order ${c.name}=…: '${l}' is not a level of '${c.name}' among the rows used.${close ? ` Did you mean '${close}'?` : ""} The levels are ${listNames(natural, 30)}.`,
-      );
-    }
-  const levels = order ? [...order, ...natural.filter((l) => !order.includes(l))] : natural;
-  if (ref !== undefined && !levels.includes(ref)) {
-    const close = closestName(ref, levels);
-    throw new InputError(
-      `--ref ${c.name}=${ref}: '${ref}' is not a level of '${c.name}' among the rows used.${close ? ` Did you mean '${close}'?` : ""} The levels are ${listNames(levels, 30)}.`,
-    );
-  }
-  if (levels.length < 2) {
-    throw new InputError(
-      `${table.source}: factor '${c.name}' has a single level ('${levels[0]}') among the rows used, so it cannot explain any difference; remove it from the model.`,
-    );
-  }
-  // Default reference: the first level (in the order above) that has events; a level without events would make
-  // every rate ratio against it infinite. An explicit --ref is kept as given (the fit then says why it fails).
-  const eventsOf = (l: string) => events[c.levels.indexOf(l)];
-  let reference = ref ?? levels[0];
-  let notice: string | null = null;
-  if (ref === undefined && !(eventsOf(levels[0]) > 0)) {
-    const first = levels.find((l) => eventsOf(l) > 0);
-    if (first !== undefined) {
-      reference = first;
-      notice = `the first level of '${c.name}', '${levels[0]}', has no events, so '${first}' is the reference level (choose another with --ref ${c.name}=LEVEL)`;
-    }
-  }
-  const pos = new Map(levels.map((l, i) => [l, i]));
-  const remap = c.levels.map((l) => pos.get(l) ?? -1);
-  const codes = new Int32Array(rowIndex.length);
-  for (let k = 0; k < rowIndex.length; k++) codes[k] = remap[c.codes[rowIndex[k]]];
-  return { coding: { name: c.name, levels, reference }, codes, notice };
 }

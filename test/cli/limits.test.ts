@@ -20,7 +20,10 @@ const file = (name: string, content: string | Uint8Array) => {
   writeFileSync(p, content);
   return p;
 };
-const PROTO = file("proto.csv", "constructor,__proto__,toString,y\na,b,1,3\nb,a,2,5\na,a,3,2\nb,b,1,4\n");
+const PROTO = file(
+  "proto.csv",
+  "constructor,__proto__,toString,y\na,b,1,3\nb,a,2,5\na,a,3,2\nb,b,1,4\na,b,2,6\nb,a,3,1\na,a,1,2\nb,b,2,3\n",
+);
 
 test("columns named like built-in object properties are ordinary columns", () => {
   const r = runCli([

@@ -26,6 +26,11 @@ export async function runCompare(file: string | undefined, opts: CompareCliOptio
   const outputs = new RunOutputs([file ?? "-"]);
   if (opts.output) outputs.claim(opts.output, "--output");
   const { designs, control } = await loadDesigns(file, opts, opts.model);
+  const responses = [...new Set(designs.map((d) => d.model.response))];
+  if (responses.length > 1)
+    throw new InputError(
+      `compare needs the same count column in every model (got ${responses.map((r) => `'${r}'`).join(" and ")}); models of different counts cannot be compared by their likelihoods.`,
+    );
   const result = analyzeCompare(designs, families, control, merge);
   const content =
     opts.format === "json" ? renderJson(result) : renderCompareText(displaySafe(result), textLayout(opts));

@@ -245,6 +245,6 @@ export function driftWarnings(y: Float64Array, mu: Float64Array, inFit: Uint8Arr
   return tiny === 0
     ? []
     : [
-        `${tiny} row${tiny === 1 ? " has" : "s have"} a fitted mean below 1e-10: some estimates drift toward infinity (a group with no events that the model fits exactly). If it is the reference level of a factor, choose another with --ref.`,
+        `${tiny} row${tiny === 1 ? " has" : "s have"} a fitted mean below 1e-10: some estimates drift toward infinity, because the rows with zero counts can be fitted exactly (a level or cell with no events, or a range of a numeric term where every count is 0: separation). The estimates and Wald intervals of the terms involved are not meaningful; if it is the reference level of a factor, choose another with --ref.`,
       ];
 }
