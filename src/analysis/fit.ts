@@ -183,7 +183,10 @@ export async function analyzeFitParallel(design: Design, o: AnalysisOptions): Pr
     o.onProgress?.(
       `refitting for ${[nProfiles ? `${nProfiles} profile limits` : "", nTerms ? `${nTerms} term tests` : ""].filter(Boolean).join(" and ")}…`,
     );
-  return assemble(design, o, fitted, plan, await runJobs(plan));
+  const onJob = o.onProgress
+    ? (k: number, n: number) => o.onProgress?.(`refits: job ${k} of ${n} started…`)
+    : undefined;
+  return assemble(design, o, fitted, plan, await runJobs(plan, undefined, false, onJob));
 }
 
 /**

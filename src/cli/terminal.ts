@@ -28,10 +28,36 @@ export function readingProgress(): (bytes: number, rows: number) => void {
   };
 }
 
-/** Progress of the fit on stderr: only for large data on a terminal, never with --quiet. */
-export function fittingProgress(opts: { quiet?: boolean }, rows: number): ((message: string) => void) | undefined {
-  if (opts.quiet || !process.stderr.isTTY || rows < 100000) return undefined;
-  return (message) => process.stderr.write(`\r${ESC}[Ktallyfit: ${message}`);
+/**
+ * Progress of the fit on stderr, never with --quiet. On a terminal, a line
+ * rewritten in place for large data; elsewhere (a log file, a CI job), once
+ * the work has run for 2 seconds, a plain line at most every 5 seconds, so a
+ * long run is never silent and a short one prints nothing.
+ */
+export function fittingProgress(
+  opts: { quiet?: boolean },
+  rows: number,
+  clock: () => number = Date.now,
+  onTerminal: boolean = process.stderr.isTTY === true,
+): ((message: string) => void) | undefined {
+  if (opts.quiet) return undefined;
+  if (onTerminal) {
+    if (rows < 100000) return undefined;
+    return (message) => process.stderr.write(`\r${ESC}[Ktallyfit: ${message}`);
+  }
+  const start = clock();
+  let last = -Infinity;
+  return (message) => {
+    const now = clock();
+    if (now - start < 2000 || now - last < 5000) return;
+    last = now;
+    process.stderr.write(`tallyfit: ${message}\n`);
+  };
+}
+
+/** Whether fittingProgress rewrites a terminal line (which then needs clearing). */
+export function progressOnTerminal(): boolean {
+  return process.stderr.isTTY === true;
 }
 
 /** Colour codes removed, for messages that must stay plain. */

@@ -36,11 +36,18 @@ export function runJob(plan: InferencePlan, job: InferenceJob, workspace?: Works
 }
 
 /** Take jobs from the shared counter until none are left; results by job index. */
-export function takeJobs(plan: InferencePlan, counter: Int32Array, out: Map<number, JobResult>): void {
+export function takeJobs(
+  plan: InferencePlan,
+  counter: Int32Array,
+  out: Map<number, JobResult>,
+  onJob?: (taken: number, total: number) => void,
+): void {
   const workspace: Workspace = {};
   for (;;) {
     const j = Atomics.add(counter, 0, 1);
     if (j >= plan.jobs.length) return;
+    // Jobs taken by both threads so far (the shared counter), for progress.
+    onJob?.(Math.min(j + 1, plan.jobs.length), plan.jobs.length);
     out.set(j, runJob(plan, plan.jobs[j], workspace));
   }
 }
@@ -82,6 +89,7 @@ export async function runJobs(
   plan: InferencePlan,
   useWorker = wantWorker(plan),
   workerOnly = false,
+  onJob?: (taken: number, total: number) => void,
 ): Promise<JobResult[]> {
   const out = new Map<number, JobResult>();
   const counter = new Int32Array(new SharedArrayBuffer(4));
@@ -101,7 +109,7 @@ export async function runJobs(
     }
   }
   try {
-    if (!(workerOnly && reply)) takeJobs(plan, counter, out);
+    if (!(workerOnly && reply)) takeJobs(plan, counter, out, onJob);
   } catch (e) {
     // This thread's failure decides; do not wait for the worker's jobs.
     if (worker) void worker.terminate();

@@ -3,15 +3,10 @@
 import { createHash } from "node:crypto";
 import { open, stat } from "node:fs/promises";
 import { InputError } from "../errors.js";
-import { lazyModule } from "../math/lazy.js";
 import { DEFAULT_NA, defaultDelimiter } from "./dialect.js";
-import { decodeUtf8, unreadable } from "./source-bytes.js";
+import { unreadable } from "./source-bytes.js";
 import type { Table } from "./table.js";
 import { ColumnReader } from "./tokenizer.js";
-
-// csv-parse reads the records that predict's CSV output repeats; loaded only when needed.
-type CsvParse = (input: string, options: Record<string, unknown>) => unknown;
-const csvParse = lazyModule<{ parse: CsvParse }>("csv-parse/sync");
 
 export interface LoadOptions {
   /** Display name used in messages. */
@@ -24,6 +19,8 @@ export interface LoadOptions {
   factors?: string[];
   /** Numbers use a decimal comma (1,5 is one and a half); the delimiter must then be something else. */
   decimalComma?: boolean;
+  /** Also keep every data row's fields as text (Table.records). */
+  keepRecords?: boolean;
   /** Keep only these columns (others are parsed and checked, not stored). */
   select?: string[];
 }
@@ -77,6 +74,7 @@ export function makeReader(options: LoadOptions): ColumnReader {
     na: new Set(options.na ?? DEFAULT_NA),
     factors: new Set(options.factors ?? []),
     select: options.select ? new Set(options.select) : null,
+    keepRecords: options.keepRecords,
   });
 }
 
@@ -128,16 +126,4 @@ export async function loadTableStream(
 /** Read and parse a CSV file or standard input ("-"). */
 export async function loadTable(path: string, options: Omit<LoadOptions, "source"> = {}): Promise<Table> {
   return (await loadTableStream(path, options)).table;
-}
-
-/** All records as text (header first), for outputs that repeat the input columns. */
-export function parseRecords(input: Uint8Array | string, options: { source: string; delimiter?: string }): string[][] {
-  let text = typeof input === "string" ? input : decodeUtf8(input, options.source);
-  if (text.charCodeAt(0) === 0xfeff) text = text.slice(1);
-  return csvParse().parse(text, {
-    delimiter: options.delimiter ?? defaultDelimiter(options.source),
-    bom: true,
-    relax_column_count: true,
-    skip_empty_lines: true,
-  }) as string[][];
 }

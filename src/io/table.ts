@@ -29,6 +29,8 @@ export interface Table {
   /** The selected columns (all columns when no selection was given). */
   columns: Map<string, Column>;
   delimiter: string;
+  /** Every data row's fields as read (only when the reader was asked to keep them). */
+  records?: string[][];
 }
 
 /** A header must name every column once: empty and repeated names are input errors. */

@@ -7,6 +7,7 @@
 import { InputError } from "../errors.js";
 import { checkHeader, type Column, type Table } from "./table.js";
 import { firstInvalidUtf8 } from "./source-bytes.js";
+import { checkTextKind, READER_LIMITS } from "./text-kind.js";
 import { guessDelimiter, parseDecimal, showDelimiter } from "./dialect.js";
 
 const QUOTE = 0x22,
@@ -38,6 +39,8 @@ export interface StreamOptions {
   na: Set<string>;
   factors: Set<string>;
   select: Set<string> | null;
+  /** Also keep every data row's fields as text (predict repeats the input rows in its CSV output). */
+  keepRecords?: boolean;
 }
 
 function copyBytes(b: Uint8Array): Uint8Array {
@@ -52,27 +55,6 @@ function grow<T extends Float64Array | Int32Array>(a: T, need: number, estimate 
   const next = new (a.constructor as { new (n: number): T })(size);
   next.set(a);
   return next;
-}
-
-/** Limits that keep reading bounded in memory; each refusal names the limit. */
-export const READER_LIMITS = { lineBytes: 64_000_000, columns: 100_000 } as const;
-
-/** Refuse, by their first bytes, files that are not UTF-8 text: gzip, UTF-16 (with or without a byte-order mark). */
-function checkTextKind(b: Uint8Array, source: string): void {
-  if (b[0] === 0x1f && b[1] === 0x8b)
-    throw new InputError(
-      `${source}: a gzip-compressed file, not CSV text; decompress it first (for example gunzip -c FILE | tallyfit … -).`,
-    );
-  const utf16 =
-    (b[0] === 0xff && b[1] === 0xfe) ||
-    (b[0] === 0xfe && b[1] === 0xff) ||
-    (b.length >= 4 &&
-      ((b[0] !== 0 && b[1] === 0 && b[2] !== 0 && b[3] === 0) ||
-        (b[0] === 0 && b[1] !== 0 && b[2] === 0 && b[3] !== 0)));
-  if (utf16)
-    throw new InputError(
-      `${source}: UTF-16 text, not UTF-8; save it as UTF-8 (for example with iconv -f utf-16 -t utf-8) and run again.`,
-    );
 }
 
 /** Incremental reader: feed() chunks of bytes, then finish(). */
@@ -93,6 +75,8 @@ export class ColumnReader {
   /** Bytes at the start of the carried tail already checked as UTF-8. */
   private validated = 0;
   bytesRead = 0;
+  /** The data rows' fields as text, when keepRecords is set. */
+  private readonly keptRecords: string[][] = [];
   /** The input's size in bytes when known (a file): columns are then sized from the rows seen so far, not by doubling. */
   expectedBytes = 0;
   /** Input offset of the buffer being tokenized. */
@@ -316,6 +300,11 @@ export class ColumnReader {
       );
     }
     const i = this.nRows;
+    if (this.o.keepRecords) {
+      const rec: string[] = new Array(nf);
+      for (let j = 0; j < nf; j++) rec[j] = this.text(b, fs[j], fe[j], fq[j]);
+      this.keptRecords.push(rec);
+    }
     for (let j = 0; j < nf; j++) {
       const bd = this.builders[j];
       if (!bd.keep) continue;
@@ -492,6 +481,13 @@ export class ColumnReader {
           reason: bd.forced ? { forced: true } : { forced: false, row: bd.firstText!.row, value: bd.firstText!.value },
         });
     }
-    return { source, header: this.header, nRows: n, columns, delimiter: String.fromCharCode(this.o.delimiter) };
+    return {
+      source,
+      header: this.header,
+      nRows: n,
+      columns,
+      delimiter: String.fromCharCode(this.o.delimiter),
+      ...(this.o.keepRecords ? { records: this.keptRecords } : {}),
+    };
   }
 }

@@ -93,3 +93,26 @@ test("--output /dev/stdout writes in place (the device is not replaced); a close
   assert.match(c.stdout, /code 0/);
   assert.ok(existsSync(out));
 });
+
+test("predict's CSV repeats the input rows from the same reader that computes the predictions (a stray carriage return cannot shift rows)", () => {
+  const train = join(dir, "train-cr.csv");
+  let csv = "unit,e,y\n";
+  for (let i = 0; i < 40; i++) csv += `u${i % 4},${1 + (i % 3)},${(i * 7) % 6}\n`;
+  writeFileSync(train, csv);
+  const model = join(dir, "cr.json");
+  assert.equal(
+    runCli(["fit", train, "--model", "y ~ unit", "--exposure", "e", "--save-model", model, "--quiet"]).code,
+    0,
+  );
+  // A bare carriage return inside the second row, then rows whose expected counts differ by unit.
+  const fresh = join(dir, "new-cr.csv");
+  writeFileSync(fresh, "unit,e,y,note\nu0,1,2,plain\nu1,2,3,a\rb\nu2,3,1,x\nu3,1,9,y\n");
+  const csvOut = runCli(["predict", "--model-file", model, fresh, "--quiet"]);
+  const jsonOut = runCli(["predict", "--model-file", model, fresh, "--format", "json", "--quiet"]);
+  assert.equal(csvOut.code, jsonOut.code);
+  if (csvOut.code !== 0) return; // a located input error in both is also consistent
+  const rows = JSON.parse(jsonOut.stdout).rows as { row: number; expected: number }[];
+  const lines = csvOut.stdout.trim().split("\n").slice(1);
+  assert.equal(lines.length, rows.length);
+  lines.forEach((line, k) => assert.ok(line.includes(String(rows[k].expected)), `row ${rows[k].row}: ${line}`));
+});

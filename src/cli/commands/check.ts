@@ -10,7 +10,7 @@ import { type ModelOptions, oneOf, parseProbability, plotKind } from "../options
 import { addPlot, finish, textLayout } from "../output.js";
 import { displaySafe } from "../../report/safe-text.js";
 import { RunOutputs } from "../run-outputs.js";
-import { clearProgressLine, fittingProgress } from "../terminal.js";
+import { clearProgressLine, fittingProgress, progressOnTerminal } from "../terminal.js";
 import { mergeChoice } from "./shared.js";
 
 export type CheckCliOptions = ModelOptions & { family: string; alpha: string };
@@ -29,7 +29,7 @@ export async function runCheck(file: string | undefined, opts: CheckCliOptions):
   if (opts.plot) plotKind(opts.plot);
   const onProgress = fittingProgress(opts, design.n);
   const { check, poisson } = analyzeCheckWithFits(design, { control, testLevel, merge, onProgress });
-  if (onProgress) clearProgressLine();
+  if (onProgress && progressOnTerminal()) clearProgressLine();
   if (opts.plot) {
     // The picture's forest panel shows 95% Wald intervals (check has no interval options of its own).
     const summary = summarizeFit(design, poisson, { level: 0.95 });

@@ -17,7 +17,7 @@ import { type ModelOptions, oneOf, parsePositive, parseProbability, plotKind } f
 import { addPlot, finish, textLayout } from "../output.js";
 import { displaySafe } from "../../report/safe-text.js";
 import { RunOutputs } from "../run-outputs.js";
-import { clearProgressLine, fittingProgress } from "../terminal.js";
+import { clearProgressLine, fittingProgress, progressOnTerminal } from "../terminal.js";
 import { mergeChoice } from "./shared.js";
 
 const VERSION: string = JSON.parse(readFileSync(new URL("../../../../package.json", import.meta.url), "utf8")).version;
@@ -79,7 +79,7 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
     merge,
     onProgress,
   });
-  if (onProgress) clearProgressLine();
+  if (onProgress && progressOnTerminal()) clearProgressLine();
   const wide = opts.format === "text" && !opts.output && process.stdout.isTTY && (process.stdout.columns ?? 0) >= 60;
   const diag = opts.plot || wide ? diagnosticsOf(design, countFit) : null;
   if (opts.plot && diag) addPlot(outputs, opts.plot, `${summary.family} fit of ${summary.model}`, diag, summary);

@@ -1,7 +1,7 @@
 // tallyfit predict: expected counts, limits and flags for new rows under a model file.
 import { analyzePredict } from "../../analysis/predict.js";
 import { EXIT, InputError } from "../../errors.js";
-import { parseRecords, parseTable } from "../../io/csv.js";
+import { parseTable } from "../../io/csv.js";
 import { loadModelFile } from "../../io/model-file.js";
 import { readSource } from "../../io/source-bytes.js";
 import { columnLabels } from "../../io/table.js";
@@ -64,6 +64,8 @@ export async function runPredict(file: string | undefined, opts: PredictCliOptio
     decimalComma: opts.decimalComma,
     na: parseNa(opts.na),
     factors,
+    // One reader feeds both the predictions and the input fields the CSV output repeats.
+    keepRecords: opts.format === "csv",
   });
   if (opts.summaryBy && !table.columns.has(opts.summaryBy))
     throw new InputError(`${name}: --summary-by column '${opts.summaryBy}' is not in the file.`);
@@ -77,8 +79,7 @@ export async function runPredict(file: string | undefined, opts: PredictCliOptio
   });
   let content: string;
   if (opts.format === "json") content = renderJson(groups ? { ...result, summary_by: groups } : result);
-  else if (opts.format === "csv")
-    content = renderPredictCsv(parseRecords(bytes, { source: name, delimiter: table.delimiter }), result);
+  else if (opts.format === "csv") content = renderPredictCsv([table.header, ...(table.records ?? [])], result);
   else {
     const all = Int32Array.from({ length: design.n }, (_, i) => i);
     const cols = saved.factors.map((f) => columnLabels(table, f.name, all));
