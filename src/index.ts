@@ -38,6 +38,7 @@ export { profileAll } from "./infer/intervals.js";
 export type { ProfileResult } from "./infer/profile.js";
 export { termTests, type TermTest } from "./infer/terms.js";
 export { sandwichCovariance } from "./infer/robust.js";
+export { clusterCovariance, type Clustering, type ClusterCovariance } from "./infer/cluster.js";
 export { runChecks, type CheckResult, type CheckTest } from "./infer/check.js";
 export { compareModels, type CompareResult } from "./infer/compare.js";
 export { predictRows, type PredictOptions, type PredictResult, type PredictedRow } from "./infer/predict.js";

@@ -23,6 +23,12 @@ export interface InformationView {
   weightProjection(omega: Float64Array): number;
   /** The sandwich A⁻¹BA⁻¹ with A = X'WX and B = X'ΩX for row weights ω (Huber 1967; White 1980). */
   sandwich(omega: Float64Array): SymMatrix;
+  /**
+   * The cluster sandwich A⁻¹(Σ_g u_g u_gᵀ)A⁻¹ with u_g = Σ_{i in g} r_i·x_i, the
+   * rows' scores summed within cluster g (Liang and Zeger 1986); cluster[i] is
+   * row i's cluster (0 … count − 1, −1: left out). No small-sample factor here.
+   */
+  clusterSandwich(r: Float64Array, cluster: Int32Array, count: number): SymMatrix;
 }
 
 /** The information view of a fit over its design matrix. */
@@ -40,6 +46,24 @@ export function informationOf(m: DesignMatrix, fit: Pick<GlmFit, "setup" | "cova
         for (let k = 0; k < sol.length; k++) adj += sol[k] * b[k];
       }
       return adj;
+    },
+    clusterSandwich(r, cluster, count) {
+      const q = fit.covarianceScaled.p;
+      const u = new Float64Array(count * q);
+      forEachRowScaled(m, setup, (i, idx, val, k) => {
+        const g = cluster[i];
+        if (g < 0 || r[i] === 0) return;
+        for (let a = 0; a < k; a++) u[g * q + idx[a]] += r[i] * val[a];
+      });
+      const meat = new Float64Array(q * q);
+      for (let g = 0; g < count; g++)
+        for (let a = 0; a < q; a++) {
+          const ua = u[g * q + a];
+          if (ua === 0) continue;
+          for (let b = 0; b < q; b++) meat[a * q + b] += ua * u[g * q + b];
+        }
+      const scaled = congruence(fit.covarianceScaled.data, { p: q, data: meat });
+      return congruence(transformMatrix(m, setup), scaled);
     },
     sandwich(omega) {
       const { a: meat } = setupCrossProducts(m, setup, omega, null);
@@ -78,13 +102,14 @@ export function transformMatrix(m: DesignMatrix, setup: FitSetup): Float64Array 
   return t;
 }
 
-/** x_iᵀ C x_i for every row, with C over the active columns in the fit's scaled coordinates. */
-export function rowQuadraticForms(m: DesignMatrix, setup: FitSetup, c: SymMatrix): Float64Array {
-  const out = new Float64Array(m.n);
-  const ns = m.slots.length;
-  const idx = new Int32Array(ns);
-  const val = new Float64Array(ns);
-  const q = c.p;
+/** Each row in the fit with its active positions and scaled values (k of them): the row-by-row view of X. */
+function forEachRowScaled(
+  m: DesignMatrix,
+  setup: FitSetup,
+  visit: (i: number, idx: Int32Array, val: Float64Array, k: number) => void,
+): void {
+  const idx = new Int32Array(m.slots.length);
+  const val = new Float64Array(m.slots.length);
   for (let i = 0; i < m.n; i++) {
     if (!setup.inFit[i]) continue;
     let k = 0;
@@ -97,9 +122,18 @@ export function rowQuadraticForms(m: DesignMatrix, setup: FitSetup, c: SymMatrix
       val[k] = slot.values === null ? 1 : (slot.values[i] - setup.center[col]) / setup.scale[col];
       k++;
     }
+    visit(i, idx, val, k);
+  }
+}
+
+/** x_iᵀ C x_i for every row, with C over the active columns in the fit's scaled coordinates. */
+export function rowQuadraticForms(m: DesignMatrix, setup: FitSetup, c: SymMatrix): Float64Array {
+  const out = new Float64Array(m.n);
+  const q = c.p;
+  forEachRowScaled(m, setup, (i, idx, val, k) => {
     let s = 0;
     for (let u = 0; u < k; u++) for (let v = 0; v < k; v++) s += val[u] * val[v] * c.data[idx[u] * q + idx[v]];
     out[i] = s;
-  }
+  });
   return out;
 }
