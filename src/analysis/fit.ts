@@ -8,6 +8,7 @@ import { type CheckResult, dispersionFlagged, runChecks } from "../infer/check.j
 import { profileContext, profileOf } from "../infer/intervals.js";
 import { inferencePlan, runJob, runJobs, type InferencePlan, type JobResult } from "../infer/parallel.js";
 import type { ProfileResult } from "../infer/profile.js";
+import { type Clustering, type ClusterCovariance, clusterCovariance } from "../infer/cluster.js";
 import { sandwichCovariance } from "../infer/robust.js";
 import { summarizeFit, type FitSummary } from "../infer/summary.js";
 import { waldTermTests } from "../infer/wald-terms.js";
@@ -20,6 +21,8 @@ export interface AnalysisOptions {
   level: number;
   intervals: "wald" | "profile" | "both";
   robust?: boolean;
+  /** Clusterings of the rows (--cluster): the covariance becomes cluster-robust; intervals must be Wald. */
+  clusters?: Clustering[];
   /** Test level of the dispersion check (used by --family auto). */
   testLevel?: number;
   /** Tests for dropping each term (default true). */
@@ -94,6 +97,8 @@ export function fitFamily(
 
 export interface FitAnalysis {
   countFit: CountFit;
+  /** The cluster-robust covariance, with --cluster. */
+  cluster?: ClusterCovariance;
   summary: FitSummary;
   check: CheckResult | null;
 }
@@ -126,7 +131,9 @@ function planFor(design: Design, mf: CountFit, o: AnalysisOptions): InferencePla
   return inferencePlan(
     o.intervals === "wald" ? null : profileContext(design, mf, o.level),
     // With --robust the term tests are Wald tests from the sandwich (no refits; see assemble).
-    o.termTests !== false && !o.robust && design.model.terms.length > 0 ? termTestContext(design, mf) : null,
+    o.termTests !== false && !o.robust && !o.clusters?.length && design.model.terms.length > 0
+      ? termTestContext(design, mf)
+      : null,
   );
 }
 
@@ -143,16 +150,20 @@ function assemble(
     if (job.kind === "profile") profiles!.set(job.col, results[j] as ProfileResult);
     else tests.push(results[j] as TermTest);
   });
+  const cluster = o.clusters?.length ? clusterCovariance(design, fitted.mf.fit, o.clusters) : undefined;
   const summary = summarizeFit(design, fitted.mf, {
     level: o.level,
     profiles,
     robust: o.robust,
+    cluster,
     familyChoice: fitted.familyChoice,
   });
   if (plan.terms) summary.term_tests = tests;
+  else if (cluster && o.termTests !== false && design.model.terms.length > 0)
+    summary.term_tests = waldTermTests(design, fitted.mf, cluster.covariance, cluster.df);
   else if (o.robust && o.termTests !== false && design.model.terms.length > 0)
     summary.term_tests = waldTermTests(design, fitted.mf, sandwichCovariance(design, fitted.mf.fit));
-  return { countFit: fitted.mf, summary, check: fitted.check };
+  return { countFit: fitted.mf, summary, check: fitted.check, cluster };
 }
 
 /** Fit one model and summarise it; --family auto fits both and lets the check decide. */

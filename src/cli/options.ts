@@ -133,8 +133,14 @@ export function addModelOptions(cmd: Command, multiModel = false): Command {
 export function addIntervalOptions(cmd: Command): Command {
   return cmd
     .option("--level <p>", "interval level", "0.95")
-    .addOption(new Option("--intervals <kind>", "wald, profile or both").default("both"))
-    .option("--robust", "sandwich (Huber-White) standard errors");
+    .addOption(new Option("--intervals <kind>", "wald, profile or both (default: both; wald with --cluster)"))
+    .option("--robust", "sandwich (Huber-White) standard errors")
+    .option(
+      "--cluster <col>",
+      "cluster-robust standard errors for rows grouped by COL (repeat for two-way clustering, e.g. clinic and week)",
+      collect,
+      [],
+    );
 }
 
 function addModelSpecOptions(cmd: Command, multiModel: boolean): Command {

@@ -17,6 +17,23 @@ export interface Clustering {
   column: string;
   ids: Int32Array;
   count: number;
+  /** The clusters' names, by id (for messages). */
+  names?: string[];
+}
+
+function dominantOf(c: Clustering): { column: string; cluster: string; share: number }[] {
+  const sizes = new Float64Array(c.count);
+  let n = 0;
+  for (const id of c.ids)
+    if (id >= 0) {
+      sizes[id]++;
+      n++;
+    }
+  const out: { column: string; cluster: string; share: number }[] = [];
+  sizes.forEach((s, id) => {
+    if (s > n / 2) out.push({ column: c.column, cluster: c.names?.[id] ?? String(id), share: s / n });
+  });
+  return out;
 }
 
 export interface ClusterCovariance {
@@ -27,6 +44,8 @@ export interface ClusterCovariance {
   df: number;
   /** Negative eigenvalues set to 0 in the two-way sum (0 when none). */
   eigenvaluesClipped: number;
+  /** Clusters that hold more than half of the rows. */
+  dominant: { column: string; cluster: string; share: number }[];
 }
 
 /** CR1 covariance for one clustering. */
@@ -77,6 +96,7 @@ export function clusterCovariance(design: Design, fit: GlmFit, clusterings: Clus
       clusters,
       df,
       eigenvaluesClipped: 0,
+      dominant: dominantOf(clusterings[0]),
     };
   const [a, b] = clusterings;
   const va = oneWay(design, fit, scores, a, nCoef);
@@ -91,5 +111,6 @@ export function clusterCovariance(design: Design, fit: GlmFit, clusterings: Clus
     clusters,
     df,
     eigenvaluesClipped: clipped,
+    dominant: [...dominantOf(a), ...dominantOf(b)],
   };
 }

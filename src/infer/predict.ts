@@ -77,7 +77,9 @@ function prepare(pd: PredictionDesign, saved: ModelFile, o: PredictOptions): Pre
   });
   const phi = saved.family === "quasipoisson" ? saved.dispersion_phi : 1;
   const v = new Float64Array(q * q);
-  for (let r = 0; r < q; r++) for (let c = 0; c < q; c++) v[r * q + c] = saved.covariance.matrix[r][c] * phi;
+  // A model-based quasi-Poisson covariance is scaled by phi here; a cluster-robust one is final as saved.
+  const covScale = saved.covariance.type && saved.covariance.type !== "model" ? 1 : phi;
+  for (let r = 0; r < q; r++) for (let c = 0; c < q; c++) v[r * q + c] = saved.covariance.matrix[r][c] * covScale;
   const l = q > 0 ? cholesky({ p: q, data: v }) : new Float64Array(0);
   if (l === null)
     throw new InputError("the saved covariance matrix is not positive definite; refit and save the model again.");

@@ -13,6 +13,7 @@ import {
 } from "../math/distributions.js";
 import type { ProfileResult } from "./profile.js";
 import { boundaryLrTest, fitStatistics } from "./fit-statistics.js";
+import type { ClusterCovariance } from "./cluster.js";
 import { sandwichCovariance } from "./robust.js";
 import type { TermTest } from "./terms.js";
 import type { GroupSummary } from "./groups.js";
@@ -111,7 +112,9 @@ export interface FitSummary {
   coefficients: CoefficientRow[];
   negbin?: NegbinSummary;
   test_distribution: "normal" | "t";
-  standard_errors: "model" | "robust";
+  standard_errors: "model" | "robust" | "cluster";
+  /** With --cluster: the covariance type, the cluster columns and counts, and the df of the t reference. */
+  covariance?: { type: string; clusters: { column: string; count: number }[]; t_df: number };
   profile_reference: string | null;
   /** Tests for dropping each term (present when computed). */
   term_tests?: TermTest[];
@@ -126,6 +129,8 @@ export interface SummaryOptions {
   /** Profile limits on the log scale by design column, when computed. */
   profiles?: Map<number, ProfileResult>;
   robust?: boolean;
+  /** Cluster-robust covariance (--cluster): standard errors, Wald limits and p-values come from it. */
+  cluster?: ClusterCovariance;
   familyChoice?: { requested: string; reason: string };
 }
 
@@ -138,11 +143,14 @@ export function summarizeFit(design: Design, mf: CountFit, options: SummaryOptio
   const devRatio = df > 0 ? fit.deviance / df : NaN;
   const quasi = mf.family === "quasipoisson";
   const phi = quasi ? pearsonRatio : 1;
-  const useT = quasi && df > 0;
-  const crit = useT ? studentQuantile(1 - (1 - options.level) / 2, df) : normalQuantile(1 - (1 - options.level) / 2);
-  const pOf = (z: number) => (useT ? studentTwoSidedP(z, df) : normalTwoSidedP(z));
-  const cov = options.robust ? sandwichCovariance(design, fit) : fit.covariance;
-  const seScale = options.robust ? 1 : phi;
+  const cl = options.cluster;
+  // Wald tests and limits: Student's t on G − 1 df under clustering, on the residual df for the quasi-Poisson.
+  const tDf = cl ? cl.df : df;
+  const useT = cl ? cl.df > 0 : quasi && df > 0;
+  const crit = useT ? studentQuantile(1 - (1 - options.level) / 2, tDf) : normalQuantile(1 - (1 - options.level) / 2);
+  const pOf = (z: number) => (useT ? studentTwoSidedP(z, tDf) : normalTwoSidedP(z));
+  const cov = cl ? cl.covariance : options.robust ? sandwichCovariance(design, fit) : fit.covariance;
+  const seScale = cl || options.robust ? 1 : phi;
   const posOf = new Map(fit.estimable.map((c, k) => [c, k]));
   const q = cov.p;
   const refs = new Map(design.factors.map((f) => [f.name, f.reference]));
@@ -227,6 +235,17 @@ export function summarizeFit(design: Design, mf: CountFit, options: SummaryOptio
           warnings.push(
             `${design.columns[c].name}: the ${side} profile limit is ${r.open ? (side === "lower" ? "0 (open)" : "unbounded") : "not available"}: ${r.reason}`,
           );
+  if (cl) {
+    for (const c of cl.clusters)
+      if (c.count < 30)
+        warnings.push(
+          `only ${c.count} clusters of '${c.column}': cluster-robust standard errors are unreliable with few clusters (fewer than about 30 is common practice for caution; Cameron and Miller 2015)`,
+        );
+    for (const d of cl.dominant)
+      warnings.push(
+        `one cluster of '${d.column}' ('${d.cluster}') holds ${Math.round(100 * d.share)}% of the rows; the cluster-robust errors then rest mostly on the others`,
+      );
+  }
   if (options.robust && options.profiles)
     warnings.push(
       "with --robust, the Wald limits use sandwich standard errors; the profile limits remain likelihood-based (model-based)",
@@ -326,7 +345,8 @@ export function summarizeFit(design: Design, mf: CountFit, options: SummaryOptio
     coefficients,
     ...(negbin ? { negbin } : {}),
     test_distribution: useT ? "t" : "normal",
-    standard_errors: options.robust ? "robust" : "model",
+    standard_errors: cl ? "cluster" : options.robust ? "robust" : "model",
+    ...(cl ? { covariance: { type: cl.type, clusters: cl.clusters, t_df: cl.df } } : {}),
     profile_reference: profileRef,
     warnings: [...design.notices, ...warnings],
     notices: design.notices,

@@ -21,7 +21,7 @@ export interface TermTest {
   statistic: number | null;
   p_value: number | null;
   /** LR chi-square (Poisson, NB2), F (quasi-Poisson), or Wald chi-square from the sandwich covariance (--robust). */
-  test: "LR chi-square" | "F" | "Wald chi-square";
+  test: "LR chi-square" | "F" | "Wald chi-square" | "Wald F";
   note: string | null;
 }
 

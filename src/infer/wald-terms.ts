@@ -4,16 +4,17 @@
 // covariances, e.g. Boos and Stefanski, Essential Statistical Inference, 2013, §7.2).
 import type { Design } from "../design/design.js";
 import type { CountFit } from "../fit/count-fit.js";
-import { chiSquareUpperTail } from "../math/distributions.js";
+import { chiSquareUpperTail, fUpperTail } from "../math/distributions.js";
 import { cholesky, choleskySolve, type SymMatrix } from "../math/linalg.js";
 import { type TermTest, termPlan } from "./terms.js";
 
 /** Wald tests of every term with the covariance `cov` over the fit's estimated columns. */
-export function waldTermTests(design: Design, mf: CountFit, cov: SymMatrix): TermTest[] {
+export function waldTermTests(design: Design, mf: CountFit, cov: SymMatrix, denominatorDf?: number): TermTest[] {
   const pos = new Map(mf.fit.estimable.map((c, k) => [c, k]));
   return termPlan(design, mf).map((step, ti) => {
     const term = design.termLabels[ti];
-    const test = "Wald chi-square" as const;
+    // With a cluster covariance: F = W/df on (df, G − 1) (Cameron and Miller 2015, §VI.B).
+    const test = denominatorDf ? ("Wald F" as const) : ("Wald chi-square" as const);
     if ("note" in step) return { term, df: 0, statistic: null, p_value: null, test, note: step.note };
     if (step.cols.some((c) => mf.fit.status[c] === "no_events"))
       return {
@@ -38,6 +39,10 @@ export function waldTermTests(design: Design, mf: CountFit, cov: SymMatrix): Ter
     const sol = choleskySolve(l, k.length, b);
     let w = 0;
     for (let i = 0; i < k.length; i++) w += b[i] * sol[i];
+    if (denominatorDf) {
+      const f = w / k.length;
+      return { term, df: k.length, statistic: f, p_value: fUpperTail(f, k.length, denominatorDf), test, note: null };
+    }
     return { term, df: k.length, statistic: w, p_value: chiSquareUpperTail(w, k.length), test, note: null };
   });
 }

@@ -36,7 +36,13 @@ export interface ModelFile {
     upper_limit_level?: number;
   }[];
   /** Model-based covariance (inverse Fisher information) of the estimated coefficients, original scale. */
-  covariance: { terms: string[]; matrix: number[][] };
+  covariance: {
+    terms: string[];
+    matrix: number[][];
+    /** Absent or "model": the inverse Fisher information; otherwise a cluster-robust covariance (already final). */
+    type?: "model" | "cluster-CR1" | "two-way-cluster-CR1";
+    clusters?: { column: string; count: number }[];
+  };
   /** Quasi-Poisson phi (1 otherwise); the covariance above is not yet multiplied by it. */
   dispersion_phi: number;
   alpha: number | null;

@@ -165,14 +165,19 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
     else crow.push([c.term, fixed(c.estimate, 4), fixed(c.std_error, 4), fixed(c.z, 2), pValue(c.p_value)]);
   }
   out.push(...table(crow, ["l", "r", "r", "r", "r"]));
-  const seText =
-    s.standard_errors === "robust"
+  const clusterText = s.covariance
+    ? `cluster-robust (CR1) standard errors over ${s.covariance.clusters.map((c) => `${fixed(c.count, 0)} ${c.column} clusters`).join(" and ")}${s.covariance.type === "two-way-cluster-CR1" ? " (two-way)" : ""}`
+    : "";
+  const tDf = s.covariance ? s.covariance.t_df : s.df_residual;
+  const seText = s.covariance
+    ? clusterText
+    : s.standard_errors === "robust"
       ? "sandwich (Huber–White) standard errors"
       : s.family === "quasipoisson"
         ? `standard errors from the inverse Fisher information times √φ (φ = ${fixed(s.dispersion.phi_used, 3)})`
         : "standard errors from the inverse Fisher information";
   out.push(
-    `  ${seText}; ${s.test_distribution === "t" ? `t and p against Student's t on ${fixed(s.df_residual, 0)} df` : "z and p against the standard normal"}`,
+    `  ${seText}; ${s.test_distribution === "t" ? `t and p against Student's t on ${fixed(tDf, 0)} df` : "z and p against the standard normal"}`,
   );
   if (s.profile_reference) out.push(`  profile limits: ${s.profile_reference}`);
   out.push("");
@@ -184,7 +189,9 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
         ? "F test (deviance change / df / φ), other terms kept, same rows"
         : kind === "Wald chi-square"
           ? "Wald test with the sandwich covariance, other terms kept"
-          : "likelihood-ratio test, other terms kept, same rows";
+          : kind === "Wald F"
+            ? "Wald F test with the cluster-robust covariance, on the clusters' df, other terms kept"
+            : "likelihood-ratio test, other terms kept, same rows";
     out.push(st.heading(`Dropping each term (${how})`));
     const trows: string[][] = [["term", "df", kind === "F" ? "F" : kind, "p-value", ""]];
     for (const t of s.term_tests)
@@ -297,9 +304,9 @@ function dispersionBlock(s: FitSummary, o: TextOptions): string[] {
   if (s.df_residual <= 0)
     verdict = st.caution("No residual degrees of freedom: the dispersion cannot be judged from this fit.");
   else if (s.family === "poisson") {
-    if (d.pearson > 1 && d.pearson_p_value < 0.05 && s.standard_errors === "robust")
+    if (d.pearson > 1 && d.pearson_p_value < 0.05 && s.standard_errors !== "model")
       verdict = st.caution(
-        `The counts vary more than a Poisson model allows (Pearson ratio ${fixed(d.pearson, 2)}). The standard errors, Wald limits and term tests above are sandwich estimates, which allow for that; the profile limits are likelihood-based and too narrow. ` +
+        `The counts vary more than a Poisson model allows (Pearson ratio ${fixed(d.pearson, 2)}). The standard errors, Wald limits and term tests above are ${s.standard_errors === "cluster" ? "cluster-robust" : "sandwich"} estimates, which allow for that${s.profile_reference ? "; the profile limits are likelihood-based and too narrow" : ""}. ` +
           "Run `tallyfit check` for the formal tests; --family negbin models the extra variation.",
       );
     else if (d.pearson > 1 && d.pearson_p_value < 0.05)

@@ -1,6 +1,7 @@
 // Writing the saved-model record from a fit.
 import type { Design } from "../design/design.js";
 import type { CountFit } from "../fit/count-fit.js";
+import type { ClusterCovariance } from "../infer/cluster.js";
 import { quasiPhi } from "../infer/fit-statistics.js";
 import { MODEL_FILE_SCHEMA, type ModelFile } from "../io/model-file.js";
 
@@ -13,6 +14,7 @@ export function modelFileOf(
   mf: CountFit,
   meta: { version: string; sha256: string },
   noEventsUpper: { level: number; limits: Map<number, number | null> } = { level: 0.95, limits: new Map() },
+  cluster?: ClusterCovariance,
 ): ModelFile {
   const fit = mf.fit;
   const est = fit.estimable;
@@ -50,7 +52,12 @@ export function modelFileOf(
     }),
     covariance: {
       terms: est.map((c) => design.columns[c].name),
-      matrix: Array.from({ length: q }, (_, r) => Array.from({ length: q }, (_, c) => fit.covariance.data[r * q + c])),
+      // predict draws the coefficients from the covariance the fit reported: cluster-robust with --cluster.
+      matrix: Array.from({ length: q }, (_, r) =>
+        Array.from({ length: q }, (_, c) => (cluster ? cluster.covariance : fit.covariance).data[r * q + c]),
+      ),
+      type: cluster ? cluster.type : "model",
+      ...(cluster ? { clusters: cluster.clusters } : {}),
     },
     dispersion_phi: mf.family === "quasipoisson" ? quasiPhi(design, fit) : 1,
     alpha: mf.negbin ? mf.negbin.alpha : null,

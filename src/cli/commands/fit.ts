@@ -5,6 +5,7 @@ import { naturalCompare } from "../../design/naming.js";
 import { EXIT, InputError } from "../../errors.js";
 import type { FamilyChoice } from "../../fit/count-fit.js";
 import { summarizeGroups } from "../../infer/groups.js";
+import type { Clustering } from "../../infer/cluster.js";
 import type { CountSpread } from "../../infer/ratio-limits.js";
 import type { FitSummary } from "../../infer/summary.js";
 import { renderFitText } from "../../report/fit-text.js";
@@ -25,7 +26,8 @@ const VERSION: string = JSON.parse(readFileSync(new URL("../../../../package.jso
 export type FitCliOptions = ModelOptions & {
   family: string;
   level: string;
-  intervals: string;
+  intervals?: string;
+  cluster: string[];
   alpha: string;
   saveModel?: string;
   summaryBy?: string;
@@ -33,6 +35,20 @@ export type FitCliOptions = ModelOptions & {
 };
 
 export { VERSION };
+
+/** A clustering of the design's rows from a column's labels (a missing label is a cluster of its own). */
+function clusteringOf(column: string, labels: string[]): Clustering {
+  const index = new Map<string, number>();
+  const ids = Int32Array.from(labels, (l) => {
+    let id = index.get(l);
+    if (id === undefined) {
+      id = index.size;
+      index.set(l, id);
+    }
+    return id;
+  });
+  return { column, ids, count: index.size, names: [...index.keys()] };
+}
 
 /** How the counts vary about the fitted means, for the O/E limits of --summary-by. */
 function spreadOf(summary: FitSummary): CountSpread {
@@ -55,7 +71,20 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
       "--summary-by is not part of the CSV output (one line per coefficient); use --format text, json or markdown for the group table.",
     );
   const family: FamilyChoice = oneOf("--family", opts.family, ["poisson", "quasipoisson", "negbin", "auto"]);
-  const intervals = oneOf("--intervals", opts.intervals, ["wald", "profile", "both"]);
+  if (opts.cluster.length > 2) throw new InputError("--cluster is given once (one-way) or twice (two-way clustering).");
+  if (opts.cluster.length && opts.robust)
+    throw new InputError(
+      "--cluster and --robust are two covariances; give one (--cluster already allows for dependence).",
+    );
+  if (opts.cluster.length && opts.intervals && opts.intervals !== "wald")
+    throw new InputError(
+      "with --cluster only Wald limits from the cluster-robust covariance are valid: profile limits come from a likelihood that treats every row as independent. Leave out --intervals (or give --intervals wald).",
+    );
+  const intervals = oneOf("--intervals", opts.intervals ?? (opts.cluster.length ? "wald" : "both"), [
+    "wald",
+    "profile",
+    "both",
+  ]);
   const testLevel = parseProbability("--alpha", opts.alpha, "0.05");
   const per = parsePositive("--per", opts.per);
   const merge = mergeChoice(opts);
@@ -64,17 +93,18 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
   if (opts.output) outputs.claim(opts.output, "--output");
   if (opts.saveModel) outputs.claim(opts.saveModel, "--save-model");
   if (opts.plot) outputs.claim(opts.plot, "--plot");
-  const alsoRead = opts.summaryBy ? [opts.summaryBy] : [];
+  const alsoRead = [...(opts.summaryBy ? [opts.summaryBy] : []), ...opts.cluster];
   const { designs, control, labels, sha256 } = await loadDesigns(file, opts, [opts.model[0]], alsoRead);
   const design = designs[0];
   if (opts.plot) plotKind(opts.plot);
   const onProgress = fittingProgress(opts, design.n);
-  const { summary, countFit } = await analyzeFitParallel(design, {
+  const { summary, countFit, cluster } = await analyzeFitParallel(design, {
     family,
     control,
     level,
     intervals,
     robust: !!opts.robust,
+    clusters: opts.cluster.map((c) => clusteringOf(c, labels.get(c)!)),
     testLevel,
     merge,
     onProgress,
@@ -101,6 +131,7 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
       countFit,
       { version: VERSION, sha256 },
       noEventsUpperLimits(design, countFit, summary),
+      cluster,
     );
     outputs.add(opts.saveModel, "--save-model", renderJson(model));
   }
