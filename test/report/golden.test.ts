@@ -1,7 +1,7 @@
 // Byte-identical reports: every case in test/fixtures/golden/cases.json is run
-// through the CLI and compared with the bytes make.mjs saved beside it before
-// the restructuring (issue 12). A change that is meant to alter a report
-// regenerates them with `node test/fixtures/golden/make.mjs` and says so.
+// through the CLI and compared with the bytes make.mjs saved beside it (first
+// taken before the restructuring of issue 12). A change that is meant to alter
+// a report regenerates them with `node test/fixtures/golden/make.mjs` and says so.
 import { spawn } from "node:child_process";
 import { mkdtempSync, readFileSync } from "node:fs";
 import { tmpdir } from "node:os";
@@ -41,7 +41,7 @@ function run(c: GoldenCase): Promise<{ code: number | null; stdout: Buffer; stde
 }
 
 for (const c of cases) {
-  test(`golden report ${c.name} is byte-identical to the copy taken before the restructuring`, async () => {
+  test(`golden report ${c.name} is byte-identical to its saved copy (test/fixtures/golden)`, async () => {
     const r = await run(c);
     assert.ok(r.code === 0 || r.code === 4, `exit ${r.code}: ${r.stderr}`);
     const actual = c.output ? readFileSync(r.file) : r.stdout;
