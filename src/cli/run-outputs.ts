@@ -52,6 +52,8 @@ function reason(e: unknown): string {
 
 export class RunOutputs {
   private readonly pending: Pending[] = [];
+  /** Targets claimed so far (real path → the option that named it). */
+  private readonly claimed = new Map<string, string>();
 
   /** inputs: the files the run reads (never overwritten). */
   constructor(private readonly inputs: string[] = []) {}
@@ -62,15 +64,10 @@ export class RunOutputs {
     for (const input of this.inputs)
       if (input !== "-" && targetOf(input) === target)
         throw new InputError(`${option} ${path} is the input file; write the output somewhere else.`);
-    const twice = this.pending.find((p) => targetOf(p.path) === target) ?? this.claimed.get(target);
-    if (twice)
-      throw new InputError(
-        `${option} and ${typeof twice === "string" ? twice : twice.option} name the same file (${path}); give each its own file.`,
-      );
+    const twice = this.claimed.get(target);
+    if (twice) throw new InputError(`${option} and ${twice} name the same file (${path}); give each its own file.`);
     this.claimed.set(target, option);
   }
-
-  private readonly claimed = new Map<string, string>();
 
   /** Queue a file (claimed earlier); nothing is written until commit. */
   add(path: string, option: string, content: string | Uint8Array): void {

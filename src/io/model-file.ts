@@ -3,7 +3,7 @@
 // schema or a damaged file.
 import { readFileSync } from "node:fs";
 import { readFile } from "node:fs/promises";
-import { createRequire } from "node:module";
+import { lazyModule } from "../math/lazy.js";
 import { InputError } from "../errors.js";
 
 export interface ModelFile {
@@ -79,13 +79,13 @@ export function parseModelFile(text: string, source: string): ModelFile {
 
 // The model file's own JSON Schema (schemas/model-1.schema.json), checked by ajv, loaded on first use.
 type Validate = ((data: unknown) => boolean) & { errors?: { instancePath: string; message?: string }[] | null };
+const loadAjv = lazyModule<new (o: object) => { compile(s: object): Validate }>("ajv");
 let validateModel: Validate | null = null;
 
 /** The first place where the file breaks its JSON Schema, as "field: what is wrong", or null. */
 function schemaFault(m: unknown): string | null {
   if (validateModel === null) {
-    const require = createRequire(import.meta.url);
-    const Ajv = require("ajv") as new (o: object) => { compile(s: object): Validate };
+    const Ajv = loadAjv();
     const schema = JSON.parse(readFileSync(new URL("../../../schemas/model-1.schema.json", import.meta.url), "utf8"));
     validateModel = new Ajv({ allErrors: false, strict: false }).compile(schema);
   }

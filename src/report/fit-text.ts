@@ -158,7 +158,7 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
   out.push("");
 
   out.push(st.heading("Coefficients on the log scale"));
-  const crow: string[][] = [["term", "estimate", "std. error", s.test_distribution === "t" ? "t" : "z", "p-value"]];
+  const crow: string[][] = [["term", "log rate ratio", "SE", s.test_distribution === "t" ? "t" : "z", "p-value"]];
   for (const c of s.coefficients) {
     if (c.status === "aliased") crow.push([c.term, "aliased", "", "", ""]);
     else if (c.status === "no_events") crow.push([c.term, "−∞", "–", "–", "–"]);
@@ -225,17 +225,17 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
       [
         "alpha",
         sig(nb.alpha),
-        nb.alpha_std_error !== null ? `std. error ${sig(nb.alpha_std_error)}` : "",
-        nb.alpha_ci ? `${lv} ${interval(nb.alpha_ci)} (Wald on log alpha)` : "",
+        nb.alpha_std_error !== null ? `SE ${sig(nb.alpha_std_error)}` : "",
+        nb.alpha_ci ? `${lv} ${interval(nb.alpha_ci)}, symmetric on the log scale` : "",
       ],
-      ["theta = 1/alpha", nb.theta === null ? "∞" : sig(nb.theta), "", ""],
+      ["1/alpha (NB size)", nb.theta === null ? "∞" : sig(nb.theta), "", ""],
       ["log-likelihood", fixed(s.log_likelihood, 2), `Poisson ${fixed(nb.poisson_log_likelihood, 2)}`, ""],
       ["AIC", fixed(s.aic, 2), `Poisson ${fixed(nb.poisson_aic, 2)}`, ""],
       [
-        "LR test of alpha = 0",
+        "NB2 against Poisson, 2·Δlog L",
         fixed(nb.lr_stat, 2),
         pEquals(nb.lr_p_value),
-        "½·chi-square(1) tail, alpha = 0 is on the boundary",
+        "p halved: alpha = 0 is the edge of its range",
       ],
     ];
     out.push(...table(nrows, ["l", "r", "l", "l"]));

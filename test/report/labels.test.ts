@@ -41,14 +41,14 @@ test("--no-intercept: a factor's levels are rates per unit of exposure with no r
 test("quasi-Poisson: the coefficient table's statistic column says t, as the test is Student's t", () => {
   const args = ["fit", "examples/clinic_visits.csv", "--model", "visits ~ clinic", "--exposure", "open_hours"];
   const text = runCli([...args, "--family", "quasipoisson", "--intervals", "wald"]).stdout;
-  assert.match(text, /term +estimate +std\. error +t +p-value/);
+  assert.match(text, /term +log rate ratio +SE +t +p-value/);
   assert.match(text, /t and p against Student's t on [\d,]+ df/);
   const json = JSON.parse(
     runCli([...args, "--family", "quasipoisson", "--intervals", "wald", "--format", "json"]).stdout,
   );
   assert.equal(json.test_distribution, "t");
   const poisson = runCli([...args, "--intervals", "wald"]).stdout;
-  assert.match(poisson, /term +estimate +std\. error +z +p-value/);
+  assert.match(poisson, /term +log rate ratio +SE +z +p-value/);
 });
 
 test("--robust: term tests are Wald tests with the sandwich (matching scipy's HC0 for a one-column term) and the dispersion text says so", () => {
