@@ -14,6 +14,11 @@ import { summarizeFit, type FitSummary } from "../infer/summary.js";
 import { waldTermTests } from "../infer/wald-terms.js";
 import { termTestContext, type TermTest } from "../infer/terms.js";
 import { quantileResiduals, type Rootogram, rootogram } from "../infer/diagnostics.js";
+import { fitGee } from "../fit/gee.js";
+import type { WorkingCorrelation } from "../fit/working-correlation.js";
+import { unitDeviance } from "../fit/family.js";
+import { FitError } from "../errors.js";
+import { geeCovariance, geeSummaryOf, geeWarnings, type GeeSummary } from "../infer/gee-inference.js";
 
 export interface AnalysisOptions {
   family: FamilyChoice;
@@ -23,6 +28,11 @@ export interface AnalysisOptions {
   robust?: boolean;
   /** Clusterings of the rows (--cluster): the covariance becomes cluster-robust; intervals must be Wald. */
   clusters?: Clustering[];
+  /**
+   * Generalized estimating equations within the one clustering (--gee): the
+   * working correlation and, for AR(1), the order of the rows in a cluster.
+   */
+  gee?: { structure: WorkingCorrelation; order: Float64Array | null; orderBy: string | null };
   /** Test level of the dispersion check (used by --family auto). */
   testLevel?: number;
   /** Tests for dropping each term (default true). */
@@ -96,8 +106,9 @@ export function fitFamily(
 }
 
 export interface FitAnalysis {
+  /** The fit whose coefficients are reported: with --gee, the independence fit with the GEE's estimates and means. */
   countFit: CountFit;
-  /** The cluster-robust covariance, with --cluster. */
+  /** The cluster-robust covariance, with --cluster (the GEE's robust covariance with --gee). */
   cluster?: ClusterCovariance;
   summary: FitSummary;
   check: CheckResult | null;
@@ -126,6 +137,54 @@ function fitForAnalysis(
   };
 }
 
+type Fitted = ReturnType<typeof fitForAnalysis> & {
+  gee?: { summary: GeeSummary; warnings: string[]; cluster: ClusterCovariance };
+};
+
+/**
+ * With --gee: solve the estimating equations from the independence fit, and
+ * put the GEE estimates and means in its place (the deviance recomputed at
+ * them); the reported covariance is the GEE's robust one.
+ */
+function withGee(design: Design, fitted: Fitted, o: AnalysisOptions): Fitted {
+  if (!o.gee || !o.clusters || o.clusters.length !== 1) return fitted;
+  const mf = fitted.mf;
+  const clustering = o.clusters[0];
+  const quasi = mf.family === "quasipoisson";
+  o.onProgress?.(`solving the ${o.gee.structure} GEE within ${clustering.count} ${clustering.column} clusters…`);
+  const g = fitGee(design, mf.fit, {
+    structure: o.gee.structure,
+    clusters: clustering,
+    order: o.gee.order,
+    estimateScale: quasi,
+    maxIter: o.control?.maxIter ? Math.max(o.control.maxIter, 100) : 100,
+  });
+  if (!g)
+    throw new FitError(
+      `the ${o.gee.structure} estimating equations could not be solved from the independence fit (a singular information or overflowing means); try --gee independence or fewer terms`,
+    );
+  let deviance = 0;
+  for (let i = 0; i < design.n; i++)
+    deviance += (design.weights ? design.weights[i] : 1) * unitDeviance(design.y[i], g.mu[i], mf.fit.alpha);
+  const summary = geeSummaryOf(
+    design,
+    mf.fit.estimable,
+    g,
+    clustering,
+    o.gee.orderBy,
+    quasi,
+    mf.family === "negbin" ? mf.fit.alpha : null,
+  );
+  return {
+    ...fitted,
+    mf: {
+      ...mf,
+      fit: { ...mf.fit, beta: g.beta, mu: g.mu, eta: g.eta, deviance, converged: mf.fit.converged && g.converged },
+    },
+    gee: { summary, warnings: geeWarnings(g, summary), cluster: geeCovariance(g, clustering) },
+  };
+}
+
 /** The profile limits and term tests the options ask for, as independent jobs. */
 function planFor(design: Design, mf: CountFit, o: AnalysisOptions): InferencePlan {
   return inferencePlan(
@@ -140,7 +199,7 @@ function planFor(design: Design, mf: CountFit, o: AnalysisOptions): InferencePla
 function assemble(
   design: Design,
   o: AnalysisOptions,
-  fitted: ReturnType<typeof fitForAnalysis>,
+  fitted: Fitted,
   plan: InferencePlan,
   results: JobResult[],
 ): FitAnalysis {
@@ -150,7 +209,8 @@ function assemble(
     if (job.kind === "profile") profiles!.set(job.col, results[j] as ProfileResult);
     else tests.push(results[j] as TermTest);
   });
-  const cluster = o.clusters?.length ? clusterCovariance(design, fitted.mf.fit, o.clusters) : undefined;
+  const cluster =
+    fitted.gee?.cluster ?? (o.clusters?.length ? clusterCovariance(design, fitted.mf.fit, o.clusters) : undefined);
   const summary = summarizeFit(design, fitted.mf, {
     level: o.level,
     profiles,
@@ -158,6 +218,10 @@ function assemble(
     cluster,
     familyChoice: fitted.familyChoice,
   });
+  if (fitted.gee) {
+    summary.gee = fitted.gee.summary;
+    summary.warnings.push(...fitted.gee.warnings);
+  }
   if (plan.terms) summary.term_tests = tests;
   else if (cluster && o.termTests !== false && design.model.terms.length > 0)
     summary.term_tests = waldTermTests(design, fitted.mf, cluster.covariance, cluster.df);
@@ -168,7 +232,7 @@ function assemble(
 
 /** Fit one model and summarise it; --family auto fits both and lets the check decide. */
 export function analyzeFit(design: Design, o: AnalysisOptions): FitAnalysis {
-  const fitted = fitForAnalysis(design, o);
+  const fitted = withGee(design, fitForAnalysis(design, o), o);
   const plan = planFor(design, fitted.mf, o);
   const workspace = {};
   return assemble(
@@ -186,7 +250,7 @@ export function analyzeFit(design: Design, o: AnalysisOptions): FitAnalysis {
  * infer/parallel.ts). The result is the same as analyzeFit's.
  */
 export async function analyzeFitParallel(design: Design, o: AnalysisOptions): Promise<FitAnalysis> {
-  const fitted = fitForAnalysis(design, o);
+  const fitted = withGee(design, fitForAnalysis(design, o), o);
   const plan = planFor(design, fitted.mf, o);
   const nProfiles = plan.jobs.filter((j) => j.kind === "profile").length,
     nTerms = plan.jobs.length - nProfiles;

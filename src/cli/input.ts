@@ -33,7 +33,8 @@ export async function loadDesigns(
   file: string | undefined,
   opts: ModelOptions,
   modelTexts: string[],
-  alsoRead: string[] = [],
+  /** Further columns to read, each with the option that names it (for messages). */
+  alsoRead: { column: string; option: string }[] = [],
 ): Promise<LoadedDesigns> {
   const control = {
     maxIter: parsePositiveInt("--max-iter", opts.maxIter),
@@ -52,7 +53,7 @@ export async function loadDesigns(
     ...[opts.exposure, opts.offset, opts.weights].filter((x): x is string => !!x),
     ...Object.keys(refs),
     ...Object.keys(order),
-    ...alsoRead,
+    ...alsoRead.map((a) => a.column),
   ];
   const name = path === "-" ? "<stdin>" : path;
   const progress = opts.quiet || !process.stderr.isTTY ? undefined : readingProgress();
@@ -81,11 +82,11 @@ export async function loadDesigns(
     });
   });
   for (const n of designs[0].notices) notice(opts, n);
-  for (const c of alsoRead)
-    if (!table.columns.has(c))
+  for (const { column, option } of alsoRead)
+    if (!table.columns.has(column))
       throw new InputError(
-        `${name}: --summary-by column '${c}' is not in the file. The columns are ${table.header.map((h) => `'${h}'`).join(", ")}.`,
+        `${name}: ${option} column '${column}' is not in the file. The columns are ${table.header.map((h) => `'${h}'`).join(", ")}.`,
       );
-  const labels = new Map(alsoRead.map((c) => [c, columnLabels(table, c, designs[0].rowIndex)]));
+  const labels = new Map(alsoRead.map(({ column }) => [column, columnLabels(table, column, designs[0].rowIndex)]));
   return { designs, control, labels, sha256 };
 }

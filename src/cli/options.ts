@@ -140,7 +140,12 @@ export function addIntervalOptions(cmd: Command): Command {
       "cluster-robust standard errors for rows grouped by COL (repeat for two-way clustering, e.g. clinic and week)",
       collect,
       [],
-    );
+    )
+    .option(
+      "--gee <structure>",
+      "estimate by GEE within the --cluster groups, with a working correlation: independence, exchangeable (every pair alike) or ar1 (fading with distance in --order-by)",
+    )
+    .option("--order-by <col>", "the column that orders the rows within a cluster (day, week, date), for --gee ar1");
 }
 
 function addModelSpecOptions(cmd: Command, multiModel: boolean): Command {

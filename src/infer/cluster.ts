@@ -6,22 +6,17 @@
 // Miller (2011), whose negative eigenvalues, when the difference makes any,
 // are set to 0 (their §2.3 fix). Wald tests from it refer to Student's t on
 // G − 1 degrees of freedom, G the smallest number of clusters.
+import type { Clustering } from "../design/clusters.js";
 import type { Design } from "../design/design.js";
 import { informationOf } from "../fit/kernel/information.js";
 import type { GlmFit } from "../fit/kernel/types.js";
 import { clipNegativeEigenvalues } from "../math/eigen.js";
 import type { SymMatrix } from "../math/linalg.js";
 
-/** A clustering of the design's rows: ids[i] in 0 … count − 1. */
-export interface Clustering {
-  column: string;
-  ids: Int32Array;
-  count: number;
-  /** The clusters' names, by id (for messages). */
-  names?: string[];
-}
+export type { Clustering } from "../design/clusters.js";
 
-function dominantOf(c: Clustering): { column: string; cluster: string; share: number }[] {
+/** Clusters that hold more than half of the rows. */
+export function dominantClusters(c: Clustering): { column: string; cluster: string; share: number }[] {
   const sizes = new Float64Array(c.count);
   let n = 0;
   for (const id of c.ids)
@@ -36,9 +31,17 @@ function dominantOf(c: Clustering): { column: string; cluster: string; share: nu
   return out;
 }
 
+export type ClusterCovarianceType =
+  | "cluster-CR1"
+  | "two-way-cluster-CR1"
+  | "gee-independence-CR1"
+  | "gee-exchangeable-CR1"
+  | "gee-ar1-CR1";
+
 export interface ClusterCovariance {
   covariance: SymMatrix;
-  type: "cluster-CR1" | "two-way-cluster-CR1";
+  /** One- or two-way CR1, or the GEE's robust covariance (with the same CR1 factor). */
+  type: ClusterCovarianceType;
   clusters: { column: string; count: number }[];
   /** Degrees of freedom of the t reference: G − 1 for the smallest G. */
   df: number;
@@ -96,7 +99,7 @@ export function clusterCovariance(design: Design, fit: GlmFit, clusterings: Clus
       clusters,
       df,
       eigenvaluesClipped: 0,
-      dominant: dominantOf(clusterings[0]),
+      dominant: dominantClusters(clusterings[0]),
     };
   const [a, b] = clusterings;
   const va = oneWay(design, fit, scores, a, nCoef);
@@ -111,6 +114,6 @@ export function clusterCovariance(design: Design, fit: GlmFit, clusterings: Clus
     clusters,
     df,
     eigenvaluesClipped: clipped,
-    dominant: [...dominantOf(a), ...dominantOf(b)],
+    dominant: [...dominantClusters(a), ...dominantClusters(b)],
   };
 }

@@ -17,6 +17,7 @@ import type { ClusterCovariance } from "./cluster.js";
 import { sandwichCovariance } from "./robust.js";
 import type { TermTest } from "./terms.js";
 import type { GroupSummary } from "./groups.js";
+import type { GeeSummary } from "./gee-inference.js";
 
 export type { FamilyName } from "../fit/count-fit.js";
 
@@ -115,6 +116,8 @@ export interface FitSummary {
   standard_errors: "model" | "robust" | "cluster";
   /** With --cluster: the covariance type, the cluster columns and counts, and the df of the t reference. */
   covariance?: { type: string; clusters: { column: string; count: number }[]; t_df: number };
+  /** With --gee: the working correlation, its parameter, the scale and the model-based standard errors. */
+  gee?: GeeSummary;
   profile_reference: string | null;
   /** Tests for dropping each term (present when computed). */
   term_tests?: TermTest[];

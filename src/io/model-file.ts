@@ -40,7 +40,13 @@ export interface ModelFile {
     terms: string[];
     matrix: number[][];
     /** Absent or "model": the inverse Fisher information; otherwise a cluster-robust covariance (already final). */
-    type?: "model" | "cluster-CR1" | "two-way-cluster-CR1";
+    type?:
+      | "model"
+      | "cluster-CR1"
+      | "two-way-cluster-CR1"
+      | "gee-independence-CR1"
+      | "gee-exchangeable-CR1"
+      | "gee-ar1-CR1";
     clusters?: { column: string; count: number }[];
   };
   /** Quasi-Poisson phi (1 otherwise); the covariance above is not yet multiplied by it. */

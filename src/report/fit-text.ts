@@ -169,18 +169,21 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
     ? `cluster-robust (CR1) standard errors over ${s.covariance.clusters.map((c) => `${fixed(c.count, 0)} ${c.column} clusters`).join(" and ")}${s.covariance.type === "two-way-cluster-CR1" ? " (two-way)" : ""}`
     : "";
   const tDf = s.covariance ? s.covariance.t_df : s.df_residual;
-  const seText = s.covariance
-    ? clusterText
-    : s.standard_errors === "robust"
-      ? "sandwich (Huber–White) standard errors"
-      : s.family === "quasipoisson"
-        ? `standard errors from the inverse Fisher information times √φ (φ = ${fixed(s.dispersion.phi_used, 3)})`
-        : "standard errors from the inverse Fisher information";
+  const seText = s.gee
+    ? `GEE robust (CR1) standard errors over ${fixed(s.gee.clusters, 0)} ${s.gee.cluster_column} clusters`
+    : s.covariance
+      ? clusterText
+      : s.standard_errors === "robust"
+        ? "sandwich (Huber–White) standard errors"
+        : s.family === "quasipoisson"
+          ? `standard errors from the inverse Fisher information times √φ (φ = ${fixed(s.dispersion.phi_used, 3)})`
+          : "standard errors from the inverse Fisher information";
   out.push(
     `  ${seText}; ${s.test_distribution === "t" ? `t and p against Student's t on ${fixed(tDf, 0)} df` : "z and p against the standard normal"}`,
   );
   if (s.profile_reference) out.push(`  profile limits: ${s.profile_reference}`);
   out.push("");
+  if (s.gee) out.push(...geeBlock(s, o));
 
   if (s.term_tests?.length) {
     const kind = s.term_tests[0].test;
@@ -271,6 +274,40 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
     ),
   );
   return `${out.join("\n")}\n`;
+}
+
+const STRUCTURE_WORDS = {
+  independence: "independence (rows of a cluster uncorrelated; the errors are still cluster-robust)",
+  exchangeable: "exchangeable (every pair of rows in a cluster equally correlated)",
+  ar1: "first-order autoregressive (correlation ρ^k between rows k apart)",
+} as const;
+
+/** The working correlation, its parameter and the scale of a GEE fit. */
+function geeBlock(s: FitSummary, o: TextOptions): string[] {
+  const g = s.gee!;
+  const sizes = g.cluster_sizes;
+  const rows: string[][] = [
+    ["working correlation", STRUCTURE_WORDS[g.working_correlation]],
+    ...(g.working_correlation === "independence" ? [] : [["ρ (moment estimate)", fixed(g.correlation, 4)]]),
+    ...(g.order_by ? [["order within a cluster", `by ${g.order_by}`]] : []),
+    [
+      "clusters",
+      `${fixed(g.clusters, 0)} of ${g.cluster_column}, ${fixed(sizes.min, 0)} to ${fixed(sizes.max, 0)} rows (mean ${fixed(sizes.mean, 1)})`,
+    ],
+    [
+      "scale φ",
+      g.scale_estimated ? `${fixed(g.scale, 4)} (Pearson moment estimate)` : "1 (fixed by the family's variance)",
+    ],
+    ...(g.negbin_alpha_held !== null
+      ? [["NB2 alpha", `${sig(g.negbin_alpha_held)}, held at its independence maximum-likelihood value`]]
+      : []),
+    ["scoring steps", `${g.iterations}${g.converged ? "" : " (not settled)"}`],
+  ];
+  return [
+    o.style.heading("Within-cluster correlation (generalized estimating equations)"),
+    ...table(rows, ["l", "l"]),
+    "",
+  ];
 }
 
 /** Numbered warnings (when there are any), then the short caution that ends every report. */

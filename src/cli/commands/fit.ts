@@ -5,7 +5,8 @@ import { naturalCompare } from "../../design/naming.js";
 import { EXIT, InputError } from "../../errors.js";
 import type { FamilyChoice } from "../../fit/count-fit.js";
 import { summarizeGroups } from "../../infer/groups.js";
-import type { Clustering } from "../../infer/cluster.js";
+import { clusteringOf, orderKeyOf } from "../../design/clusters.js";
+import { WORKING_CORRELATIONS } from "../../fit/working-correlation.js";
 import type { CountSpread } from "../../infer/ratio-limits.js";
 import type { FitSummary } from "../../infer/summary.js";
 import { renderFitText } from "../../report/fit-text.js";
@@ -28,6 +29,8 @@ export type FitCliOptions = ModelOptions & {
   level: string;
   intervals?: string;
   cluster: string[];
+  gee?: string;
+  orderBy?: string;
   alpha: string;
   saveModel?: string;
   summaryBy?: string;
@@ -35,20 +38,6 @@ export type FitCliOptions = ModelOptions & {
 };
 
 export { VERSION };
-
-/** A clustering of the design's rows from a column's labels (a missing label is a cluster of its own). */
-function clusteringOf(column: string, labels: string[]): Clustering {
-  const index = new Map<string, number>();
-  const ids = Int32Array.from(labels, (l) => {
-    let id = index.get(l);
-    if (id === undefined) {
-      id = index.size;
-      index.set(l, id);
-    }
-    return id;
-  });
-  return { column, ids, count: index.size, names: [...index.keys()] };
-}
 
 /** How the counts vary about the fitted means, for the O/E limits of --summary-by. */
 function spreadOf(summary: FitSummary): CountSpread {
@@ -76,6 +65,21 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
     throw new InputError(
       "--cluster and --robust are two covariances; give one (--cluster already allows for dependence).",
     );
+  const gee = opts.gee ? oneOf("--gee", opts.gee, WORKING_CORRELATIONS) : null;
+  if (gee && opts.cluster.length !== 1)
+    throw new InputError(
+      "--gee solves the estimating equations within clusters: give the clusters with --cluster COL (once).",
+    );
+  if (gee && opts.weights)
+    throw new InputError(
+      "--gee does not take --weights: give one row per count (frequency weights are not defined for GEE here).",
+    );
+  if (gee === "ar1" && !opts.orderBy)
+    throw new InputError(
+      "--gee ar1 needs the order of the rows within a cluster: add --order-by COL (a day, week or date column).",
+    );
+  if (opts.orderBy && gee !== "ar1")
+    throw new InputError("--order-by orders the rows within a cluster for --gee ar1; leave it out otherwise.");
   if (opts.cluster.length && opts.intervals && opts.intervals !== "wald")
     throw new InputError(
       "with --cluster only Wald limits from the cluster-robust covariance are valid: profile limits come from a likelihood that treats every row as independent. Leave out --intervals (or give --intervals wald).",
@@ -93,18 +97,28 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
   if (opts.output) outputs.claim(opts.output, "--output");
   if (opts.saveModel) outputs.claim(opts.saveModel, "--save-model");
   if (opts.plot) outputs.claim(opts.plot, "--plot");
-  const alsoRead = [...(opts.summaryBy ? [opts.summaryBy] : []), ...opts.cluster];
+  const alsoRead = [
+    ...(opts.summaryBy ? [{ column: opts.summaryBy, option: "--summary-by" }] : []),
+    ...opts.cluster.map((column) => ({ column, option: "--cluster" })),
+    ...(opts.orderBy ? [{ column: opts.orderBy, option: "--order-by" }] : []),
+  ];
   const { designs, control, labels, sha256 } = await loadDesigns(file, opts, [opts.model[0]], alsoRead);
   const design = designs[0];
   if (opts.plot) plotKind(opts.plot);
   const onProgress = fittingProgress(opts, design.n);
+  const clusters = opts.cluster.map((c) => clusteringOf(c, labels.get(c)!));
+  const order =
+    gee && opts.orderBy
+      ? orderKeyOf(opts.orderBy, labels.get(opts.orderBy)!, design.rowIndex, clusters[0], design.source)
+      : null;
   const { summary, countFit, cluster } = await analyzeFitParallel(design, {
     family,
     control,
     level,
     intervals,
     robust: !!opts.robust,
-    clusters: opts.cluster.map((c) => clusteringOf(c, labels.get(c)!)),
+    clusters,
+    gee: gee ? { structure: gee, order, orderBy: opts.orderBy ?? null } : undefined,
     testLevel,
     merge,
     onProgress,
