@@ -124,6 +124,11 @@ export function plotKind(path: string): "svg" | "png" {
   throw new InputError(`--plot takes a file name ending in .svg or .png (got '${path}').`);
 }
 
+/** --cluster COL (repeatable) with the help text of the command that uses it. */
+export function addClusterOption(cmd: Command, help: string): Command {
+  return cmd.option("--cluster <col>", help, collect, []);
+}
+
 /** The model, family and design options of fit, check and compare. */
 export function addModelOptions(cmd: Command, multiModel = false): Command {
   return addModelSpecOptions(cmd, multiModel);

@@ -1,10 +1,11 @@
 // The command surface: each command's arguments and options, wired to its run function.
 import { Command } from "commander";
 import { runCheck } from "./commands/check.js";
-import { runCompare } from "./commands/compare.js";
+import { type CompareCliOptions, runCompare } from "./commands/compare.js";
 import { type FitCliOptions, runFit, VERSION } from "./commands/fit.js";
 import { type PredictCliOptions, runPredict } from "./commands/predict.js";
 import {
+  addClusterOption,
   addFitControlOptions,
   addIntervalOptions,
   addModelOptions,
@@ -112,11 +113,13 @@ export function buildProgram(onResult: (code: number) => void): Command {
     "compare",
     "nested-model tests and information criteria for two or more models on the same rows",
     "text or json",
-    (c) => c,
+    (c) =>
+      addClusterOption(
+        c,
+        "test nested models by Wald F with cluster-robust covariances for rows grouped by COL (repeat for two-way)",
+      ),
     true,
-  ).action(async (file: string | undefined, opts: ModelOptions & { family: string[] }) =>
-    onResult(await runCompare(file, opts)),
-  );
+  ).action(async (file: string | undefined, opts: CompareCliOptions) => onResult(await runCompare(file, opts)));
   withExamples(compare, EXAMPLES.compare);
   return program;
 }

@@ -3,7 +3,9 @@
 import type { Design } from "../design/design.js";
 import type { CountFit } from "../fit/count-fit.js";
 import { chiSquareUpperTail, fUpperTail } from "../math/distributions.js";
+import type { ClusterCovariance } from "./cluster.js";
 import { fitStatistics } from "./fit-statistics.js";
+import { waldStatistic } from "./wald-terms.js";
 
 export interface CompareEntry {
   design: Design;
@@ -26,7 +28,7 @@ export interface CompareModel {
 export interface ComparePair {
   smaller: number;
   larger: number;
-  test: "LR chi-square" | "F" | "LR chi-square, boundary mixture";
+  test: "LR chi-square" | "F" | "LR chi-square, boundary mixture" | "Wald F";
   df: number;
   statistic: number | null;
   p_value: number | null;
@@ -43,6 +45,8 @@ export interface CompareResult {
   models: CompareModel[];
   nested: ComparePair[];
   not_nested: [number, number][];
+  /** With --cluster: the covariance the nested pairs' Wald tests use. */
+  covariance?: { type: string; clusters: { column: string; count: number }[]; t_df: number };
   notes: string[];
   warnings: string[];
 }
@@ -67,7 +71,75 @@ function params(e: CompareEntry): number {
   return fitStatistics(e.design, e.mf.fit, e.mf.family === "negbin").nPar;
 }
 
-export function compareModels(entries: CompareEntry[]): CompareResult {
+/** The larger model's estimated columns that the smaller lacks (its extra terms, and the intercept if only it has one). */
+function extraColumns(a: CompareEntry, b: CompareEntry): { cols: number[]; noEvents: boolean } {
+  const keysA = new Set(a.design.model.terms.map((t) => key(t.variables)));
+  const cols: number[] = [];
+  let noEvents = false;
+  b.design.columns.forEach((col, c) => {
+    const extra = col.term < 0 ? !a.design.model.intercept : !keysA.has(key(b.design.model.terms[col.term].variables));
+    if (!extra) return;
+    if (b.mf.fit.status[c] === "no_events") noEvents = true;
+    if (b.mf.fit.status[c] === "estimated") cols.push(c);
+  });
+  return { cols, noEvents };
+}
+
+/**
+ * Under clustering, a nested pair is tested by the Wald F of the larger
+ * model's extra columns with its cluster-robust covariance, F = W/df on
+ * (df, G − 1) (Cameron and Miller 2015, §VI.B); likelihood-ratio tests assume
+ * independent rows.
+ */
+function clusteredPair(
+  a: CompareEntry,
+  b: CompareEntry,
+  cov: ClusterCovariance,
+): Omit<ComparePair, "smaller" | "larger"> {
+  const test = "Wald F" as const;
+  if (a.mf.family !== b.mf.family)
+    return {
+      test,
+      df: 0,
+      statistic: null,
+      p_value: null,
+      note: "the families differ: the extra parameter (alpha) has no cluster-robust Wald test",
+    };
+  const { cols, noEvents } = extraColumns(a, b);
+  if (noEvents)
+    return {
+      test,
+      df: 0,
+      statistic: null,
+      p_value: null,
+      note: "a level of an extra term has no events: its estimate is not finite and a Wald test does not exist",
+    };
+  if (cols.length === 0)
+    return { test, df: 0, statistic: null, p_value: null, note: "no extra estimated columns: compare by the criteria" };
+  const w = waldStatistic(b.mf, cov.covariance, cols);
+  if (w === null)
+    return {
+      test,
+      df: 0,
+      statistic: null,
+      p_value: null,
+      note: "the extra columns' covariance is singular; no Wald test",
+    };
+  const f = w / cols.length;
+  return {
+    test,
+    df: cols.length,
+    statistic: f,
+    p_value: fUpperTail(f, cols.length, cov.df),
+    note: `cluster-robust covariance of the larger model; F on (${cols.length}, ${cov.df}) df`,
+  };
+}
+
+/**
+ * Compare fits on the same rows; with `clustered` (one cluster-robust
+ * covariance per entry, from --cluster) nested pairs get cluster-robust Wald F tests.
+ */
+export function compareModels(entries: CompareEntry[], clustered?: ClusterCovariance[]): CompareResult {
   const stats = entries.map((e) => fitStatistics(e.design, e.mf.fit, e.mf.family === "negbin"));
   const models: CompareModel[] = entries.map((e, i) => {
     const quasi = e.mf.family === "quasipoisson";
@@ -103,6 +175,10 @@ export function compareModels(entries: CompareEntry[]): CompareResult {
       if (isNested(entries[j], entries[i]) && j < i) continue; // identical: listed once
       const a = entries[i],
         b = entries[j];
+      if (clustered) {
+        nested.push({ smaller: i + 1, larger: j + 1, ...clusteredPair(a, b, clustered[j]) });
+        continue;
+      }
       const df = params(b) - params(a);
       if (df <= 0) {
         nested.push({
@@ -158,6 +234,10 @@ export function compareModels(entries: CompareEntry[]): CompareResult {
   const d0 = entries[0].design;
   const notes: string[] = [];
   if (notNested.length) notes.push("models that are not nested are compared by AIC and BIC only");
+  if (clustered)
+    notes.push(
+      "with --cluster the nested pairs are tested by Wald F with the larger model's cluster-robust covariance; the log-likelihoods, AIC and BIC assume independent rows, so here they describe the fit but do not account for the clustering",
+    );
   if (models.some((m) => m.family === "quasipoisson"))
     notes.push("quasi-Poisson has no likelihood, so no AIC or BIC; nested quasi-Poisson models get F tests");
   return {
@@ -174,6 +254,9 @@ export function compareModels(entries: CompareEntry[]): CompareResult {
     models,
     nested,
     not_nested: notNested,
+    ...(clustered
+      ? { covariance: { type: clustered[0].type, clusters: clustered[0].clusters, t_df: clustered[0].df } }
+      : {}),
     notes,
     warnings: [...d0.notices],
   };

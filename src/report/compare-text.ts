@@ -51,8 +51,13 @@ export function renderCompareText(r: CompareResult, o: { style: Style; width: nu
     );
     out.push("");
   }
-  for (const n of r.notes.filter((n) => !n.startsWith("models that are not nested")))
-    out.push(...wrap(`Note: ${n}.`, o.width - 2, "  ").map((l) => `  ${l}`));
+  if (r.covariance)
+    out.push(
+      `  clusters: ${r.covariance.clusters.map((c) => `${fixed(c.count, 0)} of ${c.column}`).join(" and ")}; Wald F on ${fixed(r.covariance.t_df, 0)} denominator df`,
+    );
+  const notes = r.notes.filter((n) => !n.startsWith("models that are not nested"));
+  for (const n of notes) out.push(...wrap(`Note: ${n}.`, o.width - 2, "  ").map((l) => `  ${l}`));
+  if (notes.length || r.covariance) out.push("");
   out.push(...wrap(`Reading these results: ${CAUTION}`, o.width));
   return `${out.join("\n")}\n`;
 }

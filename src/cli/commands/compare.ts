@@ -1,5 +1,6 @@
 // tallyfit compare: two or more models on the same rows.
 import { analyzeCompare } from "../../analysis/compare.js";
+import { clusteringOf } from "../../design/clusters.js";
 import { EXIT, InputError } from "../../errors.js";
 import type { FamilyName } from "../../fit/count-fit.js";
 import { renderCompareText } from "../../report/compare-text.js";
@@ -11,7 +12,7 @@ import { displaySafe } from "../../report/safe-text.js";
 import { RunOutputs } from "../run-outputs.js";
 import { mergeChoice } from "./shared.js";
 
-export type CompareCliOptions = ModelOptions & { family: string[] };
+export type CompareCliOptions = ModelOptions & { family: string[]; cluster: string[] };
 
 export async function runCompare(file: string | undefined, opts: CompareCliOptions): Promise<number> {
   if (opts.model.length < 2) throw new InputError("compare needs two or more --model options.");
@@ -25,13 +26,20 @@ export async function runCompare(file: string | undefined, opts: CompareCliOptio
   const merge = mergeChoice(opts);
   const outputs = new RunOutputs([file ?? "-"]);
   if (opts.output) outputs.claim(opts.output, "--output");
-  const { designs, control } = await loadDesigns(file, opts, opts.model);
+  if (opts.cluster.length > 2) throw new InputError("--cluster is given once (one-way) or twice (two-way clustering).");
+  const { designs, control, labels } = await loadDesigns(
+    file,
+    opts,
+    opts.model,
+    opts.cluster.map((column) => ({ column, option: "--cluster" })),
+  );
   const responses = [...new Set(designs.map((d) => d.model.response))];
   if (responses.length > 1)
     throw new InputError(
       `compare needs the same count column in every model (got ${responses.map((r) => `'${r}'`).join(" and ")}); models of different counts cannot be compared by their likelihoods.`,
     );
-  const result = analyzeCompare(designs, families, control, merge);
+  const clusters = opts.cluster.map((c) => clusteringOf(c, labels.get(c)!));
+  const result = analyzeCompare(designs, families, control, merge, clusters);
   const content =
     opts.format === "json" ? renderJson(result) : renderCompareText(displaySafe(result), textLayout(opts));
   await finish(outputs, opts, content);
