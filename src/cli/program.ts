@@ -1,6 +1,6 @@
 // The command surface: each command's arguments and options, wired to its run function.
 import { Command } from "commander";
-import { runCheck } from "./commands/check.js";
+import { type CheckCliOptions, runCheck } from "./commands/check.js";
 import { type CompareCliOptions, runCompare } from "./commands/compare.js";
 import { type FitCliOptions, runFit, VERSION } from "./commands/fit.js";
 import { type PredictCliOptions, runPredict } from "./commands/predict.js";
@@ -100,12 +100,17 @@ export function buildProgram(onResult: (code: number) => void): Command {
     "check",
     "dispersion and zero-count diagnostics of the Poisson model; exit code 4 when a test flags",
     "text or json",
-    addPlotOption,
+    (c) =>
+      addClusterOption(
+        addPlotOption(c),
+        "also read whether counts of the same COL move together (share of residual variation between clusters)",
+      ).option(
+        "--order-by <col>",
+        "with --cluster: also the lag-1 serial correlation of residuals within clusters in COL's order",
+      ),
   )
     .option("--alpha <p>", "test level: a test flags when its p-value is below this", "0.05")
-    .action(async (file: string | undefined, opts: ModelOptions & { family: string; alpha: string }) =>
-      onResult(await runCheck(file, opts)),
-    );
+    .action(async (file: string | undefined, opts: CheckCliOptions) => onResult(await runCheck(file, opts)));
   withExamples(check, EXAMPLES.check);
 
   const compare = fittingCommand(

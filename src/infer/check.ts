@@ -4,12 +4,21 @@ import type { Design } from "../design/design.js";
 import { informationOf } from "../fit/kernel/information.js";
 import type { CountFit } from "../fit/count-fit.js";
 import { chiSquareUpperTail, normalUpperTail } from "../math/distributions.js";
+import type { DependenceReading } from "./dependence.js";
 import { boundaryLrTest, fitStatistics } from "./fit-statistics.js";
 
 export interface CheckTest {
   /** Short label for lists. */
   short: string;
-  name: "pearson" | "deviance" | "cameron_trivedi" | "dean_lawless" | "lr_negbin" | "zero_inflation";
+  name:
+    | "pearson"
+    | "deviance"
+    | "cameron_trivedi"
+    | "dean_lawless"
+    | "lr_negbin"
+    | "zero_inflation"
+    | "cluster_icc"
+    | "serial_lag1";
   label: string;
   statistic: number;
   df: number | null;
@@ -35,12 +44,63 @@ export interface CheckResult {
   tests: CheckTest[];
   verdict: { code: VerdictCode; text: string; next_step: string };
   flagged: boolean;
+  /** With --cluster: whether counts within clusters are dependent. */
+  dependence?: DependenceReading;
   warnings: string[];
 }
 
+const NOT_DISPERSION = new Set<CheckTest["name"]>(["zero_inflation", "cluster_icc", "serial_lag1"]);
+
 /** Dispersion tests only (used by --family auto): true when any flags overdispersion. */
 export function dispersionFlagged(r: CheckResult): CheckTest[] {
-  return r.tests.filter((t) => t.flagged && t.name !== "zero_inflation");
+  return r.tests.filter((t) => t.flagged && !NOT_DISPERSION.has(t.name));
+}
+
+/** The check with the dependence reading of --cluster added: its tests, its flag and its next step. */
+export function withDependence(r: CheckResult, d: DependenceReading): CheckResult {
+  const fmt = (x: number) => x.toFixed(3);
+  const tests: CheckTest[] = [
+    ...r.tests,
+    {
+      name: "cluster_icc",
+      short: `between-${d.cluster_column} share`,
+      label: `Intraclass correlation of residuals by ${d.cluster_column}`,
+      statistic: d.icc.f,
+      df: d.icc.df1,
+      p_value: d.icc.p_value,
+      flagged: d.icc.flagged,
+      reference: `F on (${d.icc.df1}, ${d.icc.df2}) df, one-way analysis of variance`,
+      reading: `ICC ${fmt(d.icc.estimate)} (${Math.round(100 * d.icc.level)}% ${fmt(d.icc.ci[0])} to ${fmt(d.icc.ci[1])}) over ${d.clusters} clusters; ${d.icc.flagged ? "counts from the same cluster move together" : "no sign of a shared cluster level"}`,
+    },
+  ];
+  if (d.serial)
+    tests.push({
+      name: "serial_lag1",
+      short: `lag-1 within ${d.cluster_column}`,
+      label: `Lag-1 serial correlation within ${d.cluster_column} by ${d.serial.order_by}`,
+      statistic: d.serial.z,
+      df: null,
+      p_value: d.serial.p_value,
+      flagged: d.serial.flagged,
+      reference: "one-sided standard normal, residuals centred within each cluster",
+      reading: `lag-1 correlation ${fmt(d.serial.estimate)} over ${d.serial.pairs} neighbouring pairs; ${d.serial.flagged ? "neighbouring rows move together" : "no sign that neighbouring rows move together"}`,
+    });
+  const dependent = d.icc.flagged || !!d.serial?.flagged;
+  return {
+    ...r,
+    tests,
+    dependence: d,
+    flagged: r.flagged || dependent,
+    verdict: !dependent
+      ? r.verdict
+      : r.verdict.code === "poisson_adequate"
+        ? {
+            code: r.verdict.code,
+            text: `The Poisson variance is adequate (no dispersion or zero-count test flags at ${r.test_level}), but counts within clusters are dependent.`,
+            next_step: `${d.reading.charAt(0).toUpperCase()}${d.reading.slice(1)}`,
+          }
+        : { ...r.verdict, next_step: `${r.verdict.next_step} Also: ${d.reading}` },
+  };
 }
 
 /**

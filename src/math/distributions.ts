@@ -87,6 +87,11 @@ export function fUpperTail(f: number, df1: number, df2: number): number {
   return 1 - jStat.centralF.cdf(f, df1, df2);
 }
 
+/** Quantile of the F distribution on (df1, df2): the f with P(F ≤ f) = p. */
+export function fQuantile(p: number, df1: number, df2: number): number {
+  return jStat.centralF.inv(p, df1, df2);
+}
+
 /** P(Y ≤ k) for a Poisson(mu): the upper regularised incomplete gamma Q(k + 1, mu). */
 export function poissonCdf(k: number, mu: number): number {
   if (k < 0) return 0;

@@ -7,7 +7,11 @@ import type { Style } from "./style.js";
 export function renderCheckText(r: CheckResult, o: { style: Style; width: number }): string {
   const st = o.style;
   const out: string[] = [];
-  out.push(st.heading(`Dispersion and zero-count check of the Poisson model`));
+  out.push(
+    st.heading(
+      `Dispersion${r.dependence ? ", zero-count and dependence" : " and zero-count"} check of the Poisson model`,
+    ),
+  );
   out.push(`  data    ${r.source}: ${fixed(r.n_used, 0)} rows used`);
   out.push(`  model   ${r.model}${r.exposure ? `, exposure ${r.exposure}` : ""}`);
   out.push(`  level   each test flags at p < ${r.test_level}`);
@@ -27,7 +31,7 @@ export function renderCheckText(r: CheckResult, o: { style: Style; width: number
   out.push(st.heading("Readings"));
   for (const t of r.tests) out.push(...wrap(`${t.label}: ${t.reading}.`, o.width - 2, "    ").map((l) => `  ${l}`));
   out.push("");
-  const paint = r.verdict.code === "poisson_adequate" ? st.good : st.caution;
+  const paint = r.verdict.code === "poisson_adequate" && !r.flagged ? st.good : st.caution;
   out.push(st.heading("Verdict"));
   out.push(...wrap(paint(r.verdict.text), o.width - 2, "  ").map((l) => `  ${l}`));
   out.push(...wrap(`Next: ${r.verdict.next_step}`, o.width - 2, "  ").map((l) => `  ${l}`));

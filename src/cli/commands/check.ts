@@ -1,6 +1,7 @@
 // tallyfit check: the dispersion and zero-count tests, the verdict in the exit code.
 import { analyzeCheckWithFits } from "../../analysis/check.js";
 import { diagnosticsOf } from "../../analysis/fit.js";
+import { clusteringOf, orderKeyOf } from "../../design/clusters.js";
 import { EXIT, InputError } from "../../errors.js";
 import { summarizeFit } from "../../infer/summary.js";
 import { renderCheckText } from "../../report/check-text.js";
@@ -13,7 +14,7 @@ import { RunOutputs } from "../run-outputs.js";
 import { clearProgressLine, fittingProgress, progressOnTerminal } from "../terminal.js";
 import { mergeChoice } from "./shared.js";
 
-export type CheckCliOptions = ModelOptions & { family: string; alpha: string };
+export type CheckCliOptions = ModelOptions & { family: string; alpha: string; cluster: string[]; orderBy?: string };
 
 export async function runCheck(file: string | undefined, opts: CheckCliOptions): Promise<number> {
   if (opts.model.length !== 1) throw new InputError('check needs one --model "COUNT ~ TERMS".');
@@ -24,11 +25,36 @@ export async function runCheck(file: string | undefined, opts: CheckCliOptions):
   const outputs = new RunOutputs([file ?? "-"]);
   if (opts.output) outputs.claim(opts.output, "--output");
   if (opts.plot) outputs.claim(opts.plot, "--plot");
-  const { designs, control } = await loadDesigns(file, opts, [opts.model[0]]);
+  if (opts.cluster.length > 1)
+    throw new InputError("check reads dependence within one clustering: give --cluster once (e.g. --cluster clinic).");
+  if (opts.orderBy && opts.cluster.length === 0)
+    throw new InputError("--order-by orders the rows within the clusters of --cluster; give --cluster COL as well.");
+  if (opts.cluster.length && opts.weights)
+    throw new InputError("the dependence reading of --cluster does not take --weights: give one row per count.");
+  const alsoRead = [
+    ...opts.cluster.map((column) => ({ column, option: "--cluster" })),
+    ...(opts.orderBy ? [{ column: opts.orderBy, option: "--order-by" }] : []),
+  ];
+  const { designs, control, labels } = await loadDesigns(file, opts, [opts.model[0]], alsoRead);
   const design = designs[0];
+  const cluster = opts.cluster.length ? clusteringOf(opts.cluster[0], labels.get(opts.cluster[0])!) : undefined;
+  const orderBy =
+    cluster && opts.orderBy
+      ? {
+          column: opts.orderBy,
+          key: orderKeyOf(opts.orderBy, labels.get(opts.orderBy)!, design.rowIndex, cluster, design.source),
+        }
+      : null;
   if (opts.plot) plotKind(opts.plot);
   const onProgress = fittingProgress(opts, design.n);
-  const { check, poisson } = analyzeCheckWithFits(design, { control, testLevel, merge, onProgress });
+  const { check, poisson } = analyzeCheckWithFits(design, {
+    control,
+    testLevel,
+    merge,
+    onProgress,
+    cluster,
+    orderBy,
+  });
   if (onProgress && progressOnTerminal()) clearProgressLine();
   if (opts.plot) {
     // The picture's forest panel shows 95% Wald intervals (check has no interval options of its own).
