@@ -13,7 +13,6 @@ import {
   addOutputOptions,
   addReadOptions,
   addTerminalOptions,
-  type ModelOptions,
 } from "./options.js";
 
 const FILE_ARG = "CSV file, or - for standard input";
