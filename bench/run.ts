@@ -1,6 +1,7 @@
 // npm run bench: end-to-end timings of the CLI on seeded files, side by side
 // with the yardstick (pandas' C CSV reader + a numpy IRLS loop, bench/yardstick.py).
-//   npm run bench                          100,000 rows (NB and profile limits against the Poisson fit), then
+//   npm run bench                          100,000 rows (NB, clustered and GEE fits and profile limits against
+//                                          the Poisson fit), then
 //                                          1,000,000 rows (about 22 MB) against the yardstick; 3 alternating runs each
 //   npm run bench -- --rows 100000 --reps 5
 //   npm run bench -- --big                 also 10,000,000 rows (about 220 MB), one run per family, and the
@@ -87,6 +88,30 @@ async function bench(rows: number, reps: number, withYardstick: boolean): Promis
     ["tallyfit poisson (Wald)", process.execPath, [BIN, ...base, "--intervals", "wald"]],
     ["tallyfit negbin (Wald)", process.execPath, [BIN, ...base, "--family", "negbin", "--intervals", "wald"]],
   ];
+  if (rows <= 100000)
+    cases.push(
+      // Clustered counts: the same fits with cluster-robust errors (20 region clusters), two-way, and GEE.
+      [
+        "tallyfit poisson --cluster region",
+        process.execPath,
+        [BIN, ...base, "--intervals", "wald", "--cluster", "region"],
+      ],
+      [
+        "tallyfit negbin --cluster region",
+        process.execPath,
+        [BIN, ...base, "--family", "negbin", "--intervals", "wald", "--cluster", "region"],
+      ],
+      [
+        "tallyfit poisson, two-way region × agegrp",
+        process.execPath,
+        [BIN, ...base, "--intervals", "wald", "--cluster", "region", "--cluster", "agegrp"],
+      ],
+      [
+        "tallyfit poisson --gee exchangeable",
+        process.execPath,
+        [BIN, ...base, "--intervals", "wald", "--cluster", "region", "--gee", "exchangeable"],
+      ],
+    );
   if (rows <= 100000)
     cases.push([
       "tallyfit poisson, profile limits, 30 coef.",

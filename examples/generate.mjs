@@ -2,8 +2,11 @@
 // Writes the invented demo data sets in this folder from a fixed seed.
 // Scenario (invented for tallyfit): a network of six walk-in clinics records
 // visits per clinic-day with the hours it was open; a hospital records falls
-// per ward-month with occupied bed-days. Nothing here is real data.
-//   node examples/generate.mjs          (after npm ci, which builds dist/) rewrites clinic_visits.csv, clinic_visits_week49.csv and ward_falls.csv
+// per ward-month with occupied bed-days; a regional network of thirty
+// community clinics records two years of weekday visits, where counts of one
+// clinic share its level and its run of busy or quiet weeks. Nothing here is real data.
+//   node examples/generate.mjs          (after npm ci, which builds dist/) rewrites clinic_visits.csv,
+//                                        clinic_visits_week49.csv, ward_falls.csv and clinic_network.csv
 import { writeFileSync } from "node:fs";
 import { dirname, join } from "node:path";
 import { fileURLToPath } from "node:url";
@@ -61,6 +64,61 @@ function wardFalls() {
   return `${lines.join("\n")}\n`;
 }
 
+/** ISO 8601 week label (YYYY-Www) of a UTC date: the week of its Thursday. */
+function isoWeek(t) {
+  const d = new Date(t);
+  const thursday = new Date(t + (3 - ((d.getUTCDay() + 6) % 7)) * 86400000);
+  const jan1 = Date.UTC(thursday.getUTCFullYear(), 0, 1);
+  const week = 1 + Math.floor((thursday.getTime() - jan1) / (7 * 86400000));
+  return `${thursday.getUTCFullYear()}-W${String(week).padStart(2, "0")}`;
+}
+
+/**
+ * Thirty clinics, weekdays from 6 January 2025 for 104 weeks. Each clinic has
+ * its own level (normal, sd 0.25 on the log scale) and a run of busy or quiet
+ * weeks (a first-order autoregressive week shock per clinic, coefficient 0.6,
+ * sd 0.15); the whole network shares a week shock too (sd 0.08: weather,
+ * school holidays). Half the clinics are walk-in only (about 15% more visits
+ * per open hour); visits rise slowly (5% a year) and peak in winter.
+ */
+function clinicNetwork(seed = 20261202) {
+  const u = rng(seed);
+  const clinics = Array.from({ length: 30 }, (_, k) => ({
+    name: `site_${String(k + 1).padStart(2, "0")}`,
+    walkIn: k % 2 === 0 ? "yes" : "no",
+    level: 0.25 * normal(u),
+    shock: 0,
+  }));
+  const weekdays = ["mon", "tue", "wed", "thu", "fri"];
+  const lines = ["date,week,weekday,clinic,walk_in_only,open_hours,visits"];
+  const start = Date.UTC(2025, 0, 6); // a Monday
+  for (let week = 0; week < 104; week++) {
+    const shared = 0.08 * normal(u);
+    for (const c of clinics) c.shock = 0.6 * c.shock + 0.15 * normal(u);
+    for (let d = 0; d < 5; d++) {
+      const t = start + (week * 7 + d) * 86400000;
+      const date = new Date(t).toISOString().slice(0, 10);
+      const dayOfYear = (t - Date.UTC(new Date(t).getUTCFullYear(), 0, 1)) / 86400000;
+      const season = 0.18 * Math.cos((2 * Math.PI * (dayOfYear - 20)) / 365.25);
+      const years = (week * 7 + d) / 365.25;
+      for (const c of clinics) {
+        const hours = d === 4 ? 6 : 8 + Math.floor(u() * 3);
+        const rate = Math.exp(
+          Math.log(1.6) +
+            c.level +
+            (c.walkIn === "yes" ? Math.log(1.15) : 0) +
+            Math.log(1.05) * years +
+            season +
+            shared +
+            c.shock,
+        );
+        lines.push(`${date},${isoWeek(t)},${weekdays[d]},${c.name},${c.walkIn},${hours},${poisson(u, rate * hours)}`);
+      }
+    }
+  }
+  return `${lines.join("\n")}\n`;
+}
+
 writeFileSync(join(here, "clinic_visits.csv"), clinicVisits());
 // The next week, for the weekly prediction run: Harbour on Wednesday sees three times its usual rate.
 writeFileSync(
@@ -68,4 +126,5 @@ writeFileSync(
   clinicVisits([49, 49], 49, { clinic: "harbour", weekday: "wed", factor: 3 }),
 );
 writeFileSync(join(here, "ward_falls.csv"), wardFalls());
-console.log("wrote examples/clinic_visits.csv, clinic_visits_week49.csv and ward_falls.csv");
+writeFileSync(join(here, "clinic_network.csv"), clinicNetwork());
+console.log("wrote examples/clinic_visits.csv, clinic_visits_week49.csv, ward_falls.csv and clinic_network.csv");

@@ -69,7 +69,7 @@ export function withDependence(r: CheckResult, d: DependenceReading): CheckResul
       df: d.icc.df1,
       p_value: d.icc.p_value,
       flagged: d.icc.flagged,
-      reference: `F on (${d.icc.df1}, ${d.icc.df2}) df, one-way analysis of variance`,
+      reference: `F on (${d.icc.df1}, ${d.icc.df2.toLocaleString("en")}) df, one-way analysis of variance`,
       reading: `ICC ${fmt(d.icc.estimate)} (${Math.round(100 * d.icc.level)}% ${fmt(d.icc.ci[0])} to ${fmt(d.icc.ci[1])}) over ${d.clusters} clusters; ${d.icc.flagged ? "counts from the same cluster move together" : "no sign of a shared cluster level"}`,
     },
   ];
@@ -83,7 +83,7 @@ export function withDependence(r: CheckResult, d: DependenceReading): CheckResul
       p_value: d.serial.p_value,
       flagged: d.serial.flagged,
       reference: "one-sided standard normal, residuals centred within each cluster",
-      reading: `lag-1 correlation ${fmt(d.serial.estimate)} over ${d.serial.pairs} neighbouring pairs; ${d.serial.flagged ? "neighbouring rows move together" : "no sign that neighbouring rows move together"}`,
+      reading: `lag-1 correlation ${fmt(d.serial.estimate)} over ${d.serial.pairs.toLocaleString("en")} neighbouring pairs; ${d.serial.flagged ? "neighbouring rows move together" : "no sign that neighbouring rows move together"}`,
     });
   const dependent = d.icc.flagged || !!d.serial?.flagged;
   return {
