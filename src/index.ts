@@ -25,12 +25,15 @@ export {
 } from "./design/design.js";
 export { mergePatterns, type PatternMerge } from "./design/patterns.js";
 export { buildPredictionDesign, type PredictionDesign } from "./design/predict-design.js";
+export { clusteringOf, orderKeyOf, type Clustering } from "./design/clusters.js";
 
 // Fit: the count families by IRLS (and NB2 alpha by maximum likelihood).
 export { fitCounts, type CountFit, type FamilyChoice, type FamilyName } from "./fit/count-fit.js";
 export { fitGlm } from "./fit/kernel/glm.js";
 export { DEFAULT_CONTROL, type FitControl, type FitData, type GlmFit } from "./fit/kernel/types.js";
 export { logDensity, unitDeviance, variance } from "./fit/family.js";
+export { fitGee, type GeeFit, type GeeOptions } from "./fit/gee.js";
+export { WORKING_CORRELATIONS, type WorkingCorrelation } from "./fit/working-correlation.js";
 
 // Infer: the figures users publish and check.
 export { summarizeFit, type CoefficientRow, type FitSummary, type NegbinSummary } from "./infer/summary.js";
@@ -38,8 +41,10 @@ export { profileAll } from "./infer/intervals.js";
 export type { ProfileResult } from "./infer/profile.js";
 export { termTests, type TermTest } from "./infer/terms.js";
 export { sandwichCovariance } from "./infer/robust.js";
-export { clusterCovariance, type Clustering, type ClusterCovariance } from "./infer/cluster.js";
-export { runChecks, type CheckResult, type CheckTest } from "./infer/check.js";
+export { clusterCovariance, type ClusterCovariance } from "./infer/cluster.js";
+export { geeCovariance, type GeeSummary } from "./infer/gee-inference.js";
+export { dependenceReading, type DependenceReading } from "./infer/dependence.js";
+export { runChecks, withDependence, type CheckResult, type CheckTest } from "./infer/check.js";
 export { compareModels, type CompareResult } from "./infer/compare.js";
 export { predictRows, type PredictOptions, type PredictResult, type PredictedRow } from "./infer/predict.js";
 export { summarizeGroups, type GroupSummary } from "./infer/groups.js";

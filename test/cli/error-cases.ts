@@ -271,6 +271,20 @@ export const CASES: ErrorCase[] = [
     message: /UTF-16 text, not UTF-8/,
   },
   {
+    mistake: "GEE without the clusters",
+    content: ok,
+    args: [...M, "--gee", "exchangeable"],
+    code: 2,
+    message: /--gee solves the estimating equations within clusters: give the clusters with --cluster COL/,
+  },
+  {
+    mistake: "two rows of one cluster at the same place in --order-by",
+    content: "ward,month,beds,falls,x\na,1,100,3,1.5\na,1,120,5,2.5\nb,1,90,2,0.5\nb,2,80,4,1.0\n",
+    args: [...M, "--cluster", "ward", "--gee", "ar1", "--order-by", "month"],
+    code: 2,
+    message: /rows 2 and 3, column 'month': both rows of ward 'a' are at '1'/,
+  },
+  {
     mistake: "gzip-compressed file",
     content: new Uint8Array([0x1f, 0x8b, 8, 0, 0, 0, 0, 0]),
     args: M,
