@@ -22,6 +22,13 @@ export function renderFitMarkdown(s: FitSummary): string {
     );
   }
   out.push("");
+  if (s.covariance) {
+    const groups = s.covariance.clusters.map((c) => `${c.count} clusters of ${markdownCode(c.column)}`).join(" and ");
+    const how = s.gee
+      ? `GEE (${s.gee.working_correlation} working correlation, ρ = ${fixed(s.gee.correlation, 4)}${s.gee.order_by ? `, ordered by ${markdownCode(s.gee.order_by)}` : ""}) with robust (CR1) standard errors`
+      : "Cluster-robust (CR1) standard errors";
+    out.push(`${how} over ${groups}; Wald limits and p-values on Student's t with ${s.covariance.t_df} df.`, "");
+  }
   out.push(
     `Deviance ${fixed(s.deviance, 2)} on ${s.df_residual} df; Pearson chi-square / df ${fixed(s.dispersion.pearson, 3)}; AIC ${fixed(s.aic, 2)}.`,
     "",

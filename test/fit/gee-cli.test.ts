@@ -72,6 +72,11 @@ test("fit --gee: the text report names the working correlation and ρ; the model
     r.stdout,
     new RegExp(`ρ \\(moment estimate\\)\\s+${ref.cases.poisson_exchangeable.correlation.toFixed(4)}`),
   );
+  const md = runCli([...ARGS, "--gee", "exchangeable", "--format", "markdown"]);
+  assert.match(
+    md.stdout,
+    /GEE \(exchangeable working correlation, ρ = [0-9.]+\) with robust \(CR1\) standard errors over 18 clusters of `clinic`/,
+  );
   const dir = mkdtempSync(join(tmpdir(), "tallyfit-gee-"));
   const model = join(dir, "m.json");
   assert.equal(runCli([...ARGS, "--gee", "exchangeable", "--save-model", model, "--quiet"]).code, 0);
