@@ -14,7 +14,7 @@ export interface Clustering {
   names?: string[];
 }
 
-/** A clustering from a column's labels (a missing label is a cluster of its own). */
+/** A clustering from a column's labels (a missing label is a cluster of its own); one cluster is an input error. */
 export function clusteringOf(column: string, labels: string[]): Clustering {
   const index = new Map<string, number>();
   const ids = Int32Array.from(labels, (l) => {
@@ -25,6 +25,10 @@ export function clusteringOf(column: string, labels: string[]): Clustering {
     }
     return id;
   });
+  if (index.size < 2)
+    throw new InputError(
+      `--cluster ${column}: every row used is in one cluster ('${labels[0] ?? ""}'); clustered standard errors need at least 2 clusters (and about 30 to be reliable).`,
+    );
   return { column, ids, count: index.size, names: [...index.keys()] };
 }
 

@@ -285,6 +285,13 @@ export const CASES: ErrorCase[] = [
     message: /rows 2 and 3, column 'month': both rows of ward 'a' are at '1'/,
   },
   {
+    mistake: "one cluster only",
+    content: "ward,beds,falls,x,site\na,100,3,1.5,s1\nb,120,5,2.5,s1\na,90,2,0.5,s1\nb,80,4,1.0,s1\n",
+    args: [...M, "--cluster", "site"],
+    code: 2,
+    message: /--cluster site: every row used is in one cluster \('s1'\)/,
+  },
+  {
     mistake: "gzip-compressed file",
     content: new Uint8Array([0x1f, 0x8b, 8, 0, 0, 0, 0, 0]),
     args: M,
