@@ -1,5 +1,6 @@
 // The predict command's composition: the new rows' design under a model file,
 // their expected counts, limits and flags, and the totals by group.
+import { calendarForNewRows, calendarOfSaved } from "../design/calendar.js";
 import { naturalCompare } from "../design/naming.js";
 import { buildPredictionDesign, type PredictionDesign } from "../design/predict-design.js";
 import { type GroupSummary, summarizeGroups } from "../infer/groups.js";
@@ -9,6 +10,8 @@ import type { ModelFile } from "../io/model-file.js";
 import { columnLabels, type Table } from "../io/table.js";
 
 export interface PredictAnalysis {
+  /** The new rows with any calendar columns the model makes from their dates. */
+  table: Table;
   design: PredictionDesign;
   result: PredictResult;
   groups?: GroupSummary;
@@ -23,9 +26,13 @@ export async function analyzePredict(
   model: ModelFile,
   options: PredictOptions & { summaryBy?: string; per: number },
 ): Promise<PredictAnalysis> {
-  const design = buildPredictionDesign(table, model);
+  // Calendar terms (trend, season, day of week) are made from the new rows' dates as the fit made them.
+  const calendar = model.calendar ? calendarForNewRows(table, calendarOfSaved(model.calendar)) : null;
+  const rows = calendar ? calendar.table : table;
+  const design = buildPredictionDesign(rows, model);
   const result = await predictRowsParallel(design, model, options);
-  if (!options.summaryBy) return { design, result };
+  if (calendar) result.warnings.push(...calendar.warnings);
+  if (!options.summaryBy) return { table: rows, design, result };
   const all = Int32Array.from({ length: design.n }, (_, i) => i);
   const groups = summarizeGroups(
     options.summaryBy,
@@ -42,5 +49,5 @@ export async function analyzePredict(
         ? { family: "quasipoisson", phi: model.dispersion_phi }
         : { family: "poisson" },
   );
-  return { design, result, groups };
+  return { table: rows, design, result, groups };
 }

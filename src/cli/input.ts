@@ -6,6 +6,16 @@ import { parseFormula, termVariables } from "../formula/formula.js";
 import { loadTableStream } from "../io/csv.js";
 import { columnLabels } from "../io/table.js";
 import {
+  type Calendar,
+  type CalendarOptions,
+  calendarTerms,
+  dayRange,
+  daysOf,
+  MAX_HARMONICS,
+  withCalendarColumns,
+  withCalendarTerms,
+} from "../design/calendar.js";
+import {
   type ModelOptions,
   parseColumnList,
   parseNa,
@@ -40,47 +50,76 @@ export async function loadDesigns(
     maxIter: parsePositiveInt("--max-iter", opts.maxIter),
     tolerance: parsePositive("--tolerance", opts.tolerance),
   };
-  const specs = modelTexts.map((t) => parseFormula(t, { intercept: opts.intercept }));
+  const calendar = calendarOptionsOf(opts);
+  const mainTerms = (t: string) =>
+    parseFormula(t, { intercept: opts.intercept })
+      .terms.filter((term) => term.variables.length === 1)
+      .map((term) => term.variables[0]);
+  const texts = calendar ? modelTexts.map((t) => withCalendarTerms(t, calendar, mainTerms(t))) : modelTexts;
+  const specs = texts.map((t) => parseFormula(t, { intercept: opts.intercept }));
   const refs = parseRefs(opts.ref);
-  const order = parseOrder(opts.order);
+  const orderGiven = parseOrder(opts.order);
   const factors = parseColumnList(opts.factor);
   const path = file ?? "-";
   if (path === "-" && process.stdin.isTTY)
     throw new InputError("no input: give a CSV file, or pipe one in (a FILE of - reads standard input).");
+  const generated = calendar ? calendarTerms(calendar) : [];
   const vars = [...new Set(specs.flatMap((spec) => [spec.response, ...termVariables(spec)]))];
   const select = [
-    ...vars,
-    ...[opts.exposure, opts.offset, opts.weights].filter((x): x is string => !!x),
+    ...vars.filter((v) => !generated.includes(v)),
+    ...[opts.exposure, opts.offset, opts.weights, calendar?.column].filter((x): x is string => !!x),
     ...Object.keys(refs),
-    ...Object.keys(order),
+    ...Object.keys(orderGiven).filter((v) => !generated.includes(v)),
     ...alsoRead.map((a) => a.column),
   ];
   const name = path === "-" ? "<stdin>" : path;
   const progress = opts.quiet || !process.stderr.isTTY ? undefined : readingProgress();
-  const { table, sha256 } = await loadTableStream(
+  const { table: read, sha256 } = await loadTableStream(
     path,
     { delimiter: opts.delimiter, decimalComma: opts.decimalComma, na: parseNa(opts.na), factors, select },
     progress,
   );
   if (progress) clearProgressLine();
   for (const f of factors)
-    if (!table.header.includes(f))
+    if (!read.header.includes(f))
       throw new InputError(
-        `${name}: --factor column '${f}' is not in the file. The columns are ${table.header.map((h) => `'${h}'`).join(", ")}.`,
+        `${name}: --factor column '${f}' is not in the file. The columns are ${read.header.map((h) => `'${h}'`).join(", ")}.`,
       );
-  const designs = specs.map((spec) => {
-    const ownRefs = Object.fromEntries(
-      Object.entries(refs).filter(([k]) => termVariables(spec).includes(k) || specs.length === 1),
-    );
-    return buildDesign(table, spec, {
-      exposure: opts.exposure,
-      offset: opts.offset,
-      weights: opts.weights,
-      refs: ownRefs,
-      order,
-      complete: specs.length > 1 ? vars : undefined,
+  const days = calendar ? daysOf(read, calendar.column) : null;
+  // The trend counts from the first date among the rows used: the designs are built again when a row
+  // with an earlier date is left out (a missing value elsewhere).
+  let firstDay = days ? dayRange(days.days, null)[0] : 0;
+  let table = calendar ? withCalendarColumns(read, calendar, days!.days, firstDay, days!.daily) : read;
+  const order = { ...orderGiven };
+  if (calendar?.dayOfWeek && !order.day_of_week) {
+    const c = table.columns.get("day_of_week");
+    if (c?.kind === "factor") order.day_of_week = c.levels;
+  }
+  const build = () =>
+    specs.map((spec) => {
+      const ownRefs = Object.fromEntries(
+        Object.entries(refs).filter(([k]) => termVariables(spec).includes(k) || specs.length === 1),
+      );
+      return buildDesign(table, spec, {
+        exposure: opts.exposure,
+        offset: opts.offset,
+        weights: opts.weights,
+        refs: ownRefs,
+        order,
+        complete: specs.length > 1 ? vars : undefined,
+      });
     });
-  });
+  let designs = build();
+  if (calendar && days) {
+    const [used] = dayRange(days.days, designs[0].rowIndex);
+    if (used !== firstDay) {
+      firstDay = used;
+      table = withCalendarColumns(read, calendar, days.days, firstDay, days.daily);
+      designs = build();
+    }
+    const cal: Calendar = { ...calendar, firstDay, lastDay: dayRange(days.days, designs[0].rowIndex)[1] };
+    designs = designs.map((d) => ({ ...d, calendar: cal }));
+  }
   for (const n of designs[0].notices) notice(opts, n);
   for (const { column, option } of alsoRead)
     if (!table.columns.has(column))
@@ -89,4 +128,23 @@ export async function loadDesigns(
       );
   const labels = new Map(alsoRead.map(({ column }) => [column, columnLabels(table, column, designs[0].rowIndex)]));
   return { designs, control, labels, sha256 };
+}
+
+/** The calendar options, or null without --date (an input error when --trend, --season or --day-of-week come without it). */
+function calendarOptionsOf(opts: ModelOptions): CalendarOptions | null {
+  if (!opts.date) {
+    const orphan = opts.trend
+      ? "--trend"
+      : opts.season !== undefined
+        ? "--season"
+        : opts.dayOfWeek
+          ? "--day-of-week"
+          : null;
+    if (orphan) throw new InputError(`${orphan} makes its terms from the dates: give the date column with --date COL.`);
+    return null;
+  }
+  const season = opts.season === undefined ? 0 : parsePositiveInt("--season", opts.season);
+  if (season > MAX_HARMONICS)
+    throw new InputError(`--season takes 1 to ${MAX_HARMONICS} harmonic pairs (got ${season}).`);
+  return { column: opts.date, trend: !!opts.trend, season, dayOfWeek: !!opts.dayOfWeek };
 }

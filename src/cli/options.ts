@@ -33,6 +33,10 @@ export interface ModelOptions extends IoOptions {
   maxIter: string;
   tolerance: string;
   mergePatterns: string;
+  date?: string;
+  trend?: boolean;
+  season?: string;
+  dayOfWeek?: boolean;
 }
 
 export function collect(value: string, previous: string[]): string[] {
@@ -185,7 +189,17 @@ function addModelSpecOptions(cmd: Command, multiModel: boolean): Command {
       [],
     )
     .option("--weights <col>", "frequency weights (a row stands for that many identical rows)")
-    .option("--no-intercept", "drop the intercept");
+    .option("--no-intercept", "drop the intercept")
+    .option(
+      "--date <col>",
+      "the date of each row: YYYY-MM-DD, YYYY-Www (ISO week, its Monday) or YYYY-MM (its first day)",
+    )
+    .option("--trend", "with --date: add the term trend, years since the first date used (its rate ratio is per year)")
+    .option(
+      "--season <k>",
+      "with --date: add k pairs of annual harmonics, season_sin1, season_cos1, … (1 to 6; 1 is one peak a year)",
+    )
+    .option("--day-of-week", "with --date (daily): add the factor day_of_week, Monday first");
 }
 
 /** The diagnostic picture (fit and check). */

@@ -9,6 +9,7 @@ import { parseDecimal } from "../io/dialect.js";
 import { lookupColumn, numericColumn } from "./columns.js";
 import { codeFactor, datesAmong, type FactorCoding } from "./factor-coding.js";
 import { exposureError, exposureRule, logOffset } from "./offset.js";
+import type { Calendar } from "./calendar.js";
 
 export interface DesignOptions {
   exposure?: string;
@@ -90,6 +91,8 @@ export interface Design {
   factors: FactorCoding[];
   dropped: { missing: number; zeroExposureZeroCount: number; zeroWeight: number };
   notices: string[];
+  /** The calendar terms made from a date column (--date), when there are any. */
+  calendar?: Calendar;
 }
 
 function firstRows(rows: number[]): string {

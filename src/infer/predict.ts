@@ -43,6 +43,8 @@ export interface PredictResult {
   method: string;
   rows: PredictedRow[];
   n_flagged: number;
+  /** What the reader should know about these predictions (dates outside the fitted span, …). */
+  warnings: string[];
 }
 
 /** What every row's prediction shares: coefficients, the covariance, and the draws (the same for every row range). */
@@ -221,5 +223,6 @@ export function predictResult(saved: ModelFile, o: PredictOptions, rows: Predict
     method,
     rows,
     n_flagged: rows.filter((r) => r.flagged).length,
+    warnings: [],
   };
 }

@@ -18,6 +18,7 @@ import { sandwichCovariance } from "./robust.js";
 import type { TermTest } from "./terms.js";
 import type { GroupSummary } from "./groups.js";
 import type { GeeSummary } from "./gee-inference.js";
+import { type Seasonality, seasonalityOf } from "./seasonality.js";
 
 export type { FamilyName } from "../fit/count-fit.js";
 
@@ -116,6 +117,10 @@ export interface FitSummary {
   standard_errors: "model" | "robust" | "cluster";
   /** With --cluster: the covariance type, the cluster columns and counts, and the df of the t reference. */
   covariance?: { type: string; clusters: { column: string; count: number }[]; t_df: number };
+  /** With --season: the fitted seasonal peak and trough and the peak-to-trough rate ratio. */
+  seasonality?: Seasonality;
+  /** With --date: the date column and the span of the dates used (ISO dates). */
+  dates?: { column: string; first: string; last: string };
   /** With --gee: the working correlation, its parameter, the scale and the model-based standard errors. */
   gee?: GeeSummary;
   profile_reference: string | null;
@@ -217,7 +222,19 @@ export function summarizeFit(design: Design, mf: CountFit, options: SummaryOptio
     };
   });
 
+  const seasonality = seasonalityOf(
+    design,
+    fit.beta,
+    seScale === 1 ? cov : { p: cov.p, data: cov.data.map((x) => x * seScale) },
+    posOf,
+    crit,
+    options.level,
+  );
   const warnings: string[] = [...fit.warnings];
+  if (seasonality && seasonality.peak_to_trough_ci[0] < 1)
+    warnings.push(
+      "the interval of the seasonal peak-to-trough rate ratio reaches below 1, which no such ratio can be: the seasonal pattern is not clearly told apart from none (see the test of the season terms)",
+    );
   for (const row of coefficients) {
     if (row.status === "aliased")
       warnings.push(
@@ -350,6 +367,16 @@ export function summarizeFit(design: Design, mf: CountFit, options: SummaryOptio
     test_distribution: useT ? "t" : "normal",
     standard_errors: cl ? "cluster" : options.robust ? "robust" : "model",
     ...(cl ? { covariance: { type: cl.type, clusters: cl.clusters, t_df: cl.df } } : {}),
+    ...(seasonality ? { seasonality } : {}),
+    ...(design.calendar
+      ? {
+          dates: {
+            column: design.calendar.column,
+            first: isoDate(design.calendar.firstDay),
+            last: isoDate(design.calendar.lastDay),
+          },
+        }
+      : {}),
     profile_reference: profileRef,
     warnings: [...design.notices, ...warnings],
     notices: design.notices,
@@ -381,4 +408,9 @@ function profileRow(pr: ProfileResult | undefined): [number | null, number | nul
   const lo = pr.lower.value !== null ? Math.exp(pr.lower.value) : pr.lower.open ? 0 : null;
   const hi = pr.upper.value !== null ? Math.exp(pr.upper.value) : null;
   return [lo, hi];
+}
+
+/** YYYY-MM-DD of d days since 1970-01-01. */
+function isoDate(d: number): string {
+  return new Date(d * 86_400_000).toISOString().slice(0, 10);
 }

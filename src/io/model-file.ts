@@ -53,6 +53,16 @@ export interface ModelFile {
   dispersion_phi: number;
   alpha: number | null;
   alpha_std_error: number | null;
+  /** Calendar terms made from a date column (--date): predict makes them the same way for new rows. */
+  calendar?: {
+    column: string;
+    /** The first and last dates among the rows fitted (YYYY-MM-DD); the trend counts years from the first. */
+    first_date: string;
+    last_date: string;
+    trend: boolean;
+    season: number;
+    day_of_week: boolean;
+  };
 }
 
 export const MODEL_FILE_SCHEMA = "tallyfit.model/1";

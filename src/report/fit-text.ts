@@ -157,6 +157,7 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
   }
   out.push("");
 
+  if (s.seasonality) out.push(...seasonBlock(s.seasonality, lv, st), "");
   out.push(st.heading("Coefficients on the log scale"));
   const crow: string[][] = [["term", "log rate ratio", "SE", s.test_distribution === "t" ? "t" : "z", "p-value"]];
   for (const c of s.coefficients) {
@@ -274,6 +275,32 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
     ),
   );
   return `${out.join("\n")}\n`;
+}
+
+const MONTHS = ["Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec"];
+
+/** "about 21 Jan" for a day after 1 January (in a year of 365 days). */
+function aboutDate(day: number): string {
+  const d = new Date(Date.UTC(2025, 0, 1) + Math.round(day) * 86_400_000);
+  return `about ${d.getUTCDate()} ${MONTHS[d.getUTCMonth()]}`;
+}
+
+/** The fitted seasonal pattern: peak, trough and the peak-to-trough rate ratio. */
+function seasonBlock(z: NonNullable<FitSummary["seasonality"]>, lv: string, st: Style): string[] {
+  return [
+    st.heading(`Seasonal pattern (${z.harmonics} harmonic pair${z.harmonics > 1 ? "s" : ""} a year)`),
+    ...table(
+      [
+        ["highest rate", `day ${fixed(z.peak_day, 1)} after 1 January (${aboutDate(z.peak_day)})`],
+        ["lowest rate", `day ${fixed(z.trough_day, 1)} after 1 January (${aboutDate(z.trough_day)})`],
+        [
+          "peak-to-trough rate ratio",
+          `${sig(z.peak_to_trough)}, ${lv} ${interval(z.peak_to_trough_ci)} (delta method on the log scale)`,
+        ],
+      ],
+      ["l", "l"],
+    ),
+  ];
 }
 
 const STRUCTURE_WORDS = {

@@ -62,5 +62,21 @@ export function modelFileOf(
     dispersion_phi: mf.family === "quasipoisson" ? quasiPhi(design, fit) : 1,
     alpha: mf.negbin ? mf.negbin.alpha : null,
     alpha_std_error: mf.negbin ? mf.negbin.alphaStdError : null,
+    ...(design.calendar
+      ? {
+          calendar: {
+            column: design.calendar.column,
+            first_date: isoDate(design.calendar.firstDay),
+            last_date: isoDate(design.calendar.lastDay),
+            trend: design.calendar.trend,
+            season: design.calendar.season,
+            day_of_week: design.calendar.dayOfWeek,
+          },
+        }
+      : {}),
   };
+}
+
+function isoDate(d: number): string {
+  return new Date(d * 86_400_000).toISOString().slice(0, 10);
 }

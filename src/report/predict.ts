@@ -92,6 +92,11 @@ export function renderPredictText(
     out.push("");
   }
   out.push(...wrap(`${r.n_flagged} of ${r.rows.length} rows flagged. Method: ${r.method}.`, o.width));
+  if (r.warnings.length) {
+    out.push("", st.caution("Warnings"));
+    r.warnings.forEach((w, i) => out.push(...wrap(`${i + 1}. ${w}`, o.width - 2, "   ").map((l) => `  ${l}`)));
+    out.push("");
+  }
   out.push(...wrap(FLAG_CAUTION, o.width));
   return `${out.join("\n")}\n`;
 }

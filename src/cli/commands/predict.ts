@@ -69,7 +69,12 @@ export async function runPredict(file: string | undefined, opts: PredictCliOptio
   });
   if (opts.summaryBy && !table.columns.has(opts.summaryBy))
     throw new InputError(`${name}: --summary-by column '${opts.summaryBy}' is not in the file.`);
-  const { design, result, groups } = await analyzePredict(table, saved, {
+  const {
+    design,
+    result,
+    groups,
+    table: rows,
+  } = await analyzePredict(table, saved, {
     level,
     flagLevel,
     draws,
@@ -82,7 +87,7 @@ export async function runPredict(file: string | undefined, opts: PredictCliOptio
   else if (opts.format === "csv") content = renderPredictCsv([table.header, ...(table.records ?? [])], result);
   else {
     const all = Int32Array.from({ length: design.n }, (_, i) => i);
-    const cols = saved.factors.map((f) => columnLabels(table, f.name, all));
+    const cols = saved.factors.map((f) => columnLabels(rows, f.name, all));
     const labels = Array.from({ length: design.n }, (_, i) => cols.map((c) => c[i]).join(" "));
     content = renderPredictText(displaySafe(result), displaySafe(groups), {
       ...textLayout(opts),
@@ -91,6 +96,7 @@ export async function runPredict(file: string | undefined, opts: PredictCliOptio
     });
   }
   await finish(outputs, opts, content);
+  if (opts.format === "csv") for (const w of result.warnings) notice(opts, w);
   if (result.n_flagged > 0)
     notice(opts, `${result.n_flagged} row${result.n_flagged === 1 ? "" : "s"} flagged above the ${flagLevel} limit`);
   return opts.failOnFlag && result.n_flagged > 0 ? EXIT.flagged : EXIT.ok;
