@@ -2,6 +2,8 @@
 // their expected counts, limits and flags, and the totals by group.
 import { calendarForNewRows, calendarOfSaved } from "../design/calendar.js";
 import { naturalCompare } from "../design/naming.js";
+import { groupFlags } from "../infer/group-flags.js";
+import { type Adjustment, adjust } from "../infer/multiplicity.js";
 import { buildPredictionDesign, type PredictionDesign } from "../design/predict-design.js";
 import { type GroupSummary, summarizeGroups } from "../infer/groups.js";
 import type { PredictOptions, PredictResult } from "../infer/predict.js";
@@ -24,7 +26,7 @@ export interface PredictAnalysis {
 export async function analyzePredict(
   table: Table,
   model: ModelFile,
-  options: PredictOptions & { summaryBy?: string; per: number },
+  options: PredictOptions & { summaryBy?: string; per: number; flagBy?: string[]; adjust?: Adjustment },
 ): Promise<PredictAnalysis> {
   // Calendar terms (trend, season, day of week) are made from the new rows' dates as the fit made them.
   const calendar = model.calendar ? calendarForNewRows(table, calendarOfSaved(model.calendar)) : null;
@@ -32,8 +34,29 @@ export async function analyzePredict(
   const design = buildPredictionDesign(rows, model);
   const result = await predictRowsParallel(design, model, options);
   if (calendar) result.warnings.push(...calendar.warnings);
-  if (!options.summaryBy) return { table: rows, design, result };
   const all = Int32Array.from({ length: design.n }, (_, i) => i);
+  if (options.flagBy?.length) {
+    const labels = options.flagBy.map((c) => columnLabels(rows, c, all));
+    const index = new Map<string, number>();
+    const ids = Int32Array.from({ length: design.n }, (_, i) => {
+      const key = labels.map((l) => l[i]).join(" · ");
+      let id = index.get(key);
+      if (id === undefined) {
+        id = index.size;
+        index.set(key, id);
+      }
+      return id;
+    });
+    const g = groupFlags(design, model, options, options.flagBy, ids, [...index.keys()]);
+    result.flag_by = g.by;
+    result.groups = g.groups;
+    result.group_method = g.method;
+    result.chance_flags.groups = g.groups.reduce((a, x) => a + x.flag_chance, 0);
+  }
+  if (options.adjust && options.adjust !== "none") adjustFlags(result, options.adjust, options.flagLevel);
+  result.n_flagged = result.rows.filter((r) => r.flagged).length;
+  if (result.groups) result.n_groups_flagged = result.groups.filter((x) => x.flagged).length;
+  if (!options.summaryBy) return { table: rows, design, result };
   const groups = summarizeGroups(
     options.summaryBy,
     columnLabels(table, options.summaryBy, all),
@@ -50,4 +73,32 @@ export async function analyzePredict(
         : { family: "poisson" },
   );
   return { table: rows, design, result, groups };
+}
+
+/**
+ * With an adjustment, the rows (and, separately, the groups) are flagged
+ * when their adjusted upper-tail p-value is at most 1 − flag level, so that
+ * the flag level bounds the chance of any false flag (Holm) or the expected
+ * share of false flags (Benjamini–Hochberg) across the rows or groups tested.
+ */
+function adjustFlags(result: PredictResult, how: Adjustment, flagLevel: number): void {
+  result.adjustment = how;
+  const rowP = adjust(
+    result.rows.map((r) => r.upper_tail_p),
+    how,
+  );
+  result.rows.forEach((r, i) => {
+    r.adjusted_p = rowP[i];
+    r.flagged = rowP[i] !== null && rowP[i]! <= 1 - flagLevel;
+  });
+  if (result.groups) {
+    const groupP = adjust(
+      result.groups.map((g) => g.upper_tail_p),
+      how,
+    );
+    result.groups.forEach((g, i) => {
+      g.adjusted_p = groupP[i];
+      g.flagged = groupP[i] !== null && groupP[i]! <= 1 - flagLevel;
+    });
+  }
 }

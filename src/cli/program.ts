@@ -5,6 +5,7 @@ import { type CompareCliOptions, runCompare } from "./commands/compare.js";
 import { type FitCliOptions, runFit, VERSION } from "./commands/fit.js";
 import { type PredictCliOptions, runPredict } from "./commands/predict.js";
 import {
+  collect,
   addClusterOption,
   addFitControlOptions,
   addIntervalOptions,
@@ -86,7 +87,21 @@ export function buildProgram(onResult: (code: number) => void): Command {
     .option("--flag-level <p>", "flag a row whose count is above this quantile of its predictive distribution", "0.99")
     .option("--draws <n>", "draws of the estimates for the prediction interval", "2000")
     .option("--seed <n>", "seed of those draws", "1")
-    .option("--fail-on-flag", "exit code 4 when any row is flagged")
+    .option(
+      "--fail-on-flag [what]",
+      "exit code 4 when anything is flagged: rows, groups (of --flag-by) or any (the default)",
+    )
+    .option(
+      "--flag-by <col>",
+      "also flag groups of rows by their total (a clinic's week: the column that names the group; repeat to combine columns)",
+      collect,
+      [],
+    )
+    .option(
+      "--adjust <how>",
+      "allow for the number of rows or groups tested: none (default), holm (the flag level bounds any false flag) or bh (the share of false flags)",
+      "none",
+    )
     .option("--summary-by <col>", "observed and expected totals by group (text and JSON output)")
     .option("--per <n>", "units of exposure for the crude rates of --summary-by", "1");
   addTerminalOptions(addReadOptions(addOutputOptions(predict, "csv, json or text", "csv", "the results"))).action(

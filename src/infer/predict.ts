@@ -28,8 +28,29 @@ export interface PredictedRow {
   /** The largest count not flagged: the flag-level quantile of the predictive distribution. */
   flag_limit: number;
   flagged: boolean;
+  /** The chance that this row is flagged when the model holds (the tail beyond flag_limit). */
+  flag_chance: number;
+  /** With --adjust: the adjusted upper-tail p-value the flag then follows. */
+  adjusted_p?: number | null;
   /** Why a row is predicted differently (a level with no events), or null. */
   note: string | null;
+}
+
+export interface GroupFlag {
+  group: string;
+  rows: number;
+  /** The observed total (null when a row of the group has no count). */
+  observed: number | null;
+  expected: number;
+  prediction_interval: [number, number];
+  /** The largest total not flagged: the flag-level quantile of the total's predictive distribution. */
+  flag_limit: number;
+  upper_tail_p: number | null;
+  /** The chance that this group is flagged when the model holds. */
+  flag_chance: number;
+  /** With --adjust: the adjusted upper-tail p-value the flag then follows. */
+  adjusted_p?: number | null;
+  flagged: boolean;
 }
 
 export interface PredictResult {
@@ -43,12 +64,21 @@ export interface PredictResult {
   method: string;
   rows: PredictedRow[];
   n_flagged: number;
+  /** none, holm or bh: how the flags allow for the number of rows (and groups) tested. */
+  adjustment: "none" | "holm" | "bh";
+  /** The flags expected by chance alone when the model holds (without adjustment): over the rows, and the groups. */
+  chance_flags: { rows: number; groups: number | null };
+  /** With --flag-by: the grouping columns, the groups' totals and flags. */
+  flag_by?: string[];
+  groups?: GroupFlag[];
+  n_groups_flagged?: number;
+  group_method?: string;
   /** What the reader should know about these predictions (dates outside the fitted span, …). */
   warnings: string[];
 }
 
 /** What every row's prediction shares: coefficients, the covariance, and the draws (the same for every row range). */
-interface Prepared {
+export interface Prepared {
   beta: Float64Array;
   pos: Int32Array;
   upper: Float64Array;
@@ -62,7 +92,7 @@ interface Prepared {
   quasi: boolean;
 }
 
-function prepare(pd: PredictionDesign, saved: ModelFile, o: PredictOptions): Prepared {
+export function prepare(pd: PredictionDesign, saved: ModelFile, o: PredictOptions): Prepared {
   const p = pd.columns.length;
   const covIndex = new Map(saved.covariance.terms.map((t, k) => [t, k]));
   const q = saved.covariance.terms.length;
@@ -110,6 +140,53 @@ function prepare(pd: PredictionDesign, saved: ModelFile, o: PredictOptions): Pre
   return { beta, pos, upper, v, q, dev, alphas, alpha, phi, zq, quasi };
 }
 
+/**
+ * Row i's linear predictor at the estimates (a level with no events at its
+ * upper limit), with the estimated columns it uses (idx, positions in the
+ * covariance) and their values (val), both refilled; zero when the row's
+ * rate is 0 (a no-events level without a saved limit).
+ */
+export function rowLinear(
+  pd: PredictionDesign,
+  prep: Prepared,
+  i: number,
+  idx: number[],
+  val: number[],
+): { eta: number; zero: boolean; atLimit: number | null } {
+  const { beta, pos, upper } = prep;
+  idx.length = 0;
+  val.length = 0;
+  let eta = pd.offset[i];
+  let zero = false;
+  let atLimit: number | null = null;
+  for (const s of pd.matrix.slots) {
+    const c = s.cols === null ? s.colStart : s.cols[i];
+    if (c < 0) continue;
+    const x = s.values === null ? 1 : s.values[i];
+    if (beta[c] === -Infinity && x !== 0) {
+      if (Number.isFinite(upper[c])) {
+        eta += upper[c] * x;
+        atLimit = c;
+      } else zero = true;
+    }
+    if (pos[c] < 0) continue;
+    eta += beta[c] * x;
+    idx.push(pos[c]);
+    val.push(x);
+  }
+  return { eta, zero, atLimit };
+}
+
+/** The row's mean under each draw of the estimates (into mus). */
+export function drawMeans(prep: Prepared, eta: number, idx: number[], val: number[], mus: Float64Array): void {
+  const { dev, q } = prep;
+  for (let d = 0; d < mus.length; d++) {
+    let e = eta;
+    for (let a = 0; a < idx.length; a++) e += dev[d * q + idx[a]] * val[a];
+    mus[d] = Math.exp(e);
+  }
+}
+
 /** The predictions of rows from … to − 1 (0-based) of the new rows. */
 export function predictRange(
   pd: PredictionDesign,
@@ -118,33 +195,15 @@ export function predictRange(
   from: number,
   to: number,
 ): PredictedRow[] {
-  const { beta, pos, upper, v, q, dev, alphas, phi, zq, quasi } = prepare(pd, saved, o);
+  const prep = prepare(pd, saved, o);
+  const { upper, v, q, alphas, phi, zq, quasi } = prep;
   const D = o.draws;
   const rows: PredictedRow[] = [];
   const mus = new Float64Array(D);
   const idx: number[] = [];
   const val: number[] = [];
   for (let i = from; i < to; i++) {
-    idx.length = 0;
-    val.length = 0;
-    let eta = pd.offset[i];
-    let zero = false;
-    let atLimit: number | null = null;
-    for (const s of pd.matrix.slots) {
-      const c = s.cols === null ? s.colStart : s.cols[i];
-      if (c < 0) continue;
-      const x = s.values === null ? 1 : s.values[i];
-      if (beta[c] === -Infinity && x !== 0) {
-        if (Number.isFinite(upper[c])) {
-          eta += upper[c] * x;
-          atLimit = c;
-        } else zero = true;
-      }
-      if (pos[c] < 0) continue;
-      eta += beta[c] * x;
-      idx.push(pos[c]);
-      val.push(x);
-    }
+    const { eta, zero, atLimit } = rowLinear(pd, prep, i, idx, val);
     const obs = Number.isNaN(pd.observed[i]) ? null : pd.observed[i];
     if (zero || eta === -Infinity) {
       rows.push({
@@ -156,6 +215,7 @@ export function predictRange(
         upper_tail_p: obs === null ? null : obs === 0 ? 1 : 0,
         flag_limit: 0,
         flagged: obs !== null && obs > 0,
+        flag_chance: 0,
         note: zero
           ? "a level with no events in the fitted data and no upper limit in the model file (saved by an older version): its rate is taken as 0; refit and save the model to predict with its upper profile limit"
           : null,
@@ -167,11 +227,7 @@ export function predictRange(
       for (let b = 0; b < idx.length; b++) varEta += val[a] * val[b] * v[idx[a] * q + idx[b]];
     const se = Math.sqrt(Math.max(0, varEta));
     const expected = atLimit === null ? Math.exp(eta) : 0;
-    for (let d = 0; d < D; d++) {
-      let e = eta;
-      for (let a = 0; a < idx.length; a++) e += dev[d * q + idx[a]] * val[a];
-      mus[d] = Math.exp(e);
-    }
+    drawMeans(prep, eta, idx, val, mus);
     // Quasi-Poisson: a negative binomial with the same mean and variance phi·mu.
     const dispersion = quasi ? (m: number) => (phi > 1 ? (phi - 1) / m : 0) : alphas;
     const table = predictiveTable(mus, dispersion, obs);
@@ -179,6 +235,8 @@ export function predictRange(
     const lo = tableQuantile(table.pmf, tail);
     const hi = tableQuantile(table.pmf, 1 - tail);
     const limit = tableQuantile(table.pmf, o.flagLevel);
+    let below = 0;
+    for (let k = 0; k <= limit && k < table.pmf.length; k++) below += table.pmf[k];
     const upperTail = table.upperTail;
     const limitNote =
       atLimit === null
@@ -194,6 +252,7 @@ export function predictRange(
       upper_tail_p: upperTail,
       flag_limit: limit,
       flagged: obs !== null && obs > limit,
+      flag_chance: Math.max(0, 1 - below),
       note: limitNote,
     });
   }
@@ -223,6 +282,8 @@ export function predictResult(saved: ModelFile, o: PredictOptions, rows: Predict
     method,
     rows,
     n_flagged: rows.filter((r) => r.flagged).length,
+    adjustment: "none",
+    chance_flags: { rows: rows.reduce((a, r) => a + r.flag_chance, 0), groups: null },
     warnings: [],
   };
 }

@@ -91,7 +91,40 @@ export function renderPredictText(
     out.push(...groupTable(groups));
     out.push("");
   }
+  if (r.groups && r.flag_by) {
+    out.push(st.heading(`Totals by ${r.flag_by.join(" · ")}`));
+    const adjusted = r.adjustment !== "none";
+    const grows: string[][] = [
+      [
+        r.flag_by.join(" · "),
+        "rows",
+        "expected",
+        `new total ${lv}`,
+        "observed",
+        "P(T ≥ obs)",
+        ...(adjusted ? ["adjusted p"] : []),
+        `limit at ${r.flag_level}`,
+        "flag",
+      ],
+    ];
+    for (const g of r.groups)
+      grows.push([
+        g.group,
+        String(g.rows),
+        fixed(g.expected, 1),
+        `${g.prediction_interval[0]} – ${g.prediction_interval[1]}`,
+        g.observed === null ? "–" : String(g.observed),
+        g.upper_tail_p === null ? "–" : sig(g.upper_tail_p, 3),
+        ...(adjusted ? [g.adjusted_p == null ? "–" : sig(g.adjusted_p, 3)] : []),
+        String(g.flag_limit),
+        g.flagged ? st.caution("FLAG") : "",
+      ]);
+    out.push(...table(grows, ["l", "r", "r", "r", "r", "r", ...(adjusted ? ["r" as const] : []), "r", "l"]));
+    out.push(...wrap(`Method: ${r.group_method}.`, o.width - 2, "  ").map((l) => `  ${l}`));
+    out.push("");
+  }
   out.push(...wrap(`${r.n_flagged} of ${r.rows.length} rows flagged. Method: ${r.method}.`, o.width));
+  out.push(...wrap(chanceLine(r), o.width));
   if (r.warnings.length) {
     out.push("", st.caution("Warnings"));
     r.warnings.forEach((w, i) => out.push(...wrap(`${i + 1}. ${w}`, o.width - 2, "   ").map((l) => `  ${l}`)));
@@ -99,4 +132,19 @@ export function renderPredictText(
   }
   out.push(...wrap(FLAG_CAUTION, o.width));
   return `${out.join("\n")}\n`;
+}
+
+/** How many flags chance alone would give, beside the flags found. */
+function chanceLine(r: PredictResult): string {
+  const level = +(1 - r.flag_level).toPrecision(6);
+  const groups = r.groups ? `; groups: ${r.n_groups_flagged ?? 0} of ${r.groups.length} flagged` : "";
+  if (r.adjustment === "holm")
+    return `Flags follow Holm-adjusted p-values: when the model holds, the chance of any false flag is at most ${level} among the ${r.rows.length} rows${r.groups ? ` and, separately, among the ${r.groups.length} groups` : ""}${groups}.`;
+  if (r.adjustment === "bh")
+    return `Flags follow Benjamini–Hochberg-adjusted p-values: on average at most a share ${level} of the flags are false${groups}.`;
+  const g =
+    r.chance_flags.groups === null
+      ? ""
+      : `; groups: ${r.n_groups_flagged ?? 0} of ${r.groups!.length} flagged, ${fixed(r.chance_flags.groups, 2)} expected by chance`;
+  return `Without adjustment, chance alone flags about ${fixed(r.chance_flags.rows, 2)} of the ${r.rows.length} rows when the model holds${g} (--adjust holm or bh allows for the number tested).`;
 }

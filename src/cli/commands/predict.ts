@@ -4,6 +4,7 @@ import { EXIT, InputError } from "../../errors.js";
 import { parseTable } from "../../io/csv.js";
 import { loadModelFile } from "../../io/model-file.js";
 import { readSource } from "../../io/source-bytes.js";
+import { ADJUSTMENTS } from "../../infer/multiplicity.js";
 import { columnLabels } from "../../io/table.js";
 import { renderJson } from "../../report/json.js";
 import { renderPredictCsv, renderPredictText } from "../../report/predict.js";
@@ -30,7 +31,9 @@ export interface PredictCliOptions extends IoOptions {
   flagLevel: string;
   draws: string;
   seed: string;
-  failOnFlag?: boolean;
+  failOnFlag?: boolean | string;
+  flagBy: string[];
+  adjust: string;
   summaryBy?: string;
   per: string;
 }
@@ -49,6 +52,15 @@ export async function runPredict(file: string | undefined, opts: PredictCliOptio
       `--draws must be at most ${PREDICT_MAX_DRAWS.toLocaleString("en")} (got '${opts.draws}'); the default 2,000 is plenty for limits at the 0.99 level.`,
     );
   const seed = parseNonNegativeInt("--seed", opts.seed);
+  const adjustHow = oneOf("--adjust", opts.adjust, ADJUSTMENTS);
+  const failOn =
+    opts.failOnFlag === undefined
+      ? null
+      : opts.failOnFlag === true
+        ? "any"
+        : oneOf("--fail-on-flag", opts.failOnFlag as string, ["rows", "groups", "any"]);
+  if (failOn === "groups" && opts.flagBy.length === 0)
+    throw new InputError("--fail-on-flag groups needs the groups: add --flag-by COL (a clinic, or a clinic's week).");
   const per = parsePositive("--per", opts.per);
   const outputs = new RunOutputs([file ?? "-", opts.modelFile]);
   if (opts.output) outputs.claim(opts.output, "--output");
@@ -69,6 +81,11 @@ export async function runPredict(file: string | undefined, opts: PredictCliOptio
   });
   if (opts.summaryBy && !table.columns.has(opts.summaryBy))
     throw new InputError(`${name}: --summary-by column '${opts.summaryBy}' is not in the file.`);
+  for (const c of opts.flagBy)
+    if (!table.columns.has(c))
+      throw new InputError(
+        `${name}: --flag-by column '${c}' is not in the file. The columns are ${table.header.map((h) => `'${h}'`).join(", ")}.`,
+      );
   const {
     design,
     result,
@@ -81,6 +98,8 @@ export async function runPredict(file: string | undefined, opts: PredictCliOptio
     seed,
     summaryBy: opts.summaryBy,
     per,
+    flagBy: opts.flagBy,
+    adjust: adjustHow,
   });
   let content: string;
   if (opts.format === "json") content = renderJson(groups ? { ...result, summary_by: groups } : result);
@@ -99,5 +118,22 @@ export async function runPredict(file: string | undefined, opts: PredictCliOptio
   if (opts.format === "csv") for (const w of result.warnings) notice(opts, w);
   if (result.n_flagged > 0)
     notice(opts, `${result.n_flagged} row${result.n_flagged === 1 ? "" : "s"} flagged above the ${flagLevel} limit`);
-  return opts.failOnFlag && result.n_flagged > 0 ? EXIT.flagged : EXIT.ok;
+  const groupsFlagged = result.n_groups_flagged ?? 0;
+  if (groupsFlagged > 0)
+    notice(
+      opts,
+      `${groupsFlagged} group${groupsFlagged === 1 ? "" : "s"} of ${result.flag_by!.join(" · ")} flagged: ${result
+        .groups!.filter((g) => g.flagged)
+        .map((g) => g.group)
+        .join(", ")}`,
+    );
+  const tripped =
+    failOn === "rows"
+      ? result.n_flagged > 0
+      : failOn === "groups"
+        ? groupsFlagged > 0
+        : failOn === "any"
+          ? result.n_flagged > 0 || groupsFlagged > 0
+          : false;
+  return tripped ? EXIT.flagged : EXIT.ok;
 }
