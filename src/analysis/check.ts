@@ -6,6 +6,7 @@ import { InputError } from "../errors.js";
 import type { Clustering } from "../design/clusters.js";
 import { type CheckResult, runChecks, withDependence } from "../infer/check.js";
 import { dependenceReading } from "../infer/dependence.js";
+import { runModelChecks } from "../infer/model-check.js";
 import { residualDf } from "../infer/fit-statistics.js";
 import { fitFamily, type MergeChoice } from "./fit.js";
 
@@ -22,6 +23,8 @@ export function analyzeCheckWithFits(
     testLevel: number;
     merge?: MergeChoice;
     onProgress?: (message: string) => void;
+    /** The family whose adequacy is tested (default: the Poisson, with the dispersion tests). */
+    family?: "poisson" | "negbin" | "quasipoisson";
     /** Rows grouped by cluster (--cluster): adds the dependence reading. */
     cluster?: Clustering;
     /** The order within clusters (--order-by): adds the lag-1 serial correlation. */
@@ -35,7 +38,16 @@ export function analyzeCheckWithFits(
       `${design.source}: the model has as many coefficients as rows, so no residual variation is left to check (${df} residual df); drop terms before checking the dispersion.`,
     );
   const negbin = fitFamily(design, "negbin", o.control, o.merge, o.onProgress, poisson);
-  let check = runChecks(design, poisson, negbin, o.testLevel);
+  let check =
+    o.family && o.family !== "poisson"
+      ? runModelChecks(
+          design,
+          o.family === "negbin" ? negbin : { ...poisson, family: "quasipoisson" },
+          poisson,
+          negbin,
+          o.testLevel,
+        )
+      : runChecks(design, poisson, negbin, o.testLevel);
   if (o.cluster) {
     const alpha = negbin.negbin?.boundary ? 0 : negbin.fit.alpha;
     check = withDependence(

@@ -112,7 +112,7 @@ export function buildProgram(onResult: (code: number) => void): Command {
   const check = fittingCommand(
     program,
     "check",
-    "dispersion and zero-count diagnostics of the Poisson model; exit code 4 when a test flags",
+    "dispersion and zero-count diagnostics of the Poisson model, or with --family negbin|quasipoisson the adequacy of that model; exit code 4 when a test flags",
     "text or json",
     (c) =>
       addClusterOption(

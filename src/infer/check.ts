@@ -18,7 +18,10 @@ export interface CheckTest {
     | "lr_negbin"
     | "zero_inflation"
     | "cluster_icc"
-    | "serial_lag1";
+    | "serial_lag1"
+    | "model_pearson"
+    | "variance_shape"
+    | "model_zeros";
   label: string;
   statistic: number;
   df: number | null;
@@ -28,10 +31,14 @@ export interface CheckTest {
   reading: string;
 }
 
-export type VerdictCode = "poisson_adequate" | "overdispersed" | "excess_zeros";
+export type VerdictCode = "poisson_adequate" | "overdispersed" | "excess_zeros" | "model_adequate" | "variance_misfit";
 
 export interface CheckResult {
   schema: "tallyfit.check/1";
+  /** The family whose adequacy is tested (absent: the Poisson, whose dispersion and zeros are tested). */
+  family_checked?: "poisson" | "negbin" | "quasipoisson";
+  /** Quasi-Poisson: the dispersion phi of the model checked. */
+  phi?: number;
   source: string;
   model: string;
   exposure: string | null;
@@ -40,7 +47,7 @@ export interface CheckResult {
   pearson_ratio: number;
   deviance_ratio: number;
   negbin: { alpha: number; alpha_std_error: number | null; boundary: boolean };
-  zeros: { observed: number; expected_poisson: number; expected_negbin: number };
+  zeros: { observed: number; expected_poisson: number; expected_negbin: number; expected_model?: number };
   tests: CheckTest[];
   verdict: { code: VerdictCode; text: string; next_step: string };
   flagged: boolean;
@@ -49,7 +56,14 @@ export interface CheckResult {
   warnings: string[];
 }
 
-const NOT_DISPERSION = new Set<CheckTest["name"]>(["zero_inflation", "cluster_icc", "serial_lag1"]);
+const NOT_DISPERSION = new Set<CheckTest["name"]>([
+  "zero_inflation",
+  "cluster_icc",
+  "serial_lag1",
+  "model_pearson",
+  "variance_shape",
+  "model_zeros",
+]);
 
 /** Dispersion tests only (used by --family auto): true when any flags overdispersion. */
 export function dispersionFlagged(r: CheckResult): CheckTest[] {
@@ -93,10 +107,10 @@ export function withDependence(r: CheckResult, d: DependenceReading): CheckResul
     flagged: r.flagged || dependent,
     verdict: !dependent
       ? r.verdict
-      : r.verdict.code === "poisson_adequate"
+      : r.verdict.code === "poisson_adequate" || r.verdict.code === "model_adequate"
         ? {
             code: r.verdict.code,
-            text: `The Poisson variance is adequate (no dispersion or zero-count test flags at ${r.test_level}), but counts within clusters are dependent.`,
+            text: `The ${r.family_checked && r.family_checked !== "poisson" ? (r.family_checked === "negbin" ? "negative-binomial" : "quasi-Poisson") : "Poisson"} variance is adequate (no dispersion or zero-count test flags at ${r.test_level}), but counts within clusters are dependent.`,
             next_step: `${d.reading.charAt(0).toUpperCase()}${d.reading.slice(1)}`,
           }
         : { ...r.verdict, next_step: `${r.verdict.next_step} Also: ${d.reading}` },

@@ -9,7 +9,9 @@ export function renderCheckText(r: CheckResult, o: { style: Style; width: number
   const out: string[] = [];
   out.push(
     st.heading(
-      `Dispersion${r.dependence ? ", zero-count and dependence" : " and zero-count"} check of the Poisson model`,
+      r.family_checked && r.family_checked !== "poisson"
+        ? `Adequacy check of the ${r.family_checked === "negbin" ? "negative-binomial" : "quasi-Poisson"} model${r.dependence ? ", with dependence" : ""}`
+        : `Dispersion${r.dependence ? ", zero-count and dependence" : " and zero-count"} check of the Poisson model`,
     ),
   );
   out.push(`  data    ${r.source}: ${fixed(r.n_used, 0)} rows used`);
@@ -31,7 +33,8 @@ export function renderCheckText(r: CheckResult, o: { style: Style; width: number
   out.push(st.heading("Readings"));
   for (const t of r.tests) out.push(...wrap(`${t.label}: ${t.reading}.`, o.width - 2, "    ").map((l) => `  ${l}`));
   out.push("");
-  const paint = r.verdict.code === "poisson_adequate" && !r.flagged ? st.good : st.caution;
+  const paint =
+    (r.verdict.code === "poisson_adequate" || r.verdict.code === "model_adequate") && !r.flagged ? st.good : st.caution;
   out.push(st.heading("Verdict"));
   out.push(...wrap(paint(r.verdict.text), o.width - 2, "  ").map((l) => `  ${l}`));
   out.push(...wrap(`Next: ${r.verdict.next_step}`, o.width - 2, "  ").map((l) => `  ${l}`));

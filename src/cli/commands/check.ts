@@ -19,7 +19,7 @@ export type CheckCliOptions = ModelOptions & { family: string; alpha: string; cl
 export async function runCheck(file: string | undefined, opts: CheckCliOptions): Promise<number> {
   if (opts.model.length !== 1) throw new InputError('check needs one --model "COUNT ~ TERMS".');
   oneOf("--format", opts.format, ["text", "json"]);
-  if (opts.family !== "poisson") throw new InputError("check always tests the Poisson model; leave out --family.");
+  const family = oneOf("--family", opts.family, ["poisson", "negbin", "quasipoisson"]);
   const testLevel = parseProbability("--alpha", opts.alpha, "0.05");
   const merge = mergeChoice(opts);
   const outputs = new RunOutputs([file ?? "-"]);
@@ -52,6 +52,7 @@ export async function runCheck(file: string | undefined, opts: CheckCliOptions):
     testLevel,
     merge,
     onProgress,
+    family,
     cluster,
     orderBy,
   });
