@@ -4,12 +4,12 @@ import { calendarForNewRows, calendarOfSaved } from "../design/calendar.js";
 import { naturalCompare } from "../design/naming.js";
 import { groupFlags } from "../infer/group-flags.js";
 import { type Adjustment, adjust } from "../infer/multiplicity.js";
-import { buildPredictionDesign, type PredictionDesign } from "../design/predict-design.js";
+import { buildPredictionDesign, type PredictionDesign, unpredictableRows } from "../design/predict-design.js";
 import { type GroupSummary, summarizeGroups } from "../infer/groups.js";
 import type { PredictOptions, PredictResult } from "../infer/predict.js";
 import { predictRowsParallel } from "../infer/predict-parallel.js";
 import type { ModelFile } from "../io/model-file.js";
-import { columnLabels, type Table } from "../io/table.js";
+import { columnLabels, type Table, tableRows } from "../io/table.js";
 
 export interface PredictAnalysis {
   /** The new rows with any calendar columns the model makes from their dates. */
@@ -26,15 +26,47 @@ export interface PredictAnalysis {
 export async function analyzePredict(
   table: Table,
   model: ModelFile,
-  options: PredictOptions & { summaryBy?: string; per: number; flagBy?: string[]; adjust?: Adjustment },
+  options: PredictOptions & {
+    summaryBy?: string;
+    per: number;
+    flagBy?: string[];
+    adjust?: Adjustment;
+    /** Skip the rows the model cannot predict (missing values, unseen levels), naming them, instead of stopping. */
+    skipBad?: boolean;
+    /** Columns echoed with every row's prediction. */
+    ids?: string[];
+  },
 ): Promise<PredictAnalysis> {
+  const skipped = options.skipBad ? unpredictableRows(table, model) : [];
+  const skippedRows = new Set(skipped.map((s) => s.row));
+  const kept = skipped.length
+    ? Int32Array.from({ length: table.nRows }, (_, i) => i).filter((i) => !skippedRows.has(i + 2))
+    : null;
+  const usable = kept ? tableRows(table, kept) : table;
   // Calendar terms (trend, season, day of week) are made from the new rows' dates as the fit made them.
-  const calendar = model.calendar ? calendarForNewRows(table, calendarOfSaved(model.calendar)) : null;
-  const rows = calendar ? calendar.table : table;
-  const design = buildPredictionDesign(rows, model);
+  const calendar = model.calendar ? calendarForNewRows(usable, calendarOfSaved(model.calendar)) : null;
+  const rows = calendar ? calendar.table : usable;
+  const built = buildPredictionDesign(rows, model);
+  const design = kept ? { ...built, fileRows: Int32Array.from(kept, (i) => i + 2) } : built;
   const result = await predictRowsParallel(design, model, options);
   if (calendar) result.warnings.push(...calendar.warnings);
   const all = Int32Array.from({ length: design.n }, (_, i) => i);
+  if (options.skipBad) {
+    result.skipped = skipped;
+    if (skipped.length)
+      result.warnings.push(
+        `${skipped.length} row${skipped.length === 1 ? "" : "s"} could not be predicted and ${skipped.length === 1 ? "was" : "were"} skipped: ${skipped
+          .slice(0, 5)
+          .map((s) => `row ${s.row} (${s.reason})`)
+          .join("; ")}${skipped.length > 5 ? `; and ${skipped.length - 5} more` : ""}`,
+      );
+  }
+  if (options.ids?.length) {
+    const labels = options.ids.map((c) => columnLabels(rows, c, all));
+    result.rows.forEach((r, i) => {
+      r.id = Object.fromEntries(options.ids!.map((c, k) => [c, labels[k][i]]));
+    });
+  }
   if (options.flagBy?.length) {
     const labels = options.flagBy.map((c) => columnLabels(rows, c, all));
     const index = new Map<string, number>();

@@ -98,6 +98,12 @@ export function buildProgram(onResult: (code: number) => void): Command {
       [],
     )
     .option(
+      "--skip-bad-rows",
+      "skip rows the model cannot predict (a missing value, a level it was not fitted on), naming them, instead of stopping",
+    )
+    .option("--id <col>", "echo this column with every row's prediction (repeatable)", collect, [])
+    .option("--max-model-age <days>", "warn when the model file was written more than this many days ago")
+    .option(
       "--adjust <how>",
       "allow for the number of rows or groups tested: none (default), holm (the flag level bounds any false flag) or bh (the share of false flags)",
       "none",

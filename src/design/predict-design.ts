@@ -20,6 +20,8 @@ export interface PredictionDesign {
   /** Observed counts (NaN where the row has none or the file has no count column). */
   observed: Float64Array;
   hasResponse: boolean;
+  /** File row of each design row, when rows were skipped (null: design row i is file row i + 2). */
+  fileRows: Int32Array | null;
 }
 
 export function specOf(saved: ModelFile): Formula {
@@ -121,5 +123,68 @@ export function buildPredictionDesign(table: Table, saved: ModelFile): Predictio
     exposure,
     observed,
     hasResponse: !!respCol,
+    fileRows: null,
   };
+}
+
+/** A row that cannot be predicted: its file row and why. */
+export interface SkippedRow {
+  row: number;
+  reason: string;
+}
+
+/**
+ * The rows a model cannot predict (predict --skip-bad-rows): a missing value
+ * in a column the model uses (or its date), a level the model was not fitted
+ * on, a count that is not a whole number ≥ 0, or an exposure the count
+ * cannot have. Everything else is checked, with located errors, when the
+ * design is built.
+ */
+export function unpredictableRows(table: Table, saved: ModelFile): SkippedRow[] {
+  const out = new Map<number, string>();
+  const mark = (i: number, reason: string) => {
+    if (!out.has(i)) out.set(i, reason);
+  };
+  const n = table.nRows;
+  for (const f of saved.factors) {
+    const c = table.columns.get(f.name);
+    if (!c || c.kind !== "factor") continue;
+    const known = new Set(f.levels);
+    for (let i = 0; i < n; i++) {
+      const code = c.codes[i];
+      if (code < 0) mark(i, `'${f.name}' is missing`);
+      else if (!known.has(c.levels[code]))
+        mark(i, `'${f.name}' is '${c.levels[code]}', a level the model was not fitted on`);
+    }
+  }
+  const numericValues = (name: string) => {
+    const c = table.columns.get(name);
+    return c && c.kind === "numeric" ? c.values : null;
+  };
+  for (const v of [...saved.numeric, ...(saved.offset ? [saved.offset] : [])]) {
+    const vals = numericValues(v);
+    if (vals) for (let i = 0; i < n; i++) if (Number.isNaN(vals[i])) mark(i, `'${v}' is missing`);
+  }
+  if (saved.calendar) {
+    const c = table.columns.get(saved.calendar.column);
+    if (c)
+      for (let i = 0; i < n; i++)
+        if (c.kind === "factor" ? c.codes[i] < 0 : Number.isNaN(c.values[i]))
+          mark(i, `the date '${saved.calendar.column}' is missing`);
+  }
+  const y = numericValues(saved.response);
+  if (y)
+    for (let i = 0; i < n; i++)
+      if (!Number.isNaN(y[i]) && (y[i] < 0 || !Number.isInteger(y[i])))
+        mark(i, `the count is ${y[i]}, not a whole number ≥ 0`);
+  if (saved.exposure) {
+    const e = numericValues(saved.exposure);
+    if (e)
+      for (let i = 0; i < n; i++) {
+        if (Number.isNaN(e[i])) mark(i, `'${saved.exposure}' is missing`);
+        else if (exposureRule(e[i], y ? y[i] : Number.NaN) !== null)
+          mark(i, `'${saved.exposure}' is ${e[i]}, which the count cannot have`);
+      }
+  }
+  return [...out.entries()].sort((a, b) => a[0] - b[0]).map(([i, reason]) => ({ row: fileRow(i), reason }));
 }

@@ -34,6 +34,8 @@ export interface PredictedRow {
   adjusted_p?: number | null;
   /** Why a row is predicted differently (a level with no events), or null. */
   note: string | null;
+  /** With --id: the row's identifying columns as written. */
+  id?: Record<string, string>;
 }
 
 export interface GroupFlag {
@@ -73,6 +75,8 @@ export interface PredictResult {
   groups?: GroupFlag[];
   n_groups_flagged?: number;
   group_method?: string;
+  /** With --skip-bad-rows: the rows that could not be predicted, and why. */
+  skipped?: { row: number; reason: string }[];
   /** What the reader should know about these predictions (dates outside the fitted span, …). */
   warnings: string[];
 }
@@ -207,7 +211,7 @@ export function predictRange(
     const obs = Number.isNaN(pd.observed[i]) ? null : pd.observed[i];
     if (zero || eta === -Infinity) {
       rows.push({
-        row: i + 2,
+        row: pd.fileRows ? pd.fileRows[i] : i + 2,
         expected: 0,
         mean_ci: [0, 0],
         prediction_interval: [0, 0],
@@ -243,7 +247,7 @@ export function predictRange(
         ? null
         : `${saved.coefficients[atLimit].term} had no events in the fitted data, so its estimate is a rate of 0; the mean interval, prediction interval, tail probability and flag use its upper ${saved.coefficients[atLimit].upper_limit_level ?? ""} profile limit (rate ratio ${Math.exp(upper[atLimit]).toPrecision(4)}), the largest rate the data allow`;
     rows.push({
-      row: i + 2,
+      row: pd.fileRows ? pd.fileRows[i] : i + 2,
       expected,
       mean_ci: atLimit === null ? [Math.exp(eta - zq * se), Math.exp(eta + zq * se)] : [0, Math.exp(eta)],
       // At a no-events level the rate may be 0, so the interval for a new count starts at 0.

@@ -65,3 +65,21 @@ export function columnLabels(table: Table, column: string, rows: ArrayLike<numbe
   }
   return out;
 }
+
+/** The table restricted to some rows (kept in order); `rows` of the result index the original rows. */
+export function tableRows(table: Table, rows: Int32Array): Table {
+  const columns = new Map<string, Column>();
+  for (const [name, c] of table.columns)
+    columns.set(
+      name,
+      c.kind === "numeric"
+        ? { ...c, values: Float64Array.from(rows, (i) => c.values[i]) }
+        : { ...c, codes: Int32Array.from(rows, (i) => c.codes[i]) },
+    );
+  return {
+    ...table,
+    nRows: rows.length,
+    columns,
+    ...(table.records ? { records: Array.from(rows, (i) => table.records![i]) } : {}),
+  };
+}

@@ -20,9 +20,16 @@ export function renderPredictCsv(records: string[][], r: PredictResult): string 
   const [header, ...rows] = records;
   const lines = [[...header, ...PREDICT_COLUMNS].map(csvField).join(",")];
   const byRow = new Map(r.rows.map((x) => [x.row, x]));
+  const skipped = new Map((r.skipped ?? []).map((s) => [s.row, s.reason]));
   rows.forEach((rec, k) => {
     const p = byRow.get(k + 2);
-    if (!p) return;
+    if (!p) {
+      // A row skipped by --skip-bad-rows keeps its place, with no prediction and the reason.
+      const why = skipped.get(k + 2);
+      if (why !== undefined)
+        lines.push([...rec, "", "", "", "", "", "", "", `skipped: ${why}`].map(csvField).join(","));
+      return;
+    }
     lines.push(
       [
         ...rec,

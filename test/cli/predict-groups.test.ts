@@ -5,7 +5,7 @@
 // remove flags, and the exit code follows the choice of what fails the run.
 import { test } from "node:test";
 import assert from "node:assert/strict";
-import { mkdtempSync, readFileSync } from "node:fs";
+import { mkdtempSync, readFileSync, writeFileSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
 import AjvModule from "ajv";
@@ -97,4 +97,49 @@ test("--adjust holm and bh only remove flags; --fail-on-flag rows|groups|any set
   const missing = runCli(["predict", "--model-file", MODEL, WEEK, "--flag-by", "clinc"]);
   assert.equal(missing.code, 2);
   assert.match(missing.stderr, /--flag-by column 'clinc' is not in the file/);
+});
+
+test("--skip-bad-rows names and skips rows the model cannot predict; --id echoes columns; --max-model-age warns", () => {
+  const lines = readFileSync(WEEK, "utf8").trim().split("\n");
+  const bad = [
+    ...lines.slice(0, 4),
+    "2026-12-09,49,wed,seaside,9,3,1,40",
+    "2026-12-09,49,wed,harbour,9,NA,1,40",
+    ...lines.slice(4),
+  ].join("\n");
+  const file = join(dir, "bad.csv");
+  writeFileSync(file, `${bad}\n`);
+  const stop = runCli(["predict", "--model-file", MODEL, file]);
+  assert.equal(stop.code, 2, "without the option a bad row stops the run");
+  assert.match(stop.stderr, /row 5, column 'clinic': level 'seaside' was not in the data/);
+  const r = runCli([
+    "predict",
+    "--model-file",
+    MODEL,
+    file,
+    "--skip-bad-rows",
+    "--id",
+    "date",
+    "--format",
+    "json",
+    "--max-model-age",
+    "1e-9",
+    "--quiet",
+  ]);
+  assert.equal(r.code, 0, r.stderr);
+  const j = JSON.parse(r.stdout);
+  assert.ok(validate(j), JSON.stringify((validate as { errors?: unknown }).errors));
+  assert.deepEqual(
+    j.skipped.map((s: { row: number }) => s.row),
+    [5, 6],
+  );
+  assert.match(j.skipped[0].reason, /'seaside', a level the model was not fitted on/);
+  assert.equal(j.rows.length, lines.length - 1);
+  assert.deepEqual(j.rows[3].id, { date: "2026-12-07" });
+  assert.equal(j.rows[3].row, 7, "file rows after a skipped row keep their numbers");
+  assert.ok(j.warnings.some((w: string) => /2 rows could not be predicted and were skipped/.test(w)));
+  assert.ok(j.warnings.some((w: string) => /more than --max-model-age/.test(w)));
+  const csv = runCli(["predict", "--model-file", MODEL, file, "--skip-bad-rows", "--quiet"]).stdout.trim().split("\n");
+  assert.equal(csv.length, lines.length + 2, "every input row keeps its place in the CSV");
+  assert.match(csv[5], /skipped: 'staff_on_duty' is missing$/);
 });

@@ -1,5 +1,6 @@
 // tallyfit predict: expected counts, limits and flags for new rows under a model file.
 import { analyzePredict } from "../../analysis/predict.js";
+import { statSync } from "node:fs";
 import { EXIT, InputError } from "../../errors.js";
 import { parseTable } from "../../io/csv.js";
 import { loadModelFile } from "../../io/model-file.js";
@@ -34,6 +35,9 @@ export interface PredictCliOptions extends IoOptions {
   failOnFlag?: boolean | string;
   flagBy: string[];
   adjust: string;
+  skipBadRows?: boolean;
+  id: string[];
+  maxModelAge?: string;
   summaryBy?: string;
   per: string;
 }
@@ -53,6 +57,7 @@ export async function runPredict(file: string | undefined, opts: PredictCliOptio
     );
   const seed = parseNonNegativeInt("--seed", opts.seed);
   const adjustHow = oneOf("--adjust", opts.adjust, ADJUSTMENTS);
+  const maxAge = opts.maxModelAge === undefined ? null : parsePositive("--max-model-age", opts.maxModelAge);
   const failOn =
     opts.failOnFlag === undefined
       ? null
@@ -81,6 +86,11 @@ export async function runPredict(file: string | undefined, opts: PredictCliOptio
   });
   if (opts.summaryBy && !table.columns.has(opts.summaryBy))
     throw new InputError(`${name}: --summary-by column '${opts.summaryBy}' is not in the file.`);
+  for (const c of opts.id)
+    if (!table.columns.has(c))
+      throw new InputError(
+        `${name}: --id column '${c}' is not in the file. The columns are ${table.header.map((h) => `'${h}'`).join(", ")}.`,
+      );
   for (const c of opts.flagBy)
     if (!table.columns.has(c))
       throw new InputError(
@@ -100,22 +110,32 @@ export async function runPredict(file: string | undefined, opts: PredictCliOptio
     per,
     flagBy: opts.flagBy,
     adjust: adjustHow,
+    skipBad: !!opts.skipBadRows,
+    ids: opts.id,
   });
+  if (maxAge !== null) {
+    const days = (Date.now() - statSync(opts.modelFile).mtimeMs) / 86_400_000;
+    if (days > maxAge)
+      result.warnings.push(
+        `the model file ${opts.modelFile} was written ${Math.floor(days)} days ago, more than --max-model-age ${maxAge}: refit it on recent data`,
+      );
+  }
   let content: string;
   if (opts.format === "json") content = renderJson(groups ? { ...result, summary_by: groups } : result);
   else if (opts.format === "csv") content = renderPredictCsv([table.header, ...(table.records ?? [])], result);
   else {
     const all = Int32Array.from({ length: design.n }, (_, i) => i);
-    const cols = saved.factors.map((f) => columnLabels(rows, f.name, all));
+    const shown = [...opts.id, ...saved.factors.map((f) => f.name).filter((f) => !opts.id.includes(f))];
+    const cols = shown.map((c) => columnLabels(rows, c, all));
     const labels = Array.from({ length: design.n }, (_, i) => cols.map((c) => c[i]).join(" "));
     content = renderPredictText(displaySafe(result), displaySafe(groups), {
       ...textLayout(opts),
       labels: displaySafe(labels),
-      labelHeading: displaySafe(saved.factors.map((f) => f.name).join(" ")),
+      labelHeading: displaySafe(shown.join(" ")),
     });
   }
   await finish(outputs, opts, content);
-  if (opts.format === "csv") for (const w of result.warnings) notice(opts, w);
+  if (opts.format === "csv" || opts.output) for (const w of result.warnings) notice(opts, w);
   if (result.n_flagged > 0)
     notice(opts, `${result.n_flagged} row${result.n_flagged === 1 ? "" : "s"} flagged above the ${flagLevel} limit`);
   const groupsFlagged = result.n_groups_flagged ?? 0;
