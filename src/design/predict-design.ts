@@ -148,7 +148,7 @@ export function unpredictableRows(table: Table, saved: ModelFile): SkippedRow[] 
   const n = table.nRows;
   for (const f of saved.factors) {
     const c = table.columns.get(f.name);
-    if (!c || c.kind !== "factor") continue;
+    if (c?.kind !== "factor") continue;
     const known = new Set(f.levels);
     for (let i = 0; i < n; i++) {
       const code = c.codes[i];
