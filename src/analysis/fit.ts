@@ -41,6 +41,10 @@ export interface AnalysisOptions {
   merge?: MergeChoice;
   /** Progress messages (IRLS iterations), for a terminal. */
   onProgress?: (message: string) => void;
+  /** Values of numeric terms the baseline rate is stated at (others at their means). */
+  baselineAt?: Record<string, number>;
+  /** Rate ratios of numeric terms per so many units. */
+  ratioPer?: Record<string, number>;
 }
 
 export type MergeChoice = "auto" | "always" | "never";
@@ -217,6 +221,8 @@ function assemble(
     robust: o.robust,
     cluster,
     familyChoice: fitted.familyChoice,
+    baselineAt: o.baselineAt,
+    ratioPer: o.ratioPer,
   });
   if (fitted.gee) {
     summary.gee = fitted.gee.summary;

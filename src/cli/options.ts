@@ -88,6 +88,26 @@ export function parseRefs(list: string[]): Record<string, string> {
   return refs;
 }
 
+/** COL=NUMBER options (repeatable: --baseline-at, --ratio-per) → a number per column; `positive` refuses ≤ 0. */
+export function parseColumnNumbers(
+  option: string,
+  list: string[],
+  example: string,
+  positive: boolean,
+): Record<string, number> {
+  const out: Record<string, number> = Object.create(null);
+  for (const r of list) {
+    const k = r.lastIndexOf("=");
+    const x = Number(r.slice(k + 1));
+    if (k <= 0 || k === r.length - 1 || !Number.isFinite(x) || (positive && !(x > 0)))
+      throw new InputError(
+        `${option} takes COLUMN=${positive ? "a number above 0" : "NUMBER"}, such as ${option} ${example} (got '${r}').`,
+      );
+    out[r.slice(0, k)] = x;
+  }
+  return out;
+}
+
 /** --order COL=L1,L2,… (repeatable) → the listed order of each factor's levels. */
 export function parseOrder(list: string[]): Record<string, string[]> {
   const order: Record<string, string[]> = Object.create(null);

@@ -75,6 +75,18 @@ export function buildProgram(onResult: (code: number) => void): Command {
     .option("--save-model <file>", "write everything predict needs to FILE (JSON, schema tallyfit.model/1)")
     .option("--summary-by <col>", "observed and expected totals by group, with O/E limits under the fitted family")
     .option("--per <n>", "units of exposure for the crude rates of --summary-by", "1")
+    .option(
+      "--ratio-per <col=k>",
+      "state a numeric term's rate ratio per K units, e.g. staff_on_duty=10 (repeatable)",
+      collect,
+      [],
+    )
+    .option(
+      "--baseline-at <col=value>",
+      "state the baseline rate at this value of a numeric term (default: its mean over the rows used; repeatable)",
+      collect,
+      [],
+    )
     .action(async (file: string | undefined, opts: FitCliOptions) => onResult(await runFit(file, opts)));
   withExamples(fit, EXAMPLES.fit);
 

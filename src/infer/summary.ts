@@ -19,6 +19,7 @@ import type { TermTest } from "./terms.js";
 import type { GroupSummary } from "./groups.js";
 import type { GeeSummary } from "./gee-inference.js";
 import { type Seasonality, seasonalityOf } from "./seasonality.js";
+import { type Baseline, baselineOf } from "./baseline.js";
 
 export type { FamilyName } from "../fit/count-fit.js";
 
@@ -57,6 +58,8 @@ export interface CoefficientRow {
   rate?: number | null;
   kind: "intercept" | "numeric" | "indicator" | "slope";
   term_group: string;
+  /** With --ratio-per: rate_ratio, wald and profile are per this many units of the numeric term (estimate and std_error stay per unit). */
+  per_units?: number;
 }
 
 export interface NegbinSummary {
@@ -110,7 +113,7 @@ export interface FitSummary {
     phi_used: number;
   };
   references: { factor: string; level: string }[];
-  baseline: { rate: number; wald: [number, number]; per: string | null } | null;
+  baseline: Baseline | null;
   coefficients: CoefficientRow[];
   negbin?: NegbinSummary;
   test_distribution: "normal" | "t";
@@ -140,6 +143,10 @@ export interface SummaryOptions {
   /** Cluster-robust covariance (--cluster): standard errors, Wald limits and p-values come from it. */
   cluster?: ClusterCovariance;
   familyChoice?: { requested: string; reason: string };
+  /** The numeric terms' values the baseline rate is stated at (others: their means). */
+  baselineAt?: Record<string, number>;
+  /** Rate ratios of these numeric terms per so many units (--ratio-per COL=K). */
+  ratioPer?: Record<string, number>;
 }
 
 /** Build the report record for a fitted model. */
@@ -306,12 +313,9 @@ export function summarizeFit(design: Design, mf: CountFit, options: SummaryOptio
       `IRLS stopped after ${fit.iterations} iterations without meeting the convergence rule; the estimates may be inaccurate (raise --max-iter)`,
     );
 
-  let baseline: FitSummary["baseline"] = null;
-  const ic = design.matrix.interceptCol;
-  if (ic >= 0 && coefficients[ic].status === "estimated") {
-    const r = coefficients[ic];
-    baseline = { rate: r.rate_ratio!, wald: [r.wald![0]!, r.wald![1]!], per: design.exposureName };
-  }
+  const finalCov = seScale === 1 ? cov : { p: cov.p, data: cov.data.map((x) => x * seScale) };
+  const baseline = baselineOf(design, fit.beta, finalCov, posOf, crit, options.baselineAt ?? {});
+  if (options.ratioPer) scaleRatios(design, coefficients, options.ratioPer);
   const profileRef = !options.profiles
     ? null
     : quasi
@@ -348,7 +352,7 @@ export function summarizeFit(design: Design, mf: CountFit, options: SummaryOptio
       : null,
     deviance: fit.deviance,
     null_deviance: mf.nullDeviance,
-    df_null: stats.nEff - (ic >= 0 ? 1 : 0),
+    df_null: stats.nEff - (design.matrix.interceptCol >= 0 ? 1 : 0),
     pearson_chi2: stats.pearson,
     log_likelihood: stats.logLik,
     aic: stats.aic,
@@ -413,4 +417,24 @@ function profileRow(pr: ProfileResult | undefined): [number | null, number | nul
 /** YYYY-MM-DD of d days since 1970-01-01. */
 function isoDate(d: number): string {
   return new Date(d * 86_400_000).toISOString().slice(0, 10);
+}
+
+/**
+ * Rate ratios per K units (--ratio-per COL=K) for the columns whose one
+ * numeric part is COL (its main effect, or its slope within a factor level):
+ * exp(K·b), and the interval limits raised to the power K.
+ */
+function scaleRatios(design: Design, rows: CoefficientRow[], per: Record<string, number>): void {
+  design.columns.forEach((col, c) => {
+    if (col.kind !== "numeric" && col.kind !== "slope") return;
+    const numericParts = col.name.split(":").filter((part) => !part.includes("="));
+    if (numericParts.length !== 1 || !Object.hasOwn(per, numericParts[0])) return;
+    const k = per[numericParts[0]];
+    const row = rows[c];
+    row.per_units = k;
+    const pow = (v: number | null) => (v === null ? null : v ** k);
+    if (row.rate_ratio !== null && row.rate_ratio !== undefined) row.rate_ratio = pow(row.rate_ratio);
+    if (row.wald) row.wald = [pow(row.wald[0]), pow(row.wald[1])];
+    if (row.profile) row.profile = [pow(row.profile[0]), pow(row.profile[1])];
+  });
 }

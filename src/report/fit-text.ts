@@ -74,7 +74,7 @@ function estimateTable(
     const h = groupHeading(inGroup);
     if (h) rows.push([h, "", ...(showW ? [""] : []), ...(showP ? [""] : []), ""]);
     for (const c of inGroup) {
-      const label = (h ? "  " : "") + c.term;
+      const label = (h ? "  " : "") + c.term + (c.per_units !== undefined ? ` (per ${c.per_units})` : "");
       if (c.status === "aliased") {
         rows.push([label, "aliased", ...(showW ? [""] : []), ...(showP ? [""] : []), ""]);
         continue;
@@ -139,12 +139,24 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
   else if (ratios.length) {
     out.push(...estimateTable(ratios, "rate ratio", lv, showW, showP));
     const numeric = nonIntercept.filter((c) => c.kind === "numeric" || c.kind === "slope");
-    if (numeric.length) out.push(`  A numeric term's rate ratio is per one unit of that column.`);
+    const scaled = numeric.filter((c) => c.per_units !== undefined);
+    if (numeric.length)
+      out.push(
+        ...wrap(
+          `A numeric term's rate ratio is per one unit of that column${scaled.length ? `, except ${scaled.map((c) => `${c.term}: per ${fixed(c.per_units!, 0)} units`).join(", ")}` : ""}.`,
+          o.width - 2,
+          "  ",
+        ).map((l) => `  ${l}`),
+      );
   }
   if (s.baseline) {
+    const seasonal = s.baseline.at.filter((a) => /^season_(sin|cos)\d+$/.test(a.column));
     const at = [
       ...s.references.map((r) => `${r.factor} = ${r.level}`),
-      ...s.coefficients.filter((c) => c.kind === "numeric").map((c) => `${c.term} = 0`),
+      ...s.baseline.at
+        .filter((a) => !seasonal.includes(a))
+        .map((a) => `${a.column} = ${sig(a.value)}${a.source === "mean" ? " (its mean)" : ""}`),
+      ...(seasonal.length ? ["the season terms at their means (the seasonal curve averaged over the rows used)"] : []),
     ];
     const per = s.baseline.per ? `per unit of ${s.baseline.per}` : s.offset ? "per unit of exp(offset)" : "per row";
     out.push(

@@ -82,3 +82,52 @@ test("predict makes the calendar terms from the new rows' dates: predicting the 
     assertRel(rows[k].expected, Math.exp(eta), 1e-6, `row ${k}`);
   }
 });
+
+test("--ratio-per and --baseline-at: a numeric term per K units and the baseline at chosen values, from the scipy coefficients", () => {
+  const r = runCli([...ARGS, "--format", "json", "--ratio-per", "trend=2", "--baseline-at", "trend=1"]);
+  assert.equal(r.code, 0, r.stderr);
+  const j = JSON.parse(r.stdout);
+  const trend = j.coefficients.find((c: { term: string }) => c.term === "trend");
+  assert.equal(trend.per_units, 2);
+  assertRel(trend.estimate, ref.coefficients.trend, 1e-6, "estimate stays per unit");
+  assertRel(trend.rate_ratio, Math.exp(2 * ref.coefficients.trend), 1e-6, "rate ratio per 2 years");
+  const z = normalQuantile(0.975);
+  assertRel(
+    trend.wald[1],
+    Math.exp(2 * (ref.coefficients.trend + z * ref.std_errors.trend)),
+    1e-5,
+    "upper limit per 2 years",
+  );
+  // Baseline at trend = 1 and the season terms at their means over the rows used.
+  const lines = readFileSync(DATA, "utf8").trim().split("\n").slice(1);
+  const days = lines.map((l) => Date.parse(`${l.split(",")[0]}T00:00:00Z`) / 86400000);
+  const mean = (f: (d: number) => number) => days.reduce((a, d) => a + f(d), 0) / days.length;
+  const w = (m: number, d: number) => (2 * Math.PI * m * d) / 365.25;
+  const c = ref.coefficients;
+  const eta =
+    c.intercept +
+    c.trend * 1 +
+    c.season_sin1 * mean((d) => Math.sin(w(1, d))) +
+    c.season_cos1 * mean((d) => Math.cos(w(1, d))) +
+    c.season_sin2 * mean((d) => Math.sin(w(2, d))) +
+    c.season_cos2 * mean((d) => Math.cos(w(2, d)));
+  assertRel(j.baseline.rate, Math.exp(eta), 1e-6, "baseline rate");
+  assert.deepEqual(
+    j.baseline.at.map((a: { column: string; source: string }) => [a.column, a.source]),
+    [
+      ["trend", "given"],
+      ["season_sin1", "mean"],
+      ["season_cos1", "mean"],
+      ["season_sin2", "mean"],
+      ["season_cos2", "mean"],
+    ],
+  );
+  // At every numeric term = 0 the baseline is the intercept's rate, with its interval.
+  const zero = ["trend", "season_sin1", "season_cos1", "season_sin2", "season_cos2"].flatMap((t) => [
+    "--baseline-at",
+    `${t}=0`,
+  ]);
+  const k = JSON.parse(runCli([...ARGS, "--format", "json", ...zero]).stdout);
+  assertRel(k.baseline.rate, Math.exp(c.intercept), 1e-6, "at 0");
+  assertRel(k.baseline.wald[0], k.coefficients[0].wald[0], 1e-12, "interval at 0");
+});

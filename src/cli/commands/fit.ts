@@ -15,7 +15,7 @@ import { renderFitMarkdown } from "../../report/fit-markdown.js";
 import { renderJson } from "../../report/json.js";
 import { modelFileOf } from "../../report/model-file.js";
 import { loadDesigns } from "../input.js";
-import { type ModelOptions, oneOf, parsePositive, parseProbability, plotKind } from "../options.js";
+import { type ModelOptions, oneOf, parseColumnNumbers, parsePositive, parseProbability, plotKind } from "../options.js";
 import { addPlot, finish, textLayout } from "../output.js";
 import { displaySafe } from "../../report/safe-text.js";
 import { RunOutputs } from "../run-outputs.js";
@@ -35,6 +35,8 @@ export type FitCliOptions = ModelOptions & {
   saveModel?: string;
   summaryBy?: string;
   per: string;
+  ratioPer: string[];
+  baselineAt: string[];
 };
 
 export { VERSION };
@@ -92,6 +94,8 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
   const testLevel = parseProbability("--alpha", opts.alpha, "0.05");
   const per = parsePositive("--per", opts.per);
   const merge = mergeChoice(opts);
+  const ratioPer = parseColumnNumbers("--ratio-per", opts.ratioPer, "staff_on_duty=10", true);
+  const baselineAt = parseColumnNumbers("--baseline-at", opts.baselineAt, "staff_on_duty=3", false);
   // Every file this run writes is checked before the work and written all or nothing at the end.
   const outputs = new RunOutputs([file ?? "-"]);
   if (opts.output) outputs.claim(opts.output, "--output");
@@ -105,6 +109,22 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
   const { designs, control, labels, sha256 } = await loadDesigns(file, opts, [opts.model[0]], alsoRead);
   const design = designs[0];
   if (opts.plot) plotKind(opts.plot);
+  for (const [option, given] of [
+    ["--ratio-per", ratioPer],
+    ["--baseline-at", baselineAt],
+  ] as const)
+    for (const column of Object.keys(given))
+      if (
+        !design.columns.some((c) => (c.kind === "numeric" || c.kind === "slope") && c.name.split(":").includes(column))
+      )
+        throw new InputError(
+          `${option} ${column}=…: '${column}' is not a numeric term of the model (${
+            design.columns
+              .filter((c) => c.kind === "numeric")
+              .map((c) => `'${c.name}'`)
+              .join(", ") || "it has none"
+          }).`,
+        );
   const onProgress = fittingProgress(opts, design.n);
   const clusters = opts.cluster.map((c) => clusteringOf(c, labels.get(c)!));
   const order =
@@ -122,6 +142,8 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
     testLevel,
     merge,
     onProgress,
+    baselineAt,
+    ratioPer,
   });
   if (onProgress && progressOnTerminal()) clearProgressLine();
   const wide = opts.format === "text" && !opts.output && process.stdout.isTTY && (process.stdout.columns ?? 0) >= 60;
