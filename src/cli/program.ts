@@ -4,6 +4,7 @@ import { type CheckCliOptions, runCheck } from "./commands/check.js";
 import { type CompareCliOptions, runCompare } from "./commands/compare.js";
 import { type FitCliOptions, runFit, VERSION } from "./commands/fit.js";
 import { type PredictCliOptions, runPredict } from "./commands/predict.js";
+import { runJob } from "./commands/run.js";
 import {
   collect,
   addClusterOption,
@@ -43,6 +44,7 @@ const EXAMPLES = {
     'tallyfit check visits.csv --model "visits ~ clinic + weekday" --exposure open_hours',
     'tallyfit check weekly.csv --model "visits ~ clinic" --exposure open_hours --quiet --format json > check.json || exit 1',
   ],
+  run: ["tallyfit run examples/jobs/weekly.yaml", "tallyfit run weekly.json && echo 'no flags this week'"],
   compare: [
     'tallyfit compare visits.csv --exposure open_hours --model "visits ~ clinic" --model "visits ~ clinic + weekday"',
     'tallyfit compare falls.csv --exposure bed_days --model "falls ~ ward" --family poisson --model "falls ~ ward" --family negbin',
@@ -158,5 +160,22 @@ export function buildProgram(onResult: (code: number) => void): Command {
     true,
   ).action(async (file: string | undefined, opts: CompareCliOptions) => onResult(await runCompare(file, opts)));
   withExamples(compare, EXAMPLES.compare);
+
+  const run = program
+    .command("run")
+    .description("fit, check and predict as one job file describes, writing every output together; one exit code")
+    .argument("<job>", "a job file (YAML or JSON, schema tallyfit.job/1)");
+  run.action(async (job: string) => onResult(await runJob(job, runInProcess)));
+  withExamples(run, EXAMPLES.run);
   return program;
+}
+
+/** One command line run in this process (a step of `tallyfit run`), its exit code returned. */
+async function runInProcess(args: string[]): Promise<number> {
+  let code = 0;
+  const program = buildProgram((c) => {
+    code = c;
+  });
+  await program.parseAsync(["node", "tallyfit", ...args]);
+  return code;
 }
