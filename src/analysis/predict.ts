@@ -115,6 +115,9 @@ export async function analyzePredict(
  */
 function adjustFlags(result: PredictResult, how: Adjustment, flagLevel: number): void {
   result.adjustment = how;
+  const rule = `; with --adjust ${how}, flagged instead when the ${how === "holm" ? "Holm" : "Benjamini–Hochberg"}-adjusted tail probability is at most ${+(1 - flagLevel).toPrecision(6)}`;
+  result.method += rule;
+  if (result.group_method) result.group_method += rule;
   const rowP = adjust(
     result.rows.map((r) => r.upper_tail_p),
     how,
