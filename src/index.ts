@@ -10,6 +10,7 @@ export { loadTable, parseTable, type LoadOptions } from "./io/csv.js";
 export { DEFAULT_NA } from "./io/dialect.js";
 export type { Column, FactorColumn, NumericColumn, Table } from "./io/table.js";
 export { loadModelFile, parseModelFile, MODEL_FILE_SCHEMA, type ModelFile } from "./io/model-file.js";
+export { loadJobFile, parseJobFile, JOB_FILE_SCHEMA, type JobFile } from "./io/job-file.js";
 
 // Formula: "COUNT ~ TERMS" into a list of terms.
 export { parseFormula, termVariables, type Formula, type Term } from "./formula/formula.js";
@@ -26,6 +27,7 @@ export {
 export { mergePatterns, type PatternMerge } from "./design/patterns.js";
 export { buildPredictionDesign, type PredictionDesign } from "./design/predict-design.js";
 export { clusteringOf, orderKeyOf, type Clustering } from "./design/clusters.js";
+export { parseDay, type Calendar, type CalendarOptions } from "./design/calendar.js";
 
 // Fit: the count families by IRLS (and NB2 alpha by maximum likelihood).
 export { fitCounts, type CountFit, type FamilyChoice, type FamilyName } from "./fit/count-fit.js";
@@ -44,6 +46,11 @@ export { sandwichCovariance } from "./infer/robust.js";
 export { clusterCovariance, type ClusterCovariance } from "./infer/cluster.js";
 export { geeCovariance, type GeeSummary } from "./infer/gee-inference.js";
 export { dependenceReading, type DependenceReading } from "./infer/dependence.js";
+export { runModelChecks } from "./infer/model-check.js";
+export { seasonalityOf, type Seasonality } from "./infer/seasonality.js";
+export { groupFlags, type GroupFlags } from "./infer/group-flags.js";
+export { negbinSumPmf } from "./infer/negbin-sum.js";
+export { holm, benjaminiHochberg, type Adjustment } from "./infer/multiplicity.js";
 export { runChecks, withDependence, type CheckResult, type CheckTest } from "./infer/check.js";
 export { compareModels, type CompareResult } from "./infer/compare.js";
 export { predictRows, type PredictOptions, type PredictResult, type PredictedRow } from "./infer/predict.js";
