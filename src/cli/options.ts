@@ -191,7 +191,12 @@ function addModelSpecOptions(cmd: Command, multiModel: boolean): Command {
         collect,
         [],
       )
-    : withModel.addOption(new Option("--family <name>", "poisson, negbin, quasipoisson or auto").default("poisson"));
+    : withModel.addOption(
+        new Option(
+          "--family <name>",
+          "poisson, negbin, quasipoisson or auto; for fit also zip, zinb, hurdle-poisson or hurdle-negbin",
+        ).default("poisson"),
+      );
   return withFamily
     .option("--exposure <col>", "exposure column (person-time, open hours, bed-days); its log becomes the offset")
     .option("--offset <col>", "an offset column already on the log scale")

@@ -78,6 +78,10 @@ export function buildProgram(onResult: (code: number) => void): Command {
     .option("--summary-by <col>", "observed and expected totals by group, with O/E limits under the fitted family")
     .option("--per <n>", "units of exposure for the crude rates of --summary-by", "1")
     .option(
+      "--zero-terms <terms>",
+      'the zero part\'s terms for --family zip, zinb, hurdle-poisson or hurdle-negbin, as "a + b" (default: an intercept only)',
+    )
+    .option(
       "--ratio-per <col=k>",
       "state a numeric term's rate ratio per K units, e.g. staff_on_duty=10 (repeatable)",
       collect,

@@ -18,6 +18,16 @@ import { sandwichCovariance } from "./robust.js";
 import type { TermTest } from "./terms.js";
 import type { GroupSummary } from "./groups.js";
 import type { GeeSummary } from "./gee-inference.js";
+import type { ZeroFamily } from "../fit/zero-likelihood.js";
+
+export interface ZeroPartSummary {
+  terms: string;
+  /** What exp(coefficient) is the odds of: a structural zero (zero-inflated) or a non-zero count (hurdle). */
+  odds_of: "structural zero" | "non-zero count";
+  coefficients: CoefficientRow[];
+  /** The likelihood is largest with π → 0 for some rows: the zero part is at its boundary and has no standard errors. */
+  boundary: boolean;
+}
 import { type Seasonality, seasonalityOf } from "./seasonality.js";
 import { type Baseline, baselineOf } from "./baseline.js";
 
@@ -33,8 +43,10 @@ export interface CoefficientRow {
   z: number | null;
   p_value: number | null;
   rate_ratio: number | null;
-  /** Wald limits on the rate-ratio scale. */
+  /** Wald limits on the rate-ratio scale (odds-ratio scale in a zero part). */
   wald: [number | null, number | null] | null;
+  /** Zero part: exp(estimate), the odds ratio (rate_ratio is then null). */
+  odds_ratio?: number | null;
   /** Profile-likelihood limits on the rate-ratio scale (0 for an open lower side, null for an unbounded or failed upper side). */
   profile: [number | null, number | null] | null;
   /**
@@ -54,7 +66,7 @@ export interface CoefficientRow {
    * one, the rate itself per unit of exposure (then rate_ratio is null and
    * rate holds it).
    */
-  measure: "rate_ratio" | "rate";
+  measure: "rate_ratio" | "rate" | "odds_ratio" | "odds";
   rate?: number | null;
   kind: "intercept" | "numeric" | "indicator" | "slope";
   term_group: string;
@@ -78,8 +90,8 @@ export interface NegbinSummary {
 
 export interface FitSummary {
   schema: "tallyfit.fit/1";
-  family: FamilyName;
-  family_choice: { requested: string; used: FamilyName; reason: string } | null;
+  family: FamilyName | ZeroFamily;
+  family_choice: { requested: string; used: FamilyName | ZeroFamily; reason: string } | null;
   link: "log";
   level: number;
   source: string;
@@ -98,8 +110,9 @@ export interface FitSummary {
   iterations: number;
   /** IRLS ran over merged covariate patterns (null: over the rows); every figure is still per row. */
   merged_patterns: { rows: number; patterns: number; by: string } | null;
-  deviance: number;
-  null_deviance: number;
+  /** The GLM deviances (null for the excess-zero families, which have none). */
+  deviance: number | null;
+  null_deviance: number | null;
   df_null: number;
   pearson_chi2: number;
   log_likelihood: number;
@@ -120,6 +133,10 @@ export interface FitSummary {
   standard_errors: "model" | "robust" | "cluster";
   /** With --cluster: the covariance type, the cluster columns and counts, and the df of the t reference. */
   covariance?: { type: string; clusters: { column: string; count: number }[]; t_df: number };
+  /** Excess-zero families: the zero part's coefficients (odds ratios) and what they are the odds of. */
+  zero_part?: ZeroPartSummary;
+  /** Observed zero counts against the number the fitted model expects. */
+  zeros?: { observed: number; expected: number };
   /** With --season: the fitted seasonal peak and trough and the peak-to-trough rate ratio. */
   seasonality?: Seasonality;
   /** With --date: the date column and the span of the dates used (ISO dates). */

@@ -6,7 +6,15 @@ import type { Style } from "./style.js";
 import type { Rootogram } from "../infer/diagnostics.js";
 import { textRootogram } from "./text-rootogram.js";
 
-const FAMILY_TITLE = { poisson: "Poisson", negbin: "Negative-binomial (NB2)", quasipoisson: "Quasi-Poisson" } as const;
+export const FAMILY_TITLE = {
+  poisson: "Poisson",
+  negbin: "Negative-binomial (NB2)",
+  quasipoisson: "Quasi-Poisson",
+  zip: "Zero-inflated Poisson",
+  zinb: "Zero-inflated negative-binomial (NB2)",
+  "hurdle-poisson": "Hurdle Poisson",
+  "hurdle-negbin": "Hurdle negative-binomial (NB2)",
+} as const;
 
 export const CAUTION =
   "Rate ratios from routinely collected counts describe associations, not the effect of a clinic, ward or policy; " +
@@ -55,7 +63,7 @@ function groupHeading(rows: CoefficientRow[]): string {
 }
 
 /** Rows of exp(estimate) with intervals and p-values, grouped by term under a heading that names the reference. */
-function estimateTable(
+export function estimateTable(
   members: CoefficientRow[],
   valueHeader: string,
   lv: string,
@@ -86,7 +94,13 @@ function estimateTable(
       }
       rows.push([
         label,
-        sig(c.measure === "rate" ? c.rate : c.rate_ratio),
+        sig(
+          c.measure === "rate"
+            ? c.rate
+            : c.measure === "odds_ratio" || c.measure === "odds"
+              ? c.odds_ratio
+              : c.rate_ratio,
+        ),
         ...(showW ? [interval(c.wald)] : []),
         ...(showP ? [c.profile ? profileInterval(c.profile, c.profile_status) : "–"] : []),
         pValue(c.p_value),

@@ -57,7 +57,7 @@ function assertSame(merged: FitSummary, rows: FitSummary, tol: number): void {
   assert.ok(merged.merged_patterns !== null, "the merged fit says it was merged");
   assert.equal(rows.merged_patterns, null);
   for (const k of ["deviance", "null_deviance", "pearson_chi2", "log_likelihood", "aic", "bic"] as const)
-    assertRel(merged[k], rows[k], tol, k);
+    assertRel(merged[k]!, rows[k]!, tol, k);
   assert.equal(merged.df_residual, rows.df_residual);
   assert.equal(merged.n_used, rows.n_used);
   assertRel(merged.dispersion.phi_used, rows.dispersion.phi_used, tol, "phi");

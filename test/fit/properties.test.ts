@@ -37,7 +37,7 @@ test("closed form: a saturated model has deviance 0", () => {
   const { csv } = oneFactorData(3, 5);
   const { summary } = fitCsv(csv, "y ~ site", { exposure: "exposure" });
   assert.equal(summary.df_residual, 0);
-  assert.ok(Math.abs(summary.deviance) < 1e-9, `deviance ${summary.deviance}`);
+  assert.ok(Math.abs(summary.deviance!) < 1e-9, `deviance ${summary.deviance}`);
 });
 
 test("invariance: multiplying the exposure by c shifts only the intercept, by log c", () => {
@@ -52,7 +52,7 @@ test("invariance: multiplying the exposure by c shifts only the intercept, by lo
     else assertRel(cb.estimate!, ca.estimate!, 1e-9, ca.term);
     assertRel(cb.std_error!, ca.std_error!, 1e-8, `${ca.term} se`);
   });
-  assertRel(b.deviance, a.deviance, 1e-9, "deviance");
+  assertRel(b.deviance!, a.deviance!, 1e-9, "deviance");
 });
 
 test("invariance: permuting rows changes nothing", () => {
@@ -68,7 +68,7 @@ test("invariance: permuting rows changes nothing", () => {
   const a = fitCsv(toCsv(rows), "y ~ site * x", { exposure: "exposure" }).summary;
   const b = fitCsv(toCsv(shuffled), "y ~ site * x", { exposure: "exposure" }).summary;
   a.coefficients.forEach((ca, k) => assertRel(b.coefficients[k].estimate!, ca.estimate!, 1e-9, ca.term));
-  assertRel(b.deviance, a.deviance, 1e-10, "deviance");
+  assertRel(b.deviance!, a.deviance!, 1e-10, "deviance");
 });
 
 test("invariance: scaling a numeric predictor by c divides its coefficient by c", () => {

@@ -24,7 +24,7 @@ test("Doll and Hill British doctors, coronary deaths (Breslow and Day 1987; Dobs
   );
   assert.deepEqual(est, [-10.7918, 1.441, 2.3765, -0.1977, -0.3075]);
   assert.deepEqual(se, [0.4501, 0.3722, 0.2079, 0.0274, 0.097]);
-  assert.equal(+summary.deviance.toFixed(4), 1.6354);
+  assert.equal(+summary.deviance!.toFixed(4), 1.6354);
   assert.equal(summary.df_residual, 5);
   assert.equal(+summary.pearson_chi2.toFixed(4), 1.5503);
 });
@@ -44,7 +44,7 @@ for (const key of ["poisson_design", "poisson_year"]) {
       assertRel(c.estimate!, r.estimate, 1e-6, `${key} ${term} estimate`);
       assertRel(c.std_error!, r.std_error, 1e-5, `${key} ${term} std_error`);
     }
-    assertRel(summary.deviance, ref.deviance, 1e-8, "deviance");
+    assertRel(summary.deviance!, ref.deviance, 1e-8, "deviance");
     assertRel(summary.pearson_chi2, ref.pearson_chi2, 1e-8, "Pearson chi-square");
     assertRel(summary.log_likelihood, ref.log_likelihood, 1e-10, "log-likelihood");
   });

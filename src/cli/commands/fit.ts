@@ -7,6 +7,9 @@ import type { FamilyChoice } from "../../fit/count-fit.js";
 import { summarizeGroups } from "../../infer/groups.js";
 import { clusteringOf, orderKeyOf } from "../../design/clusters.js";
 import { WORKING_CORRELATIONS } from "../../fit/working-correlation.js";
+import { ZERO_FAMILIES, type ZeroFamily } from "../../fit/zero-likelihood.js";
+import { runZeroFit } from "./fit-zero.js";
+import type { FitCliOptions } from "./fit-options.js";
 import type { CountSpread } from "../../infer/ratio-limits.js";
 import type { FitSummary } from "../../infer/summary.js";
 import { renderFitText } from "../../report/fit-text.js";
@@ -15,7 +18,7 @@ import { renderFitMarkdown } from "../../report/fit-markdown.js";
 import { renderJson } from "../../report/json.js";
 import { modelFileOf } from "../../report/model-file.js";
 import { loadDesigns } from "../input.js";
-import { type ModelOptions, oneOf, parseColumnNumbers, parsePositive, parseProbability, plotKind } from "../options.js";
+import { oneOf, parseColumnNumbers, parsePositive, parseProbability, plotKind } from "../options.js";
 import { addPlot, finish, textLayout } from "../output.js";
 import { displaySafe } from "../../report/safe-text.js";
 import { RunOutputs } from "../run-outputs.js";
@@ -24,20 +27,7 @@ import { mergeChoice } from "./shared.js";
 
 const VERSION: string = JSON.parse(readFileSync(new URL("../../../../package.json", import.meta.url), "utf8")).version;
 
-export type FitCliOptions = ModelOptions & {
-  family: string;
-  level: string;
-  intervals?: string;
-  cluster: string[];
-  gee?: string;
-  orderBy?: string;
-  alpha: string;
-  saveModel?: string;
-  summaryBy?: string;
-  per: string;
-  ratioPer: string[];
-  baselineAt: string[];
-};
+export type { FitCliOptions } from "./fit-options.js";
 
 export { VERSION };
 
@@ -61,7 +51,13 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
     throw new InputError(
       "--summary-by is not part of the CSV output (one line per coefficient); use --format text, json or markdown for the group table.",
     );
-  const family: FamilyChoice = oneOf("--family", opts.family, ["poisson", "quasipoisson", "negbin", "auto"]);
+  const anyFamily = oneOf("--family", opts.family, ["poisson", "quasipoisson", "negbin", "auto", ...ZERO_FAMILIES]);
+  if ((ZERO_FAMILIES as readonly string[]).includes(anyFamily)) return runZeroFit(file, opts, anyFamily as ZeroFamily);
+  if (opts.zeroTerms)
+    throw new InputError(
+      "--zero-terms describes the zero part of a zero-inflated or hurdle family: give --family zip, zinb, hurdle-poisson or hurdle-negbin.",
+    );
+  const family = anyFamily as FamilyChoice;
   if (opts.cluster.length > 2) throw new InputError("--cluster is given once (one-way) or twice (two-way clustering).");
   if (opts.cluster.length && opts.robust)
     throw new InputError(

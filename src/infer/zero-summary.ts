@@ -1,0 +1,209 @@
+// The report record of an excess-zero fit (zip, zinb, hurdle-poisson,
+// hurdle-negbin): the count part as rate ratios in `coefficients`, the zero
+// part as odds ratios in `zero_part.coefficients` (the same fields), alpha in
+// `negbin`, observed zeros against the model's expectation, and the
+// likelihood figures. Standard errors are from the inverse observed
+// information (zero-fit.ts); Wald tests and limits against the normal.
+import type { Design } from "../design/design.js";
+import type { ZeroFit } from "../fit/zero-fit.js";
+import { isHurdle, isNegbinForm } from "../fit/zero-likelihood.js";
+import { chiSquareUpperTail, normalQuantile, normalTwoSidedP } from "../math/distributions.js";
+import { boundaryLrTest } from "./fit-statistics.js";
+import type { CoefficientRow, FitSummary, NegbinSummary } from "./summary.js";
+
+export interface ZeroSummaryOptions {
+  level: number;
+  countColumns: number[];
+  zeroColumns: number[];
+  zeroTerms: string;
+  /** NB2 forms: the log-likelihood and parameter count of the Poisson form, for the likelihood-ratio test of alpha. */
+  poissonForm?: { logLik: number; parameters: number };
+  familyChoice?: { requested: string; reason: string };
+}
+
+function rows(
+  design: Design,
+  cols: number[],
+  est: Float64Array,
+  cov: { p: number; data: Float64Array } | null,
+  offset: number,
+  crit: number,
+  odds: boolean,
+  noSe: boolean,
+): CoefficientRow[] {
+  const refs = new Map(design.factors.map((f) => [f.name, f.reference]));
+  return cols.map((c, k) => {
+    const col = design.columns[c];
+    const b = est[k];
+    const v = cov && !noSe ? cov.data[(offset + k) * cov.p + offset + k] : Number.NaN;
+    const se = v > 0 ? Math.sqrt(v) : null;
+    const z = se === null ? null : b / se;
+    const wald: [number, number] | null = se === null ? null : [Math.exp(b - crit * se), Math.exp(b + crit * se)];
+    return {
+      term: col.name,
+      estimate: b,
+      std_error: se,
+      z,
+      p_value: z === null ? null : normalTwoSidedP(z),
+      rate_ratio: odds ? null : Math.exp(b),
+      ...(odds ? { odds_ratio: Math.exp(b) } : {}),
+      wald,
+      profile: null,
+      profile_status: null,
+      aliased: false,
+      status: "estimated" as const,
+      levels: col.levels.map((l) => ({
+        factor: l.factor,
+        level: l.level,
+        reference: l.contrast ? (refs.get(l.factor) ?? null) : null,
+      })),
+      measure: odds
+        ? c === design.matrix.interceptCol
+          ? ("odds" as const)
+          : ("odds_ratio" as const)
+        : ("rate_ratio" as const),
+      kind: col.kind,
+      term_group: col.term < 0 ? "intercept" : design.termLabels[col.term],
+    };
+  });
+}
+
+export function summarizeZeroFit(count: Design, zero: Design, z: ZeroFit, o: ZeroSummaryOptions): FitSummary {
+  const crit = normalQuantile(1 - (1 - o.level) / 2);
+  const p = o.countColumns.length,
+    r = o.zeroColumns.length;
+  const nb = isNegbinForm(z.family);
+  const k = p + r + (nb ? 1 : 0);
+  const hurdle = isHurdle(z.family);
+  const coefficients = rows(count, o.countColumns, z.beta, z.covariance, 0, crit, false, false);
+  const zeroRows = rows(zero, o.zeroColumns, z.gamma, z.covariance, p, crit, true, z.boundary.zeroPart);
+  // Observed and expected zeros, and the Pearson statistic with the model's mean and variance.
+  let obs0 = 0,
+    exp0 = 0,
+    pearson = 0,
+    n = 0;
+  for (let i = 0; i < count.n; i++) {
+    const w = count.weights ? count.weights[i] : 1;
+    const lam = z.lambda[i],
+      q = z.zeroProb[i],
+      a = z.alpha;
+    const f0 = a > 0 ? (1 + a * lam) ** (-1 / a) : Math.exp(-lam);
+    const ey2 = lam + lam * lam + a * lam * lam; // E[Y²] of the count distribution
+    let mean: number, variance: number;
+    if (hurdle) {
+      mean = (q * lam) / (1 - f0);
+      variance = (q * ey2) / (1 - f0) - mean * mean;
+      exp0 += w * (1 - q);
+    } else {
+      mean = (1 - q) * lam;
+      variance = (1 - q) * ey2 - mean * mean;
+      exp0 += w * (q + (1 - q) * f0);
+    }
+    if (count.y[i] === 0) obs0 += w;
+    pearson += (w * (count.y[i] - mean) ** 2) / variance;
+    n += w;
+  }
+  const df = n - k;
+  const aic = -2 * z.logLik + 2 * k;
+  const bic = -2 * z.logLik + Math.log(n) * k;
+  const warnings: string[] = [...count.notices];
+  if (z.boundary.zeroPart)
+    warnings.push(
+      hurdle
+        ? "the zero part is at its boundary: for some rows the chance of a non-zero count goes to 0 or 1, so its coefficients have no standard errors"
+        : "no excess zeros for some or all rows: the likelihood is largest with the chance of a structural zero at 0 there (π → 0), so the zero part is at its boundary and has no standard errors; the plain family may be enough",
+    );
+  if (!z.converged)
+    warnings.push(
+      "the maximisation did not settle; the estimates may be inaccurate (raise --max-iter or simplify the model)",
+    );
+  let negbin: NegbinSummary | undefined;
+  if (nb) {
+    const m = z.covariance?.p ?? 0;
+    const seLog = z.covariance && !z.boundary.alpha ? Math.sqrt(z.covariance.data[(m - 1) * m + m - 1]) : null;
+    const lr = o.poissonForm ? boundaryLrTest(z.logLik, o.poissonForm.logLik) : { stat: Number.NaN, p: Number.NaN };
+    negbin = {
+      alpha: z.alpha,
+      alpha_std_error: seLog === null ? null : z.alpha * seLog,
+      alpha_ci: seLog === null ? null : [z.alpha * Math.exp(-crit * seLog), z.alpha * Math.exp(crit * seLog)],
+      alpha_ci_method: "wald-log",
+      theta: z.alpha > 0 ? 1 / z.alpha : null,
+      lr_stat: lr.stat,
+      lr_p_value: lr.p,
+      boundary: z.boundary.alpha,
+      poisson_log_likelihood: o.poissonForm?.logLik ?? Number.NaN,
+      poisson_aic: o.poissonForm ? -2 * o.poissonForm.logLik + 2 * o.poissonForm.parameters : Number.NaN,
+    };
+    if (z.boundary.alpha)
+      warnings.push(
+        "alpha is estimated at 0: the count part has no extra-Poisson variation, so the Poisson form is enough",
+      );
+  }
+  const ic = count.matrix.interceptCol;
+  const intercept = ic >= 0 ? coefficients.find((c) => c.term === count.columns[ic].name) : undefined;
+  return {
+    schema: "tallyfit.fit/1",
+    family: z.family,
+    family_choice: o.familyChoice
+      ? { requested: o.familyChoice.requested, used: z.family, reason: o.familyChoice.reason }
+      : null,
+    link: "log",
+    level: o.level,
+    source: count.source,
+    model: count.model.text,
+    response: count.model.response,
+    exposure: count.exposureName,
+    offset: count.offsetName,
+    weights: count.weightsName,
+    n_rows: count.nRows,
+    n_used: count.n,
+    n_dropped: count.nRows - count.n,
+    dropped: {
+      missing: count.dropped.missing,
+      zero_exposure_zero_count: count.dropped.zeroExposureZeroCount,
+      zero_weight: count.dropped.zeroWeight,
+    },
+    df_residual: df,
+    n_parameters: k,
+    converged: z.converged,
+    iterations: z.iterations,
+    merged_patterns: null,
+    deviance: null,
+    null_deviance: null,
+    df_null: n - 1,
+    pearson_chi2: pearson,
+    log_likelihood: z.logLik,
+    aic,
+    bic,
+    dispersion: {
+      pearson: pearson / df,
+      deviance: Number.NaN,
+      pearson_p_value: df > 0 ? chiSquareUpperTail(pearson, df) : Number.NaN,
+      deviance_p_value: Number.NaN,
+      phi_used: 1,
+    },
+    references: count.factors.map((f) => ({ factor: f.name, level: f.reference })),
+    baseline: intercept?.wald
+      ? {
+          rate: intercept.rate_ratio!,
+          wald: [intercept.wald[0]!, intercept.wald[1]!],
+          per: count.exposureName,
+          at: [],
+        }
+      : null,
+    coefficients,
+    zero_part: {
+      terms: o.zeroTerms,
+      odds_of: hurdle ? "non-zero count" : "structural zero",
+      coefficients: zeroRows,
+      boundary: z.boundary.zeroPart,
+    },
+    zeros: { observed: obs0, expected: exp0 },
+    ...(negbin ? { negbin } : {}),
+    test_distribution: "normal",
+    standard_errors: "model",
+    profile_reference: null,
+    warnings,
+    notices: count.notices,
+  };
+}
