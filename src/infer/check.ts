@@ -292,7 +292,7 @@ export function runChecks(design: Design, pois: CountFit, nb: CountFit, testLeve
       code: "excess_zeros",
       text: `More zero counts than either model expects (${obs0} observed; ${exp0.toFixed(1)} Poisson, ${expNb.toFixed(1)} negative binomial).`,
       next_step:
-        "Look for rows that cannot have events (closed units, structural zeros) and remove them or model them separately; a zero-inflated model is outside what tallyfit fits.",
+        "Look for rows that cannot have events (closed units, months not reported) and remove them, or model them: fit --family zinb or hurdle-negbin (zip or hurdle-poisson without extra variation), with --zero-terms for what makes a zero more likely; --family auto tries them.",
     };
   else if (disp.length > 0)
     verdict = {

@@ -43,7 +43,7 @@ function droppedText(s: FitSummary): string {
 }
 
 /** A header line "  label   text", the text wrapped under itself. */
-function labelled(label: string, text: string, width: number): string[] {
+export function labelled(label: string, text: string, width: number): string[] {
   return wrap(text, width - 10).map((l, k) => `  ${(k === 0 ? label : "").padEnd(8)}${l}`);
 }
 

@@ -2,7 +2,7 @@
 // rate ratios, the zero part as odds ratios, alpha, zeros observed against
 // expected, the likelihood figures, warnings and the closing caution.
 import type { FitSummary } from "../infer/summary.js";
-import { closingBlock, estimateTable, FAMILY_TITLE } from "./fit-text.js";
+import { closingBlock, estimateTable, FAMILY_TITLE, labelled } from "./fit-text.js";
 import { fixed, interval, pEquals, sig, table, wrap } from "./format.js";
 import type { Style } from "./style.js";
 
@@ -23,10 +23,10 @@ export function renderZeroText(s: FitSummary, o: { style: Style; width: number }
   );
   if (s.family_choice)
     out.push(
-      ...wrap(
-        `  family  ${s.family_choice.used} (--family ${s.family_choice.requested}): ${s.family_choice.reason}`,
-        o.width - 2,
-        "          ",
+      ...labelled(
+        "family",
+        `${s.family_choice.used} (--family ${s.family_choice.requested}): ${s.family_choice.reason}`,
+        o.width,
       ),
     );
   out.push("");

@@ -63,3 +63,30 @@ test("the text report names the parts; --zero-terms without a zero family and op
     assert.match(r.stderr, re);
   }
 });
+
+test("--family auto tries the excess-zero families only when the check finds more zeros than either plain model expects", () => {
+  const z = JSON.parse(runCli([...ARGS, "--family", "auto", "--format", "json"]).stdout);
+  assert.equal(z.family, "zinb", "the data come from a zero-inflated NB2");
+  assert.equal(z.family_choice.requested, "auto");
+  assert.match(z.family_choice.reason, /more zeros than either plain model expects.*zinb has the smallest AIC/);
+  const plain = JSON.parse(
+    runCli([
+      "fit",
+      "examples/clinic_visits.csv",
+      "--model",
+      "visits ~ clinic",
+      "--exposure",
+      "open_hours",
+      "--family",
+      "auto",
+      "--format",
+      "json",
+      "--quiet",
+    ]).stdout,
+  );
+  assert.equal(plain.family, "negbin", "no excess zeros: a plain family");
+  assert.equal(plain.zero_part, undefined);
+  const blocked = JSON.parse(runCli([...ARGS, "--family", "auto", "--format", "json", "--robust"]).stdout);
+  assert.equal(blocked.family, "negbin");
+  assert.ok(blocked.warnings.some((w: string) => /were not tried because --robust/.test(w)));
+});

@@ -12,6 +12,69 @@ import { oneOf, parseProbability } from "../options.js";
 import { finish, textLayout } from "../output.js";
 import { RunOutputs } from "../run-outputs.js";
 import type { FitCliOptions } from "./fit-options.js";
+import type { FitSummary } from "../../infer/summary.js";
+import { ZERO_FAMILIES } from "../../fit/zero-likelihood.js";
+
+/** The first option given that the excess-zero families do not take yet, or null. */
+function unsupportedOption(opts: FitCliOptions): string | null {
+  try {
+    refuseUnsupported(opts);
+    return null;
+  } catch (e) {
+    return (e as Error).message.split(" does not go")[0];
+  }
+}
+
+/**
+ * --family auto when the check found more zeros than either plain model
+ * expects: fit the four excess-zero families (zero part: --zero-terms, or an
+ * intercept) and keep the one with the smallest AIC when it beats the plain
+ * family's AIC. Returns the report to print, or null to keep the plain fit.
+ */
+export async function autoZeroFit(
+  file: string | undefined,
+  opts: FitCliOptions,
+  plain: { family: string; aic: number; excessZeros: boolean; reason: string },
+  level: number,
+): Promise<{ summary: FitSummary; note: null } | { summary: null; note: string } | null> {
+  if (!plain.excessZeros) return null;
+  const blocked = unsupportedOption(opts);
+  if (blocked)
+    return {
+      summary: null,
+      note: `the check found more zeros than either plain model expects, but the zero-inflated and hurdle families were not tried because ${blocked} does not go with them yet`,
+    };
+  const zeroTerms = opts.zeroTerms?.trim() || "1";
+  const { designs } = await loadDesigns(file, { ...opts, quiet: true }, [opts.model[0], zeroModelOf(opts, zeroTerms)]);
+  const tried: { family: ZeroFamily; aic: number; summary: FitSummary }[] = [];
+  for (const family of ZERO_FAMILIES)
+    try {
+      const { summary } = analyzeZeroFit(designs[0], designs[1], family, { level, zeroTerms });
+      if (summary.converged) tried.push({ family, aic: summary.aic, summary });
+    } catch {
+      // A family that cannot be fitted here is not a candidate.
+    }
+  tried.sort((a, b) => a.aic - b.aic);
+  const best = tried[0];
+  if (!best || best.aic >= plain.aic) return null;
+  const listed = tried.map((t) => `${t.family} ${t.aic.toFixed(1)}`).join(", ");
+  best.summary.family_choice = {
+    requested: "auto",
+    used: best.family,
+    reason: `${plain.reason}; the check also found more zeros than either plain model expects, so the zero-inflated and hurdle families were fitted (zero part ~ ${zeroTerms}) and ${best.family} has the smallest AIC (${listed}; ${plain.family} ${plain.aic.toFixed(1)})`,
+  };
+  return { summary: best.summary, note: null };
+}
+
+function zeroModelOf(opts: FitCliOptions, zeroTerms: string): string {
+  const response = parseFormula(opts.model[0], { intercept: opts.intercept }).response;
+  return `${/^[A-Za-z_.][A-Za-z0-9_.]*$/.test(response) ? response : `\`${response}\``} ~ ${zeroTerms}`;
+}
+
+/** Render an excess-zero fit's report. */
+export function renderZeroReport(summary: FitSummary, opts: FitCliOptions): string {
+  return opts.format === "json" ? renderJson(summary) : renderZeroText(displaySafe(summary), textLayout(opts));
+}
 
 /** Options of `fit` the excess-zero families do not take yet, each with the reason. */
 function refuseUnsupported(opts: FitCliOptions): void {
@@ -38,9 +101,8 @@ export async function runZeroFit(file: string | undefined, opts: FitCliOptions, 
   const zeroTerms = opts.zeroTerms?.trim() || "1";
   const outputs = new RunOutputs([file ?? "-"]);
   if (opts.output) outputs.claim(opts.output, "--output");
-  const response = parseFormula(opts.model[0], { intercept: opts.intercept }).response;
   // Both parts on the same rows: the rows complete for the count terms and the zero terms.
-  const zeroModel = `${/^[A-Za-z_.][A-Za-z0-9_.]*$/.test(response) ? response : `\`${response}\``} ~ ${zeroTerms}`;
+  const zeroModel = zeroModelOf(opts, zeroTerms);
   try {
     parseFormula(zeroModel);
   } catch (e) {
@@ -50,7 +112,7 @@ export async function runZeroFit(file: string | undefined, opts: FitCliOptions, 
   const { designs } = await loadDesigns(file, opts, [opts.model[0], zeroModel]);
   const control = { maxIter: Number(opts.maxIter) };
   const { summary } = analyzeZeroFit(designs[0], designs[1], family, { level, zeroTerms, control });
-  const content = opts.format === "json" ? renderJson(summary) : renderZeroText(displaySafe(summary), textLayout(opts));
+  const content = renderZeroReport(summary, opts);
   await finish(outputs, opts, content);
   return EXIT.ok;
 }

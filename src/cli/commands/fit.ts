@@ -8,7 +8,7 @@ import { summarizeGroups } from "../../infer/groups.js";
 import { clusteringOf, orderKeyOf } from "../../design/clusters.js";
 import { WORKING_CORRELATIONS } from "../../fit/working-correlation.js";
 import { ZERO_FAMILIES, type ZeroFamily } from "../../fit/zero-likelihood.js";
-import { runZeroFit } from "./fit-zero.js";
+import { autoZeroFit, renderZeroReport, runZeroFit } from "./fit-zero.js";
 import type { FitCliOptions } from "./fit-options.js";
 import type { CountSpread } from "../../infer/ratio-limits.js";
 import type { FitSummary } from "../../infer/summary.js";
@@ -53,9 +53,9 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
     );
   const anyFamily = oneOf("--family", opts.family, ["poisson", "quasipoisson", "negbin", "auto", ...ZERO_FAMILIES]);
   if ((ZERO_FAMILIES as readonly string[]).includes(anyFamily)) return runZeroFit(file, opts, anyFamily as ZeroFamily);
-  if (opts.zeroTerms)
+  if (opts.zeroTerms && anyFamily !== "auto")
     throw new InputError(
-      "--zero-terms describes the zero part of a zero-inflated or hurdle family: give --family zip, zinb, hurdle-poisson or hurdle-negbin.",
+      "--zero-terms describes the zero part of a zero-inflated or hurdle family: give --family zip, zinb, hurdle-poisson, hurdle-negbin or auto.",
     );
   const family = anyFamily as FamilyChoice;
   if (opts.cluster.length > 2) throw new InputError("--cluster is given once (one-way) or twice (two-way clustering).");
@@ -127,7 +127,7 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
     gee && opts.orderBy
       ? orderKeyOf(opts.orderBy, labels.get(opts.orderBy)!, design.rowIndex, clusters[0], design.source)
       : null;
-  const { summary, countFit, cluster } = await analyzeFitParallel(design, {
+  const { summary, countFit, cluster, check } = await analyzeFitParallel(design, {
     family,
     control,
     level,
@@ -142,6 +142,29 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
     ratioPer,
   });
   if (onProgress && progressOnTerminal()) clearProgressLine();
+  if (family === "auto" && check) {
+    // More zeros than either plain model expects: the excess-zero families are tried too.
+    const zero = await autoZeroFit(
+      file,
+      opts,
+      {
+        family: summary.family,
+        aic: summary.aic,
+        excessZeros: check.verdict.code === "excess_zeros",
+        reason: summary.family_choice?.reason ?? "",
+      },
+      level,
+    );
+    if (zero?.note) summary.warnings.push(zero.note);
+    else if (zero?.summary) {
+      if (!["text", "json"].includes(opts.format))
+        throw new InputError(
+          `--family auto chose ${zero.summary.family}, whose report is text or json; give --format text or json.`,
+        );
+      await finish(outputs, opts, renderZeroReport(zero.summary, opts));
+      return EXIT.ok;
+    }
+  }
   const wide = opts.format === "text" && !opts.output && process.stdout.isTTY && (process.stdout.columns ?? 0) >= 60;
   const diag = opts.plot || wide ? diagnosticsOf(design, countFit) : null;
   if (opts.plot && diag) addPlot(outputs, opts.plot, `${summary.family} fit of ${summary.model}`, diag, summary);
