@@ -4,9 +4,10 @@
 // visits per clinic-day with the hours it was open; a hospital records falls
 // per ward-month with occupied bed-days; a regional network of thirty
 // community clinics records two years of weekday visits, where counts of one
-// clinic share its level and its run of busy or quiet weeks. Nothing here is real data.
+// clinic share its level and its run of busy or quiet weeks; and falls per
+// ward-month where some months were never reported. Nothing here is real data.
 //   node examples/generate.mjs          (after npm ci, which builds dist/) rewrites clinic_visits.csv,
-//                                        clinic_visits_week49.csv, ward_falls.csv and clinic_network.csv
+//                                        clinic_visits_week49.csv, ward_falls.csv, clinic_network.csv and ward_reports.csv
 import { writeFileSync } from "node:fs";
 import { dirname, join } from "node:path";
 import { fileURLToPath } from "node:url";
@@ -119,6 +120,33 @@ function clinicNetwork(seed = 20261202) {
   return `${lines.join("\n")}\n`;
 }
 
+/**
+ * Falls per ward-month over three years in 16 wards of four kinds; some
+ * ward-months are never reported (the count reads 0), more often in small
+ * units (about 30% of their months against 8%). Counts that are reported are
+ * negative binomial (alpha 0.3) with the ward kind's rate per bed-day.
+ */
+function wardReports(seed = 20261205) {
+  const u = rng(seed);
+  const kinds = { medicine: 0, surgery: -0.35, rehab: 0.45, older_people: 0.6 };
+  const wards = Array.from({ length: 16 }, (_, k) => ({
+    name: `ward_${String(k + 1).padStart(2, "0")}`,
+    kind: Object.keys(kinds)[k % 4],
+    small: k % 3 === 0 ? "yes" : "no",
+  }));
+  const lines = ["month,ward,ward_type,small_unit,bed_days,falls"];
+  for (let m = 0; m < 36; m++) {
+    const month = `${2024 + Math.floor(m / 12)}-${String((m % 12) + 1).padStart(2, "0")}`;
+    for (const w of wards) {
+      const beds = (w.small === "yes" ? 250 : 650) + Math.round(u() * 150);
+      const unreported = u() < (w.small === "yes" ? 0.3 : 0.08);
+      const rate = Math.exp(Math.log(4 / 1000) + kinds[w.kind]);
+      lines.push(`${month},${w.name},${w.kind},${w.small},${beds},${unreported ? 0 : negbin(u, rate * beds, 0.3)}`);
+    }
+  }
+  return `${lines.join("\n")}\n`;
+}
+
 writeFileSync(join(here, "clinic_visits.csv"), clinicVisits());
 // The next week, for the weekly prediction run: Harbour on Wednesday sees three times its usual rate.
 writeFileSync(
@@ -127,4 +155,7 @@ writeFileSync(
 );
 writeFileSync(join(here, "ward_falls.csv"), wardFalls());
 writeFileSync(join(here, "clinic_network.csv"), clinicNetwork());
-console.log("wrote examples/clinic_visits.csv, clinic_visits_week49.csv, ward_falls.csv and clinic_network.csv");
+writeFileSync(join(here, "ward_reports.csv"), wardReports());
+console.log(
+  "wrote examples/clinic_visits.csv, clinic_visits_week49.csv, ward_falls.csv, clinic_network.csv and ward_reports.csv",
+);
