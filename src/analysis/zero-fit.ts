@@ -12,6 +12,20 @@ import type { FitSummary } from "../infer/summary.js";
 import { summarizeZeroFit } from "../infer/zero-summary.js";
 import { screenRank, symZeros } from "../math/linalg.js";
 import { columnValues } from "../design/matrix-columns.js";
+import type { Clustering } from "../design/clusters.js";
+import { dominantClusters } from "../infer/cluster.js";
+
+/** The few-clusters and dominant-cluster warnings of clustered counts. */
+function clusterWarnings(c: Clustering): string[] {
+  const out: string[] = [];
+  if (c.count < 30)
+    out.push(
+      `only ${c.count} clusters of '${c.column}': cluster-robust standard errors are unreliable with few clusters (fewer than about 30 is common practice for caution; Cameron and Miller 2015)`,
+    );
+  for (const d of dominantClusters(c))
+    out.push(`one cluster of '${d.column}' ('${d.cluster}') holds ${Math.round(100 * d.share)}% of the rows`);
+  return out;
+}
 
 export interface ZeroAnalysis {
   fit: ZeroFit;
@@ -47,6 +61,10 @@ export function analyzeZeroFit(
     zeroTerms: string;
     control?: Partial<FitControl>;
     familyChoice?: { requested: string; reason: string };
+    /** HC0 sandwich standard errors (--robust). */
+    robust?: boolean;
+    /** Cluster-robust (CR1) standard errors for one clustering (--cluster). */
+    cluster?: Clustering;
   },
 ): ZeroAnalysis {
   const plain = fitCounts(count, { family: "poisson", control: o.control });
@@ -71,7 +89,12 @@ export function analyzeZeroFit(
     const nb = fitCounts(count, { family: "negbin", control: o.control });
     logAlphaStart = Math.log(Math.max(nb.fit.alpha, 0.01));
   }
-  const fit = fitZeroModel(count, zero, { ...base, family, logAlphaStart });
+  const sandwich = o.cluster
+    ? { ids: o.cluster.ids, count: o.cluster.count }
+    : o.robust
+      ? { ids: null, count: count.n }
+      : undefined;
+  const fit = fitZeroModel(count, zero, { ...base, family, logAlphaStart, sandwich });
   let poissonForm: { logLik: number; parameters: number } | undefined;
   if (isNegbinForm(family)) {
     const pf = fitZeroModel(count, zero, { ...base, family: isHurdle(family) ? "hurdle-poisson" : "zip" });
@@ -84,6 +107,12 @@ export function analyzeZeroFit(
     zeroTerms: o.zeroTerms,
     poissonForm,
     familyChoice: o.familyChoice,
+    sandwich: o.cluster
+      ? { kind: "cluster", column: o.cluster.column, count: o.cluster.count }
+      : o.robust
+        ? { kind: "robust" }
+        : undefined,
   });
+  if (o.cluster) for (const w of clusterWarnings(o.cluster)) summary.warnings.push(w);
   return { fit, summary };
 }

@@ -21,6 +21,12 @@ export interface ZeroFitOptions {
   /** Start of log alpha (NB2 forms). */
   logAlphaStart?: number;
   maxIter?: number;
+  /**
+   * Also a sandwich covariance H⁻¹(Σ_g u_g u_gᵀ)H⁻¹ with the rows' scores summed
+   * within clusters (ids; null: every row its own, the HC0 sandwich of
+   * White 1982), with the CR1 factor G/(G − 1)·(N − 1)/(N − k) for clusters.
+   */
+  sandwich?: { ids: Int32Array | null; count: number };
 }
 
 export interface ZeroFit {
@@ -39,6 +45,8 @@ export interface ZeroFit {
    */
   covariance: SymMatrix | null;
   boundary: { zeroPart: boolean; alpha: boolean };
+  /** With options.sandwich: the robust or cluster-robust covariance, laid out as `covariance`. */
+  sandwichCovariance: SymMatrix | null;
   iterations: number;
   converged: boolean;
   /** Per row: the count mean λ and the zero-part probability (π or p). */
@@ -257,6 +265,7 @@ export function fitZeroModel(count: Design, zero: Design, o: ZeroFitOptions): Ze
     ({ keep, l } = factor());
   }
   let covariance: SymMatrix | null = null;
+  let sandwichCovariance: SymMatrix | null = null;
   if (l) {
     const inv = choleskyInverse(l, keep.length);
     const full = new Float64Array(m * m);
@@ -273,6 +282,34 @@ export function fitZeroModel(count: Design, zero: Design, o: ZeroFitOptions): Ze
     for (let i = 0; i < r; i++) for (let j = 0; j < r; j++) t[(p + i) * m + p + j] = tz[i * r + j];
     if (nb) t[(p + r) * m + p + r] = 1;
     covariance = congruence(t, { p: m, data: full });
+    if (o.sandwich) {
+      const meat = scoreMeat(P, theta, o.sandwich, keep);
+      const q = keep.length;
+      const inner = new Float64Array(q * q);
+      // H⁻¹ M H⁻¹ over the kept parameters.
+      const tmp = new Float64Array(q * q);
+      for (let i = 0; i < q; i++)
+        for (let j = 0; j < q; j++) {
+          let acc = 0;
+          for (let k2 = 0; k2 < q; k2++) acc += inv.data[i * q + k2] * meat[k2 * q + j];
+          tmp[i * q + j] = acc;
+        }
+      for (let i = 0; i < q; i++)
+        for (let j = 0; j < q; j++) {
+          let acc = 0;
+          for (let k2 = 0; k2 < q; k2++) acc += tmp[i * q + k2] * inv.data[k2 * q + j];
+          inner[i * q + j] = acc;
+        }
+      const G = o.sandwich.ids ? o.sandwich.count : count.n;
+      const factor = o.sandwich.ids ? (G / (G - 1)) * ((count.n - 1) / (count.n - q)) : 1;
+      const fullS = new Float64Array(m * m);
+      keep.forEach((a, i) => {
+        keep.forEach((b, j) => {
+          fullS[a * m + b] = inner[i * q + j] * factor;
+        });
+      });
+      sandwichCovariance = congruence(t, { p: m, data: fullS });
+    }
   }
   return {
     family: o.family,
@@ -282,11 +319,53 @@ export function fitZeroModel(count: Design, zero: Design, o: ZeroFitOptions): Ze
     logLik,
     covariance,
     boundary,
+    sandwichCovariance,
     iterations: run.iterations,
     converged: (run.converged || polished) && polished,
     lambda,
     zeroProb,
   };
+}
+
+/** Σ_g u_g u_gᵀ over the kept parameters, u_g the rows' scores summed within cluster g (each row its own without ids). */
+function scoreMeat(
+  P: Problem,
+  theta: Float64Array,
+  sw: { ids: Int32Array | null; count: number },
+  keep: number[],
+): Float64Array {
+  const { X, Z, y, off, w, family, nb } = P;
+  const p = X.q,
+    r = Z.q,
+    q = keep.length;
+  const groups = sw.ids ? sw.count : y.length;
+  const sums = new Float64Array(groups * q);
+  const a = nb ? theta[p + r] : 0;
+  const score = new Float64Array(p + r + (nb ? 1 : 0));
+  for (let i = 0; i < y.length; i++) {
+    let eta = off[i];
+    for (let k = 0; k < p; k++) eta += X.values[i * p + k] * theta[k];
+    let u = 0;
+    for (let k = 0; k < r; k++) u += Z.values[i * r + k] * theta[p + k];
+    const t = rowTerms(family, y[i], eta, u, a);
+    const wi = w ? w[i] : 1;
+    for (let k = 0; k < p; k++) score[k] = wi * t.dEta * X.values[i * p + k];
+    for (let k = 0; k < r; k++) score[p + k] = wi * t.dU * Z.values[i * r + k];
+    if (nb) score[p + r] = wi * t.dA;
+    const g = sw.ids ? sw.ids[i] : i;
+    if (g < 0) continue;
+    keep.forEach((kk, j) => {
+      sums[g * q + j] += score[kk];
+    });
+  }
+  const meat = new Float64Array(q * q);
+  for (let g = 0; g < groups; g++)
+    for (let i = 0; i < q; i++) {
+      const si = sums[g * q + i];
+      if (si === 0) continue;
+      for (let j = 0; j < q; j++) meat[i * q + j] += si * sums[g * q + j];
+    }
+  return meat;
 }
 
 /** The matrix T of a conditioning map (β = Tγ), column by column. */

@@ -3,11 +3,18 @@
 // part as odds ratios in `zero_part.coefficients` (the same fields), alpha in
 // `negbin`, observed zeros against the model's expectation, and the
 // likelihood figures. Standard errors are from the inverse observed
-// information (zero-fit.ts); Wald tests and limits against the normal.
+// information (zero-fit.ts), or the sandwich with --robust or --cluster (then
+// Student's t on G − 1 df); Wald tests and limits against the normal otherwise.
 import type { Design } from "../design/design.js";
 import type { ZeroFit } from "../fit/zero-fit.js";
 import { isHurdle, isNegbinForm } from "../fit/zero-likelihood.js";
-import { chiSquareUpperTail, normalQuantile, normalTwoSidedP } from "../math/distributions.js";
+import {
+  chiSquareUpperTail,
+  normalQuantile,
+  normalTwoSidedP,
+  studentQuantile,
+  studentTwoSidedP,
+} from "../math/distributions.js";
 import { boundaryLrTest } from "./fit-statistics.js";
 import type { CoefficientRow, FitSummary, NegbinSummary } from "./summary.js";
 
@@ -19,6 +26,8 @@ export interface ZeroSummaryOptions {
   /** NB2 forms: the log-likelihood and parameter count of the Poisson form, for the likelihood-ratio test of alpha. */
   poissonForm?: { logLik: number; parameters: number };
   familyChoice?: { requested: string; reason: string };
+  /** The sandwich the fit computed: per row (--robust) or summed within one clustering (--cluster, t on G − 1). */
+  sandwich?: { kind: "robust" } | { kind: "cluster"; column: string; count: number };
 }
 
 function rows(
@@ -30,6 +39,7 @@ function rows(
   crit: number,
   odds: boolean,
   noSe: boolean,
+  pOf: (z: number) => number,
 ): CoefficientRow[] {
   const refs = new Map(design.factors.map((f) => [f.name, f.reference]));
   return cols.map((c, k) => {
@@ -44,7 +54,7 @@ function rows(
       estimate: b,
       std_error: se,
       z,
-      p_value: z === null ? null : normalTwoSidedP(z),
+      p_value: z === null ? null : pOf(z),
       rate_ratio: odds ? null : Math.exp(b),
       ...(odds ? { odds_ratio: Math.exp(b) } : {}),
       wald,
@@ -69,14 +79,18 @@ function rows(
 }
 
 export function summarizeZeroFit(count: Design, zero: Design, z: ZeroFit, o: ZeroSummaryOptions): FitSummary {
-  const crit = normalQuantile(1 - (1 - o.level) / 2);
+  const clustered = o.sandwich?.kind === "cluster" ? o.sandwich : null;
+  const tDf = clustered ? clustered.count - 1 : Number.POSITIVE_INFINITY;
+  const crit = clustered ? studentQuantile(1 - (1 - o.level) / 2, tDf) : normalQuantile(1 - (1 - o.level) / 2);
+  const pOf = (t: number) => (clustered ? studentTwoSidedP(t, tDf) : normalTwoSidedP(t));
+  const cov = o.sandwich ? z.sandwichCovariance : z.covariance;
   const p = o.countColumns.length,
     r = o.zeroColumns.length;
   const nb = isNegbinForm(z.family);
   const k = p + r + (nb ? 1 : 0);
   const hurdle = isHurdle(z.family);
-  const coefficients = rows(count, o.countColumns, z.beta, z.covariance, 0, crit, false, false);
-  const zeroRows = rows(zero, o.zeroColumns, z.gamma, z.covariance, p, crit, true, z.boundary.zeroPart);
+  const coefficients = rows(count, o.countColumns, z.beta, cov, 0, crit, false, false, pOf);
+  const zeroRows = rows(zero, o.zeroColumns, z.gamma, cov, p, crit, true, z.boundary.zeroPart, pOf);
   // Observed and expected zeros, and the Pearson statistic with the model's mean and variance.
   let obs0 = 0,
     exp0 = 0,
@@ -119,8 +133,8 @@ export function summarizeZeroFit(count: Design, zero: Design, z: ZeroFit, o: Zer
     );
   let negbin: NegbinSummary | undefined;
   if (nb) {
-    const m = z.covariance?.p ?? 0;
-    const seLog = z.covariance && !z.boundary.alpha ? Math.sqrt(z.covariance.data[(m - 1) * m + m - 1]) : null;
+    const m = cov?.p ?? 0;
+    const seLog = cov && !z.boundary.alpha ? Math.sqrt(cov.data[(m - 1) * m + m - 1]) : null;
     const lr = o.poissonForm ? boundaryLrTest(z.logLik, o.poissonForm.logLik) : { stat: Number.NaN, p: Number.NaN };
     negbin = {
       alpha: z.alpha,
@@ -200,8 +214,17 @@ export function summarizeZeroFit(count: Design, zero: Design, z: ZeroFit, o: Zer
     },
     zeros: { observed: obs0, expected: exp0 },
     ...(negbin ? { negbin } : {}),
-    test_distribution: "normal",
-    standard_errors: "model",
+    test_distribution: clustered ? "t" : "normal",
+    standard_errors: clustered ? "cluster" : o.sandwich ? "robust" : "model",
+    ...(clustered
+      ? {
+          covariance: {
+            type: "cluster-CR1",
+            clusters: [{ column: clustered.column, count: clustered.count }],
+            t_df: tDf,
+          },
+        }
+      : {}),
     profile_reference: null,
     warnings,
     notices: count.notices,

@@ -43,6 +43,16 @@ export function renderZeroText(s: FitSummary, o: { style: Style; width: number }
       ).map((l) => `  ${l}`),
     );
   out.push("");
+  out.push(
+    `  standard errors: ${
+      s.covariance
+        ? `cluster-robust (CR1) over ${fixed(s.covariance.clusters[0].count, 0)} ${s.covariance.clusters[0].column} clusters, t on ${fixed(s.covariance.t_df, 0)} df`
+        : s.standard_errors === "robust"
+          ? "sandwich (HC0) from the rows' scores"
+          : "inverse observed information"
+    }, both parts`,
+    "",
+  );
   out.push(st.heading(`Zero part: odds of a ${zp.odds_of}, with ${lv} Wald intervals`));
   const zRows = zp.coefficients.filter((c) => c.kind !== "intercept");
   const base = zp.coefficients.find((c) => c.kind === "intercept");

@@ -4,7 +4,8 @@
 // schema, the report's wording, and the options these families refuse.
 import { test } from "node:test";
 import assert from "node:assert/strict";
-import { readFileSync } from "node:fs";
+import { mkdtempSync, readFileSync } from "node:fs";
+import { tmpdir } from "node:os";
 import { join } from "node:path";
 import AjvModule from "ajv";
 import { FIXTURES, ROOT, assertRel, runCli } from "../helpers.js";
@@ -51,8 +52,8 @@ test("the text report names the parts; --zero-terms without a zero family and op
   const cases: [string[], RegExp][] = [
     [["fit", DATA, "--model", ref.model, "--zero-terms", "small_unit"], /--zero-terms describes the zero part/],
     [
-      [...ARGS, "--family", "zip", "--cluster", "ward"],
-      /--cluster\/--gee does not go with the zero-inflated and hurdle families yet/,
+      [...ARGS, "--family", "zip", "--cluster", "ward", "--cluster", "unit"],
+      /a second --cluster does not go with the zero-inflated and hurdle families yet/,
     ],
     [[...ARGS, "--family", "zip", "--save-model", "/tmp/x.json"], /--save-model does not go with/],
     [[...ARGS.slice(0, -1), "small_unit +", "--family", "zip"], /--zero-terms:/],
@@ -86,7 +87,37 @@ test("--family auto tries the excess-zero families only when the check finds mor
   );
   assert.equal(plain.family, "negbin", "no excess zeros: a plain family");
   assert.equal(plain.zero_part, undefined);
-  const blocked = JSON.parse(runCli([...ARGS, "--family", "auto", "--format", "json", "--robust"]).stdout);
+  const dir = mkdtempSync(join(tmpdir(), "tallyfit-zero-"));
+  const blocked = JSON.parse(
+    runCli([...ARGS, "--family", "auto", "--format", "json", "--save-model", join(dir, "m.json")]).stdout,
+  );
   assert.equal(blocked.family, "negbin");
-  assert.ok(blocked.warnings.some((w: string) => /were not tried because --robust/.test(w)));
+  assert.ok(blocked.warnings.some((w: string) => /were not tried because --save-model/.test(w)));
+});
+
+test("--robust and --cluster unit: sandwich standard errors of both parts as the runner's (scores by differences, 1e-4); t on G − 1", () => {
+  for (const family of ["zinb", "hurdle-poisson"]) {
+    const want = ref.fits[family];
+    const robust = JSON.parse(runCli([...ARGS, "--family", family, "--robust", "--format", "json"]).stdout);
+    assert.equal(robust.standard_errors, "robust");
+    const cl = JSON.parse(runCli([...ARGS, "--family", family, "--cluster", "unit", "--format", "json"]).stdout);
+    assert.ok(validate(cl), JSON.stringify((validate as { errors?: unknown }).errors));
+    assert.equal(cl.standard_errors, "cluster");
+    assert.deepEqual(cl.covariance, {
+      type: "cluster-CR1",
+      clusters: [{ column: "unit", count: want.clusters }],
+      t_df: want.clusters - 1,
+    });
+    for (const [j, se] of [
+      [robust, want.robust_se],
+      [cl, want.cluster_se],
+    ] as const) {
+      j.coefficients.forEach((c: { std_error: number }, k: number) =>
+        assertRel(c.std_error, se[k], 1e-4, `${family} count SE ${k}`),
+      );
+      j.zero_part.coefficients.forEach((c: { std_error: number }, k: number) =>
+        assertRel(c.std_error, se[3 + k], 1e-4, `${family} zero SE ${k}`),
+      );
+    }
+  }
 });

@@ -1,6 +1,7 @@
 // tallyfit fit --family zip|zinb|hurdle-poisson|hurdle-negbin: the count part
 // and the zero part (--zero-terms) fitted together by maximum likelihood.
 import { analyzeZeroFit } from "../../analysis/zero-fit.js";
+import { clusteringOf } from "../../design/clusters.js";
 import { EXIT, InputError } from "../../errors.js";
 import type { ZeroFamily } from "../../fit/zero-likelihood.js";
 import { parseFormula } from "../../formula/formula.js";
@@ -81,8 +82,9 @@ function refuseUnsupported(opts: FitCliOptions): void {
   const not = (given: boolean, option: string, why: string) => {
     if (given) throw new InputError(`${option} does not go with the zero-inflated and hurdle families yet: ${why}.`);
   };
-  not(opts.cluster.length > 0 || !!opts.gee, "--cluster/--gee", "their covariances follow in a later version");
-  not(!!opts.robust, "--robust", "its sandwich follows in a later version");
+  not(opts.cluster.length > 1, "a second --cluster", "two-way clustering follows in a later version");
+  not(!!opts.gee, "--gee", "GEE is for the plain families");
+  not(opts.cluster.length > 0 && !!opts.robust, "--cluster with --robust", "give one covariance");
   not(
     !!opts.intervals && opts.intervals !== "wald",
     "--intervals profile|both",
@@ -109,9 +111,21 @@ export async function runZeroFit(file: string | undefined, opts: FitCliOptions, 
     if (e instanceof InputError) throw new InputError(e.message.replace(/^--model:/, "--zero-terms:"));
     throw e;
   }
-  const { designs } = await loadDesigns(file, opts, [opts.model[0], zeroModel]);
+  const { designs, labels } = await loadDesigns(
+    file,
+    opts,
+    [opts.model[0], zeroModel],
+    opts.cluster.map((column) => ({ column, option: "--cluster" })),
+  );
   const control = { maxIter: Number(opts.maxIter) };
-  const { summary } = analyzeZeroFit(designs[0], designs[1], family, { level, zeroTerms, control });
+  const cluster = opts.cluster.length ? clusteringOf(opts.cluster[0], labels.get(opts.cluster[0])!) : undefined;
+  const { summary } = analyzeZeroFit(designs[0], designs[1], family, {
+    level,
+    zeroTerms,
+    control,
+    robust: !!opts.robust,
+    cluster,
+  });
   const content = renderZeroReport(summary, opts);
   await finish(outputs, opts, content);
   return EXIT.ok;
