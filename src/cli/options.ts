@@ -187,7 +187,7 @@ function addModelSpecOptions(cmd: Command, multiModel: boolean): Command {
   const withFamily = multiModel
     ? withModel.option(
         "--family <name>",
-        "poisson, negbin or quasipoisson: once for all models, or once per --model in order",
+        "poisson, negbin, quasipoisson, zip, zinb, hurdle-poisson or hurdle-negbin: once for all models, or once per --model in order",
         collect,
         [],
       )

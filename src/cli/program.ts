@@ -160,6 +160,9 @@ export function buildProgram(onResult: (code: number) => void): Command {
       addClusterOption(
         c,
         "test nested models by Wald F with cluster-robust covariances for rows grouped by COL (repeat for two-way)",
+      ).option(
+        "--zero-terms <terms>",
+        "the zero part's terms of the zip, zinb and hurdle models compared (default: an intercept)",
       ),
     true,
   ).action(async (file: string | undefined, opts: CompareCliOptions) => onResult(await runCompare(file, opts)));
