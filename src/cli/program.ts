@@ -142,10 +142,12 @@ export function buildProgram(onResult: (code: number) => void): Command {
       addClusterOption(
         addPlotOption(c),
         "also read whether counts of the same COL move together (share of residual variation between clusters)",
-      ).option(
-        "--order-by <col>",
-        "with --cluster: also the lag-1 serial correlation of residuals within clusters in COL's order",
-      ),
+      )
+        .option(
+          "--order-by <col>",
+          "with --cluster: also the lag-1 serial correlation of residuals within clusters in COL's order",
+        )
+        .option("--zero-terms <terms>", "the zero part's terms when checking a zip, zinb or hurdle model"),
   )
     .option("--alpha <p>", "test level: a test flags when its p-value is below this", "0.05")
     .action(async (file: string | undefined, opts: CheckCliOptions) => onResult(await runCheck(file, opts)));

@@ -36,7 +36,7 @@ export type VerdictCode = "poisson_adequate" | "overdispersed" | "excess_zeros" 
 export interface CheckResult {
   schema: "tallyfit.check/1";
   /** The family whose adequacy is tested (absent: the Poisson, whose dispersion and zeros are tested). */
-  family_checked?: "poisson" | "negbin" | "quasipoisson";
+  family_checked?: "poisson" | "negbin" | "quasipoisson" | "zip" | "zinb" | "hurdle-poisson" | "hurdle-negbin";
   /** Quasi-Poisson: the dispersion phi of the model checked. */
   phi?: number;
   source: string;

@@ -22,6 +22,30 @@ function zeroProbability(mu: number, alpha: number, phi: number | null): number 
   return alpha > 0 ? (1 + alpha * mu) ** (-1 / alpha) : Math.exp(-mu);
 }
 
+/** What the adequacy tests need of a fitted model, row by row. */
+export interface ModelMoments {
+  /** The family tested, as JSON names it, and in words. */
+  family: "negbin" | "quasipoisson" | "zip" | "zinb" | "hurdle-poisson" | "hurdle-negbin";
+  name: string;
+  mean: Float64Array;
+  variance: Float64Array;
+  /** P(Y = 0) under the fitted model. */
+  p0: Float64Array;
+  /** Residual degrees of freedom of the Pearson test (null: no Pearson test, as for the quasi-Poisson). */
+  pearsonDf: number | null;
+  /** What to try when the variance grows faster, or more slowly, with the mean than the model says. */
+  faster: string;
+  slower: string;
+  alpha: number;
+  alphaStdError: number | null;
+  boundary: boolean;
+  phi?: number;
+  /** The next step when the variance does not fit (default: the plain families' advice). */
+  misfitNext?: string;
+  /** Deviance / residual df of a GLM fit (the zero families have no deviance). */
+  devianceRatio?: number;
+}
+
 export function runModelChecks(
   design: Design,
   mf: CountFit,
@@ -29,30 +53,63 @@ export function runModelChecks(
   nb: CountFit,
   testLevel: number,
 ): CheckResult {
-  const { y, weights } = design;
-  const n = design.n;
-  const w = (i: number) => (weights ? weights[i] : 1);
   const quasi = mf.family === "quasipoisson";
   const fit = mf.fit;
   const alpha = quasi ? 0 : fit.alpha;
   const phi = quasi ? quasiPhi(design, fit) : null;
   const st = fitStatistics(design, fit, !quasi);
-  const df = st.df - (quasi ? 0 : 1);
-  const variance = (mu: number) => (quasi ? phi! * mu : mu + alpha * mu * mu);
+  return momentChecks(
+    design,
+    {
+      family: quasi ? "quasipoisson" : "negbin",
+      name: quasi ? "quasi-Poisson" : "negative-binomial",
+      mean: fit.mu,
+      variance: Float64Array.from(fit.mu, (mu) => (quasi ? phi! * mu : mu + alpha * mu * mu)),
+      p0: Float64Array.from(fit.mu, (mu) => zeroProbability(mu, alpha, phi)),
+      // For the quasi-Poisson, phi is the Pearson ratio by construction: its Pearson test cannot fail and is left out.
+      pearsonDf: quasi ? null : st.df - 1,
+      faster: quasi ? " (try --family negbin)" : "",
+      slower: quasi ? "" : " (try --family quasipoisson)",
+      alpha,
+      alphaStdError: quasi ? null : (mf.negbin?.alphaStdError ?? null),
+      boundary: quasi ? true : !!mf.negbin?.boundary,
+      ...(quasi ? { phi: phi! } : {}),
+      devianceRatio: fit.deviance / (st.df - (quasi ? 0 : 1)),
+    },
+    pois,
+    nb,
+    testLevel,
+  );
+}
+
+/** The three adequacy tests and the verdict, from the model's row moments. */
+export function momentChecks(
+  design: Design,
+  mm: ModelMoments,
+  pois: CountFit,
+  nb: CountFit,
+  testLevel: number,
+): CheckResult {
+  const { y, weights } = design;
+  const n = design.n;
+  const w = (i: number) => (weights ? weights[i] : 1);
+  const name = mm.name;
+  const quasi = mm.pearsonDf === null;
+  const df = mm.pearsonDf ?? 0;
   const fmt = (x: number) => x.toFixed(2);
-  const name = quasi ? "quasi-Poisson" : "negative-binomial";
+  const mean = mm.mean,
+    vari = mm.variance;
   const tests: CheckTest[] = [];
 
   let pearson = 0,
     sw = 0,
     smu = 0;
   for (let i = 0; i < n; i++)
-    if (fit.mu[i] > 0) {
-      pearson += (w(i) * (y[i] - fit.mu[i]) ** 2) / variance(fit.mu[i]);
+    if (mean[i] > 0) {
+      pearson += (w(i) * (y[i] - mean[i]) ** 2) / vari[i];
       sw += w(i);
-      smu += w(i) * fit.mu[i];
+      smu += w(i) * mean[i];
     }
-  // For the quasi-Poisson, phi is this ratio by construction: its Pearson test cannot fail and is left out.
   if (!quasi) {
     const p = df > 0 ? chiSquareUpperTail(pearson, df) : NaN;
     tests.push({
@@ -63,7 +120,7 @@ export function runModelChecks(
       df,
       p_value: p,
       flagged: p < testLevel,
-      reference: "chi-square on the residual df (less one for alpha)",
+      reference: "chi-square on the residual df (less one for alpha, when there is one)",
       reading: `Pearson chi-square / df = ${fmt(pearson / df)}; ${p < testLevel ? `more variation than the ${name} allows` : `consistent with the ${name} variance`}`,
     });
   }
@@ -73,21 +130,21 @@ export function runModelChecks(
   let sxy = 0,
     sxx = 0;
   for (let i = 0; i < n; i++)
-    if (fit.mu[i] > 0) {
-      const r2 = (y[i] - fit.mu[i]) ** 2 / variance(fit.mu[i]) - 1;
-      const x = fit.mu[i] - muBar;
+    if (mean[i] > 0) {
+      const r2 = (y[i] - mean[i]) ** 2 / vari[i] - 1;
+      const x = mean[i] - muBar;
       sxy += w(i) * x * r2;
       sxx += w(i) * x * x;
     }
   const slope = sxx > 0 ? sxy / sxx : 0;
   let level = 0;
-  for (let i = 0; i < n; i++) if (fit.mu[i] > 0) level += w(i) * ((y[i] - fit.mu[i]) ** 2 / variance(fit.mu[i]) - 1);
+  for (let i = 0; i < n; i++) if (mean[i] > 0) level += w(i) * ((y[i] - mean[i]) ** 2 / vari[i] - 1);
   level /= sw;
   let meat = 0;
   for (let i = 0; i < n; i++)
-    if (fit.mu[i] > 0) {
-      const x = fit.mu[i] - muBar;
-      const e = (y[i] - fit.mu[i]) ** 2 / variance(fit.mu[i]) - 1 - level - slope * x;
+    if (mean[i] > 0) {
+      const x = mean[i] - muBar;
+      const e = (y[i] - mean[i]) ** 2 / vari[i] - 1 - level - slope * x;
       meat += w(i) * x * x * e * e;
     }
   const zShape = sxx > 0 && meat > 0 ? slope / (Math.sqrt(meat) / sxx) : 0;
@@ -104,8 +161,8 @@ export function runModelChecks(
     reading: `slope of the squared Pearson residual on the mean ${slope.toPrecision(3)}; ${
       pShape < testLevel
         ? zShape > 0
-          ? `the variance grows faster with the mean than the ${name} allows${quasi ? " (try --family negbin)" : ""}`
-          : `the variance grows more slowly with the mean than the ${name} allows${quasi ? "" : " (try --family quasipoisson)"}`
+          ? `the variance grows faster with the mean than the ${name} allows${mm.faster}`
+          : `the variance grows more slowly with the mean than the ${name} allows${mm.slower}`
         : "the variance grows with the mean as the model says"
     }`,
   });
@@ -117,7 +174,7 @@ export function runModelChecks(
     expNb = 0;
   for (let i = 0; i < n; i++) {
     if (y[i] === 0) obs0 += w(i);
-    const p0 = zeroProbability(fit.mu[i], alpha, phi);
+    const p0 = mm.p0[i];
     exp0 += w(i) * p0;
     var0 += w(i) * p0 * (1 - p0);
     expPois += w(i) * Math.exp(-pois.fit.mu[i]);
@@ -144,7 +201,7 @@ export function runModelChecks(
       ? {
           code: "model_adequate",
           text: `The ${name} model is adequate: no test of its variance or zeros flags at ${testLevel}.`,
-          next_step: `Report the ${name} fit (tallyfit fit --family ${mf.family}); keep running this check as the data grow.`,
+          next_step: `Report the ${name} fit (tallyfit fit --family ${mm.family}); keep running this check as the data grow.`,
         }
       : zeroFlag
         ? {
@@ -156,25 +213,25 @@ export function runModelChecks(
         : {
             code: "variance_misfit",
             text: `The ${name} variance does not describe the counts (${flagged.map((t) => t.short).join(", ")} flagged at ${testLevel}).`,
-            next_step: quasi
-              ? "If the variance grows faster than the mean, refit with --family negbin; look for missing terms or groups of rows that differ."
-              : "Look for missing terms, groups of rows that differ, or dependence between rows (check --cluster); --family quasipoisson when the variance grows in proportion to the mean.",
+            next_step: mm.misfitNext
+              ? mm.misfitNext
+              : quasi
+                ? "If the variance grows faster than the mean, refit with --family negbin; look for missing terms or groups of rows that differ."
+                : "Look for missing terms, groups of rows that differ, or dependence between rows (check --cluster); --family quasipoisson when the variance grows in proportion to the mean.",
           };
   const warnings = [...design.notices];
   return {
     schema: "tallyfit.check/1",
-    family_checked: mf.family,
+    family_checked: mm.family,
     source: design.source,
     model: design.model.text,
     exposure: design.exposureName,
     n_used: n,
     test_level: testLevel,
-    pearson_ratio: pearson / df,
-    deviance_ratio: fit.deviance / df,
-    negbin: quasi
-      ? { alpha: 0, alpha_std_error: null, boundary: true }
-      : { alpha, alpha_std_error: mf.negbin?.alphaStdError ?? null, boundary: !!mf.negbin?.boundary },
-    ...(quasi ? { phi: phi! } : {}),
+    pearson_ratio: quasi ? 1 : pearson / df,
+    deviance_ratio: mm.devianceRatio ?? Number.NaN,
+    negbin: { alpha: mm.alpha, alpha_std_error: mm.alphaStdError, boundary: mm.boundary },
+    ...(mm.phi !== undefined ? { phi: mm.phi } : {}),
     zeros: { observed: obs0, expected_poisson: expPois, expected_negbin: expNb, expected_model: exp0 },
     tests,
     verdict,

@@ -78,6 +78,36 @@ function rows(
   });
 }
 
+/**
+ * Each row's mean, variance and P(Y = 0) under a fitted excess-zero model, from
+ * the count distribution's E[Y²] = λ + λ² + αλ² and f(0): zero-inflated,
+ * mean (1 − π)λ and E[Y²](1 − π); hurdle, mean pλ/(1 − f(0)) and pE[Y²]/(1 − f(0)).
+ */
+export function zeroMoments(z: ZeroFit): { mean: Float64Array; variance: Float64Array; p0: Float64Array } {
+  const n = z.lambda.length;
+  const mean = new Float64Array(n),
+    variance = new Float64Array(n),
+    p0 = new Float64Array(n);
+  const hurdle = isHurdle(z.family);
+  const a = z.alpha;
+  for (let i = 0; i < n; i++) {
+    const lam = z.lambda[i],
+      q = z.zeroProb[i];
+    const f0 = a > 0 ? (1 + a * lam) ** (-1 / a) : Math.exp(-lam);
+    const ey2 = lam + lam * lam + a * lam * lam;
+    if (hurdle) {
+      mean[i] = (q * lam) / (1 - f0);
+      variance[i] = (q * ey2) / (1 - f0) - mean[i] * mean[i];
+      p0[i] = 1 - q;
+    } else {
+      mean[i] = (1 - q) * lam;
+      variance[i] = (1 - q) * ey2 - mean[i] * mean[i];
+      p0[i] = q + (1 - q) * f0;
+    }
+  }
+  return { mean, variance, p0 };
+}
+
 export function summarizeZeroFit(count: Design, zero: Design, z: ZeroFit, o: ZeroSummaryOptions): FitSummary {
   const clustered = o.sandwich?.kind === "cluster" ? o.sandwich : null;
   const tDf = clustered ? clustered.count - 1 : Number.POSITIVE_INFINITY;
@@ -92,29 +122,16 @@ export function summarizeZeroFit(count: Design, zero: Design, z: ZeroFit, o: Zer
   const coefficients = rows(count, o.countColumns, z.beta, cov, 0, crit, false, false, pOf);
   const zeroRows = rows(zero, o.zeroColumns, z.gamma, cov, p, crit, true, z.boundary.zeroPart, pOf);
   // Observed and expected zeros, and the Pearson statistic with the model's mean and variance.
+  const mom = zeroMoments(z);
   let obs0 = 0,
     exp0 = 0,
     pearson = 0,
     n = 0;
   for (let i = 0; i < count.n; i++) {
     const w = count.weights ? count.weights[i] : 1;
-    const lam = z.lambda[i],
-      q = z.zeroProb[i],
-      a = z.alpha;
-    const f0 = a > 0 ? (1 + a * lam) ** (-1 / a) : Math.exp(-lam);
-    const ey2 = lam + lam * lam + a * lam * lam; // E[Y²] of the count distribution
-    let mean: number, variance: number;
-    if (hurdle) {
-      mean = (q * lam) / (1 - f0);
-      variance = (q * ey2) / (1 - f0) - mean * mean;
-      exp0 += w * (1 - q);
-    } else {
-      mean = (1 - q) * lam;
-      variance = (1 - q) * ey2 - mean * mean;
-      exp0 += w * (q + (1 - q) * f0);
-    }
+    exp0 += w * mom.p0[i];
     if (count.y[i] === 0) obs0 += w;
-    pearson += (w * (count.y[i] - mean) ** 2) / variance;
+    pearson += (w * (count.y[i] - mom.mean[i]) ** 2) / mom.variance[i];
     n += w;
   }
   const df = n - k;

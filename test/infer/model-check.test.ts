@@ -59,3 +59,30 @@ test("the quasi-Poisson check flags NB2-shaped variance; the NB2 check flags str
   assert.equal(clean.code, 0, clean.stdout);
   assert.match(clean.stdout, /Adequacy check of the negative-binomial model/);
 });
+
+test("check --family zinb|zip with --zero-terms on the bundled ward reports: the ZINB it came from passes, the ZIP's variance does not", () => {
+  const base = [
+    "check",
+    "examples/ward_reports.csv",
+    "--model",
+    "falls ~ ward_type",
+    "--exposure",
+    "bed_days",
+    "--zero-terms",
+    "small_unit",
+    "--format",
+    "json",
+    "--quiet",
+  ];
+  const zinb = runCli([...base, "--family", "zinb"]);
+  assert.equal(zinb.code, 0, zinb.stdout);
+  const j = JSON.parse(zinb.stdout).check;
+  assert.equal(j.family_checked, "zinb");
+  assert.equal(j.verdict.code, "model_adequate");
+  const zip = runCli([...base, "--family", "zip"]);
+  assert.equal(zip.code, 4);
+  const k = JSON.parse(zip.stdout).check;
+  assert.equal(k.verdict.code, "variance_misfit");
+  assert.match(k.verdict.next_step, /refit with --family zinb/);
+  assert.ok(k.tests.find((t: { name: string }) => t.name === "model_pearson").flagged);
+});

@@ -3,6 +3,8 @@ import { analyzeCheckWithFits } from "../../analysis/check.js";
 import { diagnosticsOf } from "../../analysis/fit.js";
 import { clusteringOf, orderKeyOf } from "../../design/clusters.js";
 import { EXIT, InputError } from "../../errors.js";
+import { ZERO_FAMILIES } from "../../fit/zero-likelihood.js";
+import { parseFormula } from "../../formula/formula.js";
 import { summarizeFit } from "../../infer/summary.js";
 import { renderCheckText } from "../../report/check-text.js";
 import { renderJson } from "../../report/json.js";
@@ -14,12 +16,24 @@ import { RunOutputs } from "../run-outputs.js";
 import { clearProgressLine, fittingProgress, progressOnTerminal } from "../terminal.js";
 import { mergeChoice } from "./shared.js";
 
-export type CheckCliOptions = ModelOptions & { family: string; alpha: string; cluster: string[]; orderBy?: string };
+export type CheckCliOptions = ModelOptions & {
+  family: string;
+  alpha: string;
+  cluster: string[];
+  orderBy?: string;
+  zeroTerms?: string;
+};
 
 export async function runCheck(file: string | undefined, opts: CheckCliOptions): Promise<number> {
   if (opts.model.length !== 1) throw new InputError('check needs one --model "COUNT ~ TERMS".');
   oneOf("--format", opts.format, ["text", "json"]);
-  const family = oneOf("--family", opts.family, ["poisson", "negbin", "quasipoisson"]);
+  const family = oneOf("--family", opts.family, ["poisson", "negbin", "quasipoisson", ...ZERO_FAMILIES]);
+  const zeroFamily = (ZERO_FAMILIES as readonly string[]).includes(family);
+  if (opts.zeroTerms && !zeroFamily)
+    throw new InputError(
+      "--zero-terms describes the zero part of zip, zinb, hurdle-poisson or hurdle-negbin; give one of those families.",
+    );
+  const zeroTerms = opts.zeroTerms?.trim() || "1";
   const testLevel = parseProbability("--alpha", opts.alpha, "0.05");
   const merge = mergeChoice(opts);
   const outputs = new RunOutputs([file ?? "-"]);
@@ -35,7 +49,14 @@ export async function runCheck(file: string | undefined, opts: CheckCliOptions):
     ...opts.cluster.map((column) => ({ column, option: "--cluster" })),
     ...(opts.orderBy ? [{ column: opts.orderBy, option: "--order-by" }] : []),
   ];
-  const { designs, control, labels } = await loadDesigns(file, opts, [opts.model[0]], alsoRead);
+  const response = parseFormula(opts.model[0], { intercept: opts.intercept }).response;
+  const zeroModel = `${/^[A-Za-z_.][A-Za-z0-9_.]*$/.test(response) ? response : `\`${response}\``} ~ ${zeroTerms}`;
+  const { designs, control, labels } = await loadDesigns(
+    file,
+    opts,
+    zeroFamily ? [opts.model[0], zeroModel] : [opts.model[0]],
+    alsoRead,
+  );
   const design = designs[0];
   const cluster = opts.cluster.length ? clusteringOf(opts.cluster[0], labels.get(opts.cluster[0])!) : undefined;
   const orderBy =
@@ -53,6 +74,7 @@ export async function runCheck(file: string | undefined, opts: CheckCliOptions):
     merge,
     onProgress,
     family,
+    zero: zeroFamily ? { design: designs[1], terms: zeroTerms } : undefined,
     cluster,
     orderBy,
   });
