@@ -36,6 +36,8 @@ export { DEFAULT_CONTROL, type FitControl, type FitData, type GlmFit } from "./f
 export { logDensity, unitDeviance, variance } from "./fit/family.js";
 export { fitGee, type GeeFit, type GeeOptions } from "./fit/gee.js";
 export { WORKING_CORRELATIONS, type WorkingCorrelation } from "./fit/working-correlation.js";
+export { fitZeroModel, type ZeroFit, type ZeroFitOptions } from "./fit/zero-fit.js";
+export { ZERO_FAMILIES, type ZeroFamily } from "./fit/zero-likelihood.js";
 
 // Infer: the figures users publish and check.
 export { summarizeFit, type CoefficientRow, type FitSummary, type NegbinSummary } from "./infer/summary.js";
@@ -46,7 +48,8 @@ export { sandwichCovariance } from "./infer/robust.js";
 export { clusterCovariance, type ClusterCovariance } from "./infer/cluster.js";
 export { geeCovariance, type GeeSummary } from "./infer/gee-inference.js";
 export { dependenceReading, type DependenceReading } from "./infer/dependence.js";
-export { runModelChecks } from "./infer/model-check.js";
+export { runModelChecks, momentChecks, type ModelMoments } from "./infer/model-check.js";
+export { summarizeZeroFit, zeroMoments } from "./infer/zero-summary.js";
 export { seasonalityOf, type Seasonality } from "./infer/seasonality.js";
 export { groupFlags, type GroupFlags } from "./infer/group-flags.js";
 export { negbinSumPmf } from "./infer/negbin-sum.js";
@@ -65,6 +68,7 @@ export { renderFitMarkdown } from "./report/fit-markdown.js";
 export { renderJson } from "./report/json.js";
 export { renderCheckText } from "./report/check-text.js";
 export { renderCompareText } from "./report/compare-text.js";
+export { renderZeroText } from "./report/zero-text.js";
 export { renderPredictCsv, renderPredictText } from "./report/predict.js";
 export { renderSvg } from "./report/svg.js";
 export { svgToPng } from "./report/png.js";
@@ -82,6 +86,7 @@ export {
 } from "./analysis/fit.js";
 export { analyzeCheck } from "./analysis/check.js";
 export { analyzeCompare } from "./analysis/compare.js";
+export { analyzeZeroFit, type ZeroAnalysis } from "./analysis/zero-fit.js";
 export { analyzePredict, type PredictAnalysis } from "./analysis/predict.js";
 
 // Numerics: tail probabilities and quantiles of the reference distributions.
