@@ -73,7 +73,7 @@ export function analyzeCompare(
     });
     return {
       index: i + 1,
-      model: `${d.model.text} | zero part ~ ${zero.terms}`,
+      model: `${d.model.text}; zero part ~ ${zero.terms}`,
       family: f,
       n_parameters: summary.n_parameters,
       log_likelihood: summary.log_likelihood,
