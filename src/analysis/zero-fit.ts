@@ -6,7 +6,8 @@ import type { Design } from "../design/design.js";
 import { FitError, InputError } from "../errors.js";
 import { fitCounts } from "../fit/count-fit.js";
 import type { FitControl } from "../fit/kernel/types.js";
-import { fitZeroModel, type ZeroFit } from "../fit/zero-fit.js";
+import { fitZeroModel, profileZeroModel, type ZeroFit } from "../fit/zero-fit.js";
+import { chiSquareQuantile } from "../math/distributions.js";
 import { isHurdle, isNegbinForm, type ZeroFamily } from "../fit/zero-likelihood.js";
 import type { FitSummary } from "../infer/summary.js";
 import { summarizeZeroFit } from "../infer/zero-summary.js";
@@ -65,6 +66,8 @@ export function analyzeZeroFit(
     robust?: boolean;
     /** Cluster-robust (CR1) standard errors for one clustering (--cluster). */
     cluster?: Clustering;
+    /** Profile-likelihood limits too (not with a sandwich, whose limits are Wald). */
+    profiles?: boolean;
   },
 ): ZeroAnalysis {
   const plain = fitCounts(count, { family: "poisson", control: o.control });
@@ -100,7 +103,12 @@ export function analyzeZeroFit(
     const pf = fitZeroModel(count, zero, { ...base, family: isHurdle(family) ? "hurdle-poisson" : "zip" });
     poissonForm = { logLik: pf.logLik, parameters: countColumns.length + zeroColumns.length };
   }
+  const profiles =
+    o.profiles && !o.robust && !o.cluster
+      ? profileZeroModel(count, zero, { ...base, family }, fit, chiSquareQuantile(o.level, 1))
+      : undefined;
   const summary = summarizeZeroFit(count, zero, fit, {
+    profiles,
     level: o.level,
     countColumns,
     zeroColumns,

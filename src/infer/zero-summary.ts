@@ -6,7 +6,7 @@
 // information (zero-fit.ts), or the sandwich with --robust or --cluster (then
 // Student's t on G − 1 df); Wald tests and limits against the normal otherwise.
 import type { Design } from "../design/design.js";
-import type { ZeroFit } from "../fit/zero-fit.js";
+import type { ZeroFit, ZeroProfile } from "../fit/zero-fit.js";
 import { isHurdle, isNegbinForm } from "../fit/zero-likelihood.js";
 import {
   chiSquareUpperTail,
@@ -26,8 +26,22 @@ export interface ZeroSummaryOptions {
   /** NB2 forms: the log-likelihood and parameter count of the Poisson form, for the likelihood-ratio test of alpha. */
   poissonForm?: { logLik: number; parameters: number };
   familyChoice?: { requested: string; reason: string };
+  /** Profile-likelihood limits (log scale) by "count:k" or "zero:k", when computed. */
+  profiles?: Map<string, ZeroProfile>;
   /** The sandwich the fit computed: per row (--robust) or summed within one clustering (--cluster, t on G − 1). */
   sandwich?: { kind: "robust" } | { kind: "cluster"; column: string; count: number };
+}
+
+/** A profile on the ratio scale: an open lower side is 0, an open or failed upper side null. */
+function profileOf(pr: ZeroProfile | undefined): Pick<CoefficientRow, "profile" | "profile_status"> {
+  if (!pr) return { profile: null, profile_status: null };
+  return {
+    profile: [
+      pr.lower !== null ? Math.exp(pr.lower) : pr.status.lower === "open" ? 0 : null,
+      pr.upper !== null ? Math.exp(pr.upper) : null,
+    ],
+    profile_status: pr.status,
+  };
 }
 
 function rows(
@@ -40,6 +54,7 @@ function rows(
   odds: boolean,
   noSe: boolean,
   pOf: (z: number) => number,
+  profiles?: Map<string, ZeroProfile>,
 ): CoefficientRow[] {
   const refs = new Map(design.factors.map((f) => [f.name, f.reference]));
   return cols.map((c, k) => {
@@ -58,8 +73,7 @@ function rows(
       rate_ratio: odds ? null : Math.exp(b),
       ...(odds ? { odds_ratio: Math.exp(b) } : {}),
       wald,
-      profile: null,
-      profile_status: null,
+      ...profileOf(profiles?.get(`${odds ? "zero" : "count"}:${k}`)),
       aliased: false,
       status: "estimated" as const,
       levels: col.levels.map((l) => ({
@@ -119,8 +133,8 @@ export function summarizeZeroFit(count: Design, zero: Design, z: ZeroFit, o: Zer
   const nb = isNegbinForm(z.family);
   const k = p + r + (nb ? 1 : 0);
   const hurdle = isHurdle(z.family);
-  const coefficients = rows(count, o.countColumns, z.beta, cov, 0, crit, false, false, pOf);
-  const zeroRows = rows(zero, o.zeroColumns, z.gamma, cov, p, crit, true, z.boundary.zeroPart, pOf);
+  const coefficients = rows(count, o.countColumns, z.beta, cov, 0, crit, false, false, pOf, o.profiles);
+  const zeroRows = rows(zero, o.zeroColumns, z.gamma, cov, p, crit, true, z.boundary.zeroPart, pOf, o.profiles);
   // Observed and expected zeros, and the Pearson statistic with the model's mean and variance.
   const mom = zeroMoments(z);
   let obs0 = 0,
@@ -144,6 +158,15 @@ export function summarizeZeroFit(count: Design, zero: Design, z: ZeroFit, o: Zer
         ? "the zero part is at its boundary: for some rows the chance of a non-zero count goes to 0 or 1, so its coefficients have no standard errors"
         : "no excess zeros for some or all rows: the likelihood is largest with the chance of a structural zero at 0 there (π → 0), so the zero part is at its boundary and has no standard errors; the plain family may be enough",
     );
+  for (const r of [...coefficients, ...zeroRows])
+    for (const side of ["lower", "upper"] as const) {
+      const st = r.profile_status?.[side];
+      if (st === "open")
+        warnings.push(
+          `${r.term}: the ${side} profile limit is ${side === "lower" ? "0 (open)" : "unbounded"}: the likelihood never falls far enough on that side (the Wald interval hides this)`,
+        );
+      else if (st === "failed") warnings.push(`${r.term}: the ${side} profile limit could not be computed`);
+    }
   if (!z.converged)
     warnings.push(
       "the maximisation did not settle; the estimates may be inaccurate (raise --max-iter or simplify the model)",
@@ -242,7 +265,9 @@ export function summarizeZeroFit(count: Design, zero: Design, z: ZeroFit, o: Zer
           },
         }
       : {}),
-    profile_reference: null,
+    profile_reference: o.profiles
+      ? "likelihood ratio against chi-square(1), the other parameters maximised again"
+      : null,
     warnings,
     notices: count.notices,
   };

@@ -31,8 +31,9 @@ export function renderZeroText(s: FitSummary, o: { style: Style; width: number }
     );
   out.push("");
   const nonIntercept = s.coefficients.filter((c) => c.kind !== "intercept");
-  out.push(st.heading(`Count part: rate ratios with ${lv} Wald intervals`));
-  if (nonIntercept.length) out.push(...estimateTable(nonIntercept, "rate ratio", lv, true, false));
+  const showP = s.profile_reference !== null;
+  out.push(st.heading(`Count part: rate ratios with ${lv} intervals`));
+  if (nonIntercept.length) out.push(...estimateTable(nonIntercept, "rate ratio", lv, true, showP));
   else out.push("  (no terms besides the intercept)");
   if (s.baseline)
     out.push(
@@ -50,13 +51,13 @@ export function renderZeroText(s: FitSummary, o: { style: Style; width: number }
         : s.standard_errors === "robust"
           ? "sandwich (HC0) from the rows' scores"
           : "inverse observed information"
-    }, both parts`,
+    }, both parts${showP ? `; profile limits: ${s.profile_reference}` : ""}`,
     "",
   );
-  out.push(st.heading(`Zero part: odds of a ${zp.odds_of}, with ${lv} Wald intervals`));
+  out.push(st.heading(`Zero part: odds of a ${zp.odds_of}, with ${lv} intervals`));
   const zRows = zp.coefficients.filter((c) => c.kind !== "intercept");
   const base = zp.coefficients.find((c) => c.kind === "intercept");
-  if (zRows.length) out.push(...estimateTable(zRows, "odds ratio", lv, true, false));
+  if (zRows.length) out.push(...estimateTable(zRows, "odds ratio", lv, true, showP && !zp.boundary));
   if (base)
     out.push(
       `  Odds of a ${zp.odds_of} at the reference levels: ${sig(base.odds_ratio ?? null)} (probability ${sig((base.odds_ratio ?? 0) / (1 + (base.odds_ratio ?? 0)))})${base.wald ? `, Wald ${lv} ${interval(base.wald)}` : ""}.`,

@@ -121,3 +121,21 @@ test("--robust and --cluster unit: sandwich standard errors of both parts as the
     }
   }
 });
+
+test("zinb profile-likelihood limits of a count-part and a zero-part coefficient match scipy's constrained fits with brentq (1e-5)", () => {
+  const r = runCli([...ARGS, "--family", "zinb", "--format", "json"]);
+  assert.equal(r.code, 0, r.stderr);
+  const j = JSON.parse(r.stdout);
+  const rehab = j.coefficients.find((c: { term: string }) => c.term === "ward=rehab");
+  const small = j.zero_part.coefficients.find((c: { term: string }) => c.term === "small_unit");
+  const want = ref.profile_zinb;
+  assertRel(Math.log(rehab.profile[0]), want["ward=rehab"][0], 1e-5, "rehab lower");
+  assertRel(Math.log(rehab.profile[1]), want["ward=rehab"][1], 1e-5, "rehab upper");
+  assertRel(Math.log(small.profile[0]), want.small_unit[0], 1e-5, "small_unit lower");
+  assertRel(Math.log(small.profile[1]), want.small_unit[1], 1e-5, "small_unit upper");
+  assert.deepEqual(rehab.profile_status, { lower: "limit", upper: "limit" });
+  // With a sandwich the limits are Wald, and asking for profile limits says why not.
+  const bad = runCli([...ARGS, "--family", "zinb", "--robust", "--intervals", "profile"]);
+  assert.equal(bad.code, 2);
+  assert.match(bad.stderr, /--intervals profile\|both with --robust or --cluster does not go/);
+});

@@ -59,6 +59,9 @@ export async function autoZeroFit(
   const best = tried[0];
   if (!best || best.aic >= plain.aic) return null;
   const listed = tried.map((t) => `${t.family} ${t.aic.toFixed(1)}`).join(", ");
+  // The chosen family's report with the intervals asked for (profile limits are computed for it alone).
+  if ((opts.intervals ?? "both") !== "wald" && !opts.robust && opts.cluster.length === 0)
+    best.summary = analyzeZeroFit(designs[0], designs[1], best.family, { level, zeroTerms, profiles: true }).summary;
   best.summary.family_choice = {
     requested: "auto",
     used: best.family,
@@ -86,9 +89,9 @@ function refuseUnsupported(opts: FitCliOptions): void {
   not(!!opts.gee, "--gee", "GEE is for the plain families");
   not(opts.cluster.length > 0 && !!opts.robust, "--cluster with --robust", "give one covariance");
   not(
-    !!opts.intervals && opts.intervals !== "wald",
-    "--intervals profile|both",
-    "only Wald limits are computed for them",
+    (opts.cluster.length > 0 || !!opts.robust) && !!opts.intervals && opts.intervals !== "wald",
+    "--intervals profile|both with --robust or --cluster",
+    "profile limits come from the likelihood, which treats rows as independent; with a sandwich the limits are Wald",
   );
   not(!!opts.saveModel, "--save-model", "predict does not take these families yet");
   not(!!opts.summaryBy, "--summary-by", "the group table follows in a later version");
@@ -100,6 +103,7 @@ export async function runZeroFit(file: string | undefined, opts: FitCliOptions, 
   oneOf("--format", opts.format, ["text", "json"]);
   refuseUnsupported(opts);
   const level = parseProbability("--level", opts.level, "0.95");
+  if (opts.intervals) oneOf("--intervals", opts.intervals, ["wald", "profile", "both"]);
   const zeroTerms = opts.zeroTerms?.trim() || "1";
   const outputs = new RunOutputs([file ?? "-"]);
   if (opts.output) outputs.claim(opts.output, "--output");
@@ -125,6 +129,7 @@ export async function runZeroFit(file: string | undefined, opts: FitCliOptions, 
     control,
     robust: !!opts.robust,
     cluster,
+    profiles: (opts.intervals ?? "both") !== "wald",
   });
   const content = renderZeroReport(summary, opts);
   await finish(outputs, opts, content);
