@@ -37,6 +37,7 @@ export { logDensity, unitDeviance, variance } from "./fit/family.js";
 export { fitGee, type GeeFit, type GeeOptions } from "./fit/gee.js";
 export { WORKING_CORRELATIONS, type WorkingCorrelation } from "./fit/working-correlation.js";
 export { fitZeroModel, type ZeroFit, type ZeroFitOptions } from "./fit/zero-fit.js";
+export { profileZeroModel, type ZeroProfile } from "./fit/zero-profile.js";
 export { ZERO_FAMILIES, type ZeroFamily } from "./fit/zero-likelihood.js";
 
 // Infer: the figures users publish and check.

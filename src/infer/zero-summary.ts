@@ -6,7 +6,8 @@
 // information (zero-fit.ts), or the sandwich with --robust or --cluster (then
 // Student's t on G − 1 df); Wald tests and limits against the normal otherwise.
 import type { Design } from "../design/design.js";
-import type { ZeroFit, ZeroProfile } from "../fit/zero-fit.js";
+import type { ZeroFit } from "../fit/zero-fit.js";
+import type { ZeroProfile } from "../fit/zero-profile.js";
 import { isHurdle, isNegbinForm } from "../fit/zero-likelihood.js";
 import {
   chiSquareUpperTail,
