@@ -65,8 +65,8 @@ export function analyzeZeroFit(
     familyChoice?: { requested: string; reason: string };
     /** HC0 sandwich standard errors (--robust). */
     robust?: boolean;
-    /** Cluster-robust (CR1) standard errors for one clustering (--cluster). */
-    cluster?: Clustering;
+    /** Cluster-robust (CR1) standard errors for one clustering, or two-way for two (--cluster). */
+    clusters?: Clustering[];
     /** Profile-likelihood limits too (not with a sandwich, whose limits are Wald). */
     profiles?: boolean;
   },
@@ -93,10 +93,11 @@ export function analyzeZeroFit(
     const nb = fitCounts(count, { family: "negbin", control: o.control });
     logAlphaStart = Math.log(Math.max(nb.fit.alpha, 0.01));
   }
-  const sandwich = o.cluster
-    ? { ids: o.cluster.ids, count: o.cluster.count }
+  const clustered = o.clusters?.length ? o.clusters : null;
+  const sandwich = clustered
+    ? clustered.map((c) => ({ ids: c.ids, count: c.count }))
     : o.robust
-      ? { ids: null, count: count.n }
+      ? [{ ids: null, count: count.n }]
       : undefined;
   const fit = fitZeroModel(count, zero, { ...base, family, logAlphaStart, sandwich });
   let poissonForm: { logLik: number; parameters: number } | undefined;
@@ -105,7 +106,7 @@ export function analyzeZeroFit(
     poissonForm = { logLik: pf.logLik, parameters: countColumns.length + zeroColumns.length };
   }
   const profiles =
-    o.profiles && !o.robust && !o.cluster
+    o.profiles && !o.robust && !clustered
       ? profileZeroModel(count, zero, { ...base, family }, fit, chiSquareQuantile(o.level, 1))
       : undefined;
   const summary = summarizeZeroFit(count, zero, fit, {
@@ -116,12 +117,12 @@ export function analyzeZeroFit(
     zeroTerms: o.zeroTerms,
     poissonForm,
     familyChoice: o.familyChoice,
-    sandwich: o.cluster
-      ? { kind: "cluster", column: o.cluster.column, count: o.cluster.count }
+    sandwich: clustered
+      ? { kind: "cluster", clusters: clustered.map((c) => ({ column: c.column, count: c.count })) }
       : o.robust
         ? { kind: "robust" }
         : undefined,
   });
-  if (o.cluster) for (const w of clusterWarnings(o.cluster)) summary.warnings.push(w);
+  for (const c of clustered ?? []) for (const w of clusterWarnings(c)) summary.warnings.push(w);
   return { fit, summary };
 }

@@ -5,6 +5,7 @@
 // The standard errors come from the inverse of that observed information.
 // Both design matrices are centred and scaled (gee-rows.ts) while fitting.
 import type { Design } from "../design/design.js";
+import { clipNegativeEigenvalues } from "../math/eigen.js";
 import { cholesky, choleskyInverse, congruence, type SymMatrix } from "../math/linalg.js";
 import { conditionedRows } from "./gee-rows.js";
 import { isHurdle, isNegbinForm, type ZeroFamily } from "./zero-likelihood.js";
@@ -23,9 +24,10 @@ export interface ZeroFitOptions {
   /**
    * Also a sandwich covariance H⁻¹(Σ_g u_g u_gᵀ)H⁻¹ with the rows' scores summed
    * within clusters (ids; null: every row its own, the HC0 sandwich of
-   * White 1982), with the CR1 factor G/(G − 1)·(N − 1)/(N − k) for clusters.
+   * White 1982), with the CR1 factor G/(G − 1)·(N − 1)/(N − k) for clusters;
+   * two clusterings give the two-way estimator.
    */
-  sandwich?: { ids: Int32Array | null; count: number };
+  sandwich?: { ids: Int32Array | null; count: number }[];
 }
 
 export interface ZeroFit {
@@ -140,30 +142,45 @@ export function fitZeroModel(count: Design, zero: Design, o: ZeroFitOptions): Ze
     for (let i = 0; i < r; i++) for (let j = 0; j < r; j++) t[(p + i) * m + p + j] = tz[i * r + j];
     if (nb) t[(p + r) * m + p + r] = 1;
     covariance = congruence(t, { p: m, data: full });
-    if (o.sandwich) {
-      const meat = scoreMeat(P, theta, o.sandwich, keep);
+    if (o.sandwich?.length) {
       const q = keep.length;
-      const inner = new Float64Array(q * q);
-      // H⁻¹ M H⁻¹ over the kept parameters.
-      const tmp = new Float64Array(q * q);
-      for (let i = 0; i < q; i++)
-        for (let j = 0; j < q; j++) {
-          let acc = 0;
-          for (let k2 = 0; k2 < q; k2++) acc += inv.data[i * q + k2] * meat[k2 * q + j];
-          tmp[i * q + j] = acc;
-        }
-      for (let i = 0; i < q; i++)
-        for (let j = 0; j < q; j++) {
-          let acc = 0;
-          for (let k2 = 0; k2 < q; k2++) acc += tmp[i * q + k2] * inv.data[k2 * q + j];
-          inner[i * q + j] = acc;
-        }
-      const G = o.sandwich.ids ? o.sandwich.count : count.n;
-      const factor = o.sandwich.ids ? (G / (G - 1)) * ((count.n - 1) / (count.n - q)) : 1;
+      // H⁻¹ M H⁻¹ over the kept parameters, with the CR1 factor for clusters (none for HC0).
+      const oneWay = (c: { ids: Int32Array | null; count: number }) => {
+        const meat = scoreMeat(P, theta, c, keep);
+        const tmp = new Float64Array(q * q),
+          inner = new Float64Array(q * q);
+        for (let i = 0; i < q; i++)
+          for (let j = 0; j < q; j++) {
+            let acc = 0;
+            for (let k2 = 0; k2 < q; k2++) acc += inv.data[i * q + k2] * meat[k2 * q + j];
+            tmp[i * q + j] = acc;
+          }
+        const factor = c.ids ? (c.count / (c.count - 1)) * ((count.n - 1) / (count.n - q)) : 1;
+        for (let i = 0; i < q; i++)
+          for (let j = 0; j < q; j++) {
+            let acc = 0;
+            for (let k2 = 0; k2 < q; k2++) acc += tmp[i * q + k2] * inv.data[k2 * q + j];
+            inner[i * q + j] = acc * factor;
+          }
+        return inner;
+      };
+      let inner: Float64Array;
+      if (o.sandwich.length === 1) inner = oneWay(o.sandwich[0]);
+      else {
+        // Two-way (Cameron, Gelbach and Miller 2011): V_a + V_b − V_ab, negative eigenvalues set to 0.
+        const [a, b] = o.sandwich;
+        const both = intersect(a, b);
+        const va = oneWay(a),
+          vb = oneWay(b),
+          vab = oneWay(both);
+        const sum: SymMatrix = { p: q, data: va.map((x, k2) => x + vb[k2] - vab[k2]) };
+        const clipped = clipNegativeEigenvalues(sum);
+        inner = clipped.clipped > 0 ? clipped.matrix.data : sum.data;
+      }
       const fullS = new Float64Array(m * m);
-      keep.forEach((a, i) => {
-        keep.forEach((b, j) => {
-          fullS[a * m + b] = inner[i * q + j] * factor;
+      keep.forEach((ka, i) => {
+        keep.forEach((kb, j) => {
+          fullS[ka * m + kb] = inner[i * q + j];
         });
       });
       sandwichCovariance = congruence(t, { p: m, data: fullS });
@@ -183,4 +200,24 @@ export function fitZeroModel(count: Design, zero: Design, o: ZeroFitOptions): Ze
     lambda,
     zeroProb,
   };
+}
+
+/** The intersection of two clusterings (a unit-month), numbered in order of first appearance. */
+function intersect(
+  a: { ids: Int32Array | null; count: number },
+  b: { ids: Int32Array | null; count: number },
+): { ids: Int32Array; count: number } {
+  const n = a.ids!.length;
+  const ids = new Int32Array(n);
+  const seen = new Map<number, number>();
+  for (let i = 0; i < n; i++) {
+    const key = a.ids![i] * b.count + b.ids![i];
+    let id = seen.get(key);
+    if (id === undefined) {
+      id = seen.size;
+      seen.set(key, id);
+    }
+    ids[i] = id;
+  }
+  return { ids, count: seen.size };
 }

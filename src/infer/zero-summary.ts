@@ -30,7 +30,7 @@ export interface ZeroSummaryOptions {
   /** Profile-likelihood limits (log scale) by "count:k" or "zero:k", when computed. */
   profiles?: Map<string, ZeroProfile>;
   /** The sandwich the fit computed: per row (--robust) or summed within one clustering (--cluster, t on G − 1). */
-  sandwich?: { kind: "robust" } | { kind: "cluster"; column: string; count: number };
+  sandwich?: { kind: "robust" } | { kind: "cluster"; clusters: { column: string; count: number }[] };
 }
 
 /** A profile on the ratio scale: an open lower side is 0, an open or failed upper side null. */
@@ -125,7 +125,7 @@ export function zeroMoments(z: ZeroFit): { mean: Float64Array; variance: Float64
 
 export function summarizeZeroFit(count: Design, zero: Design, z: ZeroFit, o: ZeroSummaryOptions): FitSummary {
   const clustered = o.sandwich?.kind === "cluster" ? o.sandwich : null;
-  const tDf = clustered ? clustered.count - 1 : Number.POSITIVE_INFINITY;
+  const tDf = clustered ? Math.min(...clustered.clusters.map((c) => c.count)) - 1 : Number.POSITIVE_INFINITY;
   const crit = clustered ? studentQuantile(1 - (1 - o.level) / 2, tDf) : normalQuantile(1 - (1 - o.level) / 2);
   const pOf = (t: number) => (clustered ? studentTwoSidedP(t, tDf) : normalTwoSidedP(t));
   const cov = o.sandwich ? z.sandwichCovariance : z.covariance;
@@ -260,8 +260,8 @@ export function summarizeZeroFit(count: Design, zero: Design, z: ZeroFit, o: Zer
     ...(clustered
       ? {
           covariance: {
-            type: "cluster-CR1",
-            clusters: [{ column: clustered.column, count: clustered.count }],
+            type: clustered.clusters.length === 2 ? "two-way-cluster-CR1" : "cluster-CR1",
+            clusters: clustered.clusters,
             t_df: tDf,
           },
         }

@@ -47,7 +47,7 @@ export function renderZeroText(s: FitSummary, o: { style: Style; width: number }
   out.push(
     `  standard errors: ${
       s.covariance
-        ? `cluster-robust (CR1) over ${fixed(s.covariance.clusters[0].count, 0)} ${s.covariance.clusters[0].column} clusters, t on ${fixed(s.covariance.t_df, 0)} df`
+        ? `cluster-robust (CR1) over ${s.covariance.clusters.map((c) => `${fixed(c.count, 0)} ${c.column} clusters`).join(" and ")}${s.covariance.clusters.length === 2 ? " (two-way)" : ""}, t on ${fixed(s.covariance.t_df, 0)} df`
         : s.standard_errors === "robust"
           ? "sandwich (HC0) from the rows' scores"
           : "inverse observed information"

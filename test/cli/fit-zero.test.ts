@@ -52,8 +52,8 @@ test("the text report names the parts; --zero-terms without a zero family and op
   const cases: [string[], RegExp][] = [
     [["fit", DATA, "--model", ref.model, "--zero-terms", "small_unit"], /--zero-terms describes the zero part/],
     [
-      [...ARGS, "--family", "zip", "--cluster", "ward", "--cluster", "unit"],
-      /a second --cluster does not go with the zero-inflated and hurdle families yet/,
+      [...ARGS, "--family", "zip", "--cluster", "unit", "--gee", "exchangeable"],
+      /--gee does not go with the zero-inflated and hurdle families yet/,
     ],
     [[...ARGS, "--family", "zip", "--save-model", "/tmp/x.json"], /--save-model does not go with/],
     [[...ARGS.slice(0, -1), "small_unit +", "--family", "zip"], /--zero-terms:/],
@@ -138,4 +138,20 @@ test("zinb profile-likelihood limits of a count-part and a zero-part coefficient
   const bad = runCli([...ARGS, "--family", "zinb", "--robust", "--intervals", "profile"]);
   assert.equal(bad.code, 2);
   assert.match(bad.stderr, /--intervals profile\|both with --robust or --cluster does not go/);
+});
+
+test("--cluster unit --cluster month: the two-way sandwich of both parts as the runner's (1e-4), t on the smaller G − 1", () => {
+  const want = ref.fits.zinb;
+  const r = runCli([...ARGS, "--family", "zinb", "--cluster", "unit", "--cluster", "month", "--format", "json"]);
+  assert.equal(r.code, 0, r.stderr);
+  const j = JSON.parse(r.stdout);
+  assert.equal(j.covariance.type, "two-way-cluster-CR1");
+  assert.equal(j.covariance.t_df, 11);
+  j.coefficients.forEach((c: { std_error: number }, k: number) =>
+    assertRel(c.std_error, want.two_way_se[k], 1e-4, `count SE ${k}`),
+  );
+  j.zero_part.coefficients.forEach((c: { std_error: number }, k: number) =>
+    assertRel(c.std_error, want.two_way_se[3 + k], 1e-4, `zero SE ${k}`),
+  );
+  assertRel(j.negbin.alpha_std_error, j.negbin.alpha * want.two_way_se[5], 1e-4, "alpha SE");
 });

@@ -85,7 +85,6 @@ function refuseUnsupported(opts: FitCliOptions): void {
   const not = (given: boolean, option: string, why: string) => {
     if (given) throw new InputError(`${option} does not go with the zero-inflated and hurdle families yet: ${why}.`);
   };
-  not(opts.cluster.length > 1, "a second --cluster", "two-way clustering follows in a later version");
   not(!!opts.gee, "--gee", "GEE is for the plain families");
   not(opts.cluster.length > 0 && !!opts.robust, "--cluster with --robust", "give one covariance");
   not(
@@ -122,13 +121,14 @@ export async function runZeroFit(file: string | undefined, opts: FitCliOptions, 
     opts.cluster.map((column) => ({ column, option: "--cluster" })),
   );
   const control = { maxIter: Number(opts.maxIter) };
-  const cluster = opts.cluster.length ? clusteringOf(opts.cluster[0], labels.get(opts.cluster[0])!) : undefined;
+  if (opts.cluster.length > 2) throw new InputError("--cluster is given once (one-way) or twice (two-way clustering).");
+  const clusters = opts.cluster.map((c) => clusteringOf(c, labels.get(c)!));
   const { summary } = analyzeZeroFit(designs[0], designs[1], family, {
     level,
     zeroTerms,
     control,
     robust: !!opts.robust,
-    cluster,
+    clusters,
     profiles: (opts.intervals ?? "both") !== "wald",
   });
   const content = renderZeroReport(summary, opts);
