@@ -155,3 +155,12 @@ test("--cluster unit --cluster month: the two-way sandwich of both parts as the 
   );
   assertRel(j.negbin.alpha_std_error, j.negbin.alpha * want.two_way_se[5], 1e-4, "alpha SE");
 });
+
+test("--family auto with --cluster: the chosen zero family reports the cluster-robust covariance asked for", () => {
+  const j = JSON.parse(runCli([...ARGS, "--family", "auto", "--cluster", "unit", "--format", "json"]).stdout);
+  assert.equal(j.family, "zinb");
+  assert.equal(j.standard_errors, "cluster");
+  j.coefficients.forEach((c: { std_error: number }, k: number) =>
+    assertRel(c.std_error, ref.fits.zinb.cluster_se[k], 1e-4, `count SE ${k}`),
+  );
+});

@@ -46,11 +46,19 @@ export async function autoZeroFit(
       note: `the check found more zeros than either plain model expects, but the zero-inflated and hurdle families were not tried because ${blocked} does not go with them yet`,
     };
   const zeroTerms = opts.zeroTerms?.trim() || "1";
-  const { designs } = await loadDesigns(file, { ...opts, quiet: true }, [opts.model[0], zeroModelOf(opts, zeroTerms)]);
+  const { designs, labels } = await loadDesigns(
+    file,
+    { ...opts, quiet: true },
+    [opts.model[0], zeroModelOf(opts, zeroTerms)],
+    opts.cluster.map((column) => ({ column, option: "--cluster" })),
+  );
+  // The covariance asked for (--robust, --cluster) goes with the zero families too; the AIC does not depend on it.
+  const clusters = opts.cluster.map((c) => clusteringOf(c, labels.get(c)!));
+  const covariance = { robust: !!opts.robust, clusters };
   const tried: { family: ZeroFamily; aic: number; summary: FitSummary }[] = [];
   for (const family of ZERO_FAMILIES)
     try {
-      const { summary } = analyzeZeroFit(designs[0], designs[1], family, { level, zeroTerms });
+      const { summary } = analyzeZeroFit(designs[0], designs[1], family, { level, zeroTerms, ...covariance });
       if (summary.converged) tried.push({ family, aic: summary.aic, summary });
     } catch {
       // A family that cannot be fitted here is not a candidate.
