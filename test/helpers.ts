@@ -1,5 +1,7 @@
 // Shared test helpers: paths, a one-call fit from CSV text, and a CLI runner.
 import { spawnSync } from "node:child_process";
+import { readFileSync } from "node:fs";
+import AjvModule from "ajv";
 import { dirname, join, resolve } from "node:path";
 import { fileURLToPath } from "node:url";
 import { buildDesign, type DesignOptions } from "../src/design/design.js";
@@ -98,4 +100,19 @@ export function simulateRates(u: () => number, n: number, alpha: number, base = 
     csv += `g${g},${x},${e},${negbinDraw(u, mu, alpha)}\n`;
   }
   return csv;
+}
+
+type Validator = ((data: unknown) => boolean) & { errors?: unknown };
+const Ajv = (AjvModule as unknown as { default: typeof AjvModule }).default ?? AjvModule;
+const ajv = new (Ajv as unknown as new (o: object) => { compile(s: object): Validator })({
+  allErrors: true,
+  strict: false,
+});
+const validators = new Map<string, Validator>();
+
+/** A validator (ajv, draft-07) of one of the shipped JSON Schemas, by name: "fit" for schemas/fit-1.schema.json. */
+export function schemaValidator(name: string): Validator {
+  if (!validators.has(name))
+    validators.set(name, ajv.compile(JSON.parse(readFileSync(join(ROOT, "schemas", `${name}-1.schema.json`), "utf8"))));
+  return validators.get(name)!;
 }

@@ -9,7 +9,13 @@ import type { FitControl } from "../fit/kernel/types.js";
 import { type ZeroFamily, ZERO_FAMILIES } from "../fit/zero-likelihood.js";
 import type { Term } from "../formula/formula.js";
 import { type Clustering, clusterCovariance } from "../infer/cluster.js";
-import { type CompareModel, type ComparePair, type CompareResult, compareModels } from "../infer/compare.js";
+import {
+  type CompareModel,
+  type ComparePair,
+  type CompareResult,
+  compareModels,
+  markPreferred,
+} from "../infer/compare.js";
 import { ZERO_COMPARE_NOTE, type ZeroCompareModel, zeroPair } from "../infer/compare-zero.js";
 import { chiSquareUpperTail } from "../math/distributions.js";
 import { fitFamily, type MergeChoice } from "./fit.js";
@@ -84,13 +90,7 @@ export function analyzeCompare(
       preferred_by: [],
     };
   });
-  for (const crit of ["aic", "bic"] as const) {
-    let best = -1;
-    models.forEach((m, i) => {
-      if (m[crit] !== null && (best < 0 || m[crit]! < models[best][crit]!)) best = i;
-    });
-    if (best >= 0) models[best].preferred_by.push(crit.toUpperCase());
-  }
+  markPreferred(models);
   const nested: ComparePair[] = plain.nested.map((p) => ({
     ...p,
     smaller: plainIdx[p.smaller - 1] + 1,

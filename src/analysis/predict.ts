@@ -118,22 +118,15 @@ function adjustFlags(result: PredictResult, how: Adjustment, flagLevel: number):
   const rule = `; with --adjust ${how}, flagged instead when the ${how === "holm" ? "Holm" : "Benjamini–Hochberg"}-adjusted tail probability is at most ${+(1 - flagLevel).toPrecision(6)}`;
   result.method += rule;
   if (result.group_method) result.group_method += rule;
-  const rowP = adjust(
-    result.rows.map((r) => r.upper_tail_p),
-    how,
-  );
-  result.rows.forEach((r, i) => {
-    r.adjusted_p = rowP[i];
-    r.flagged = rowP[i] !== null && rowP[i]! <= 1 - flagLevel;
-  });
-  if (result.groups) {
-    const groupP = adjust(
-      result.groups.map((g) => g.upper_tail_p),
+  // Rows and groups are two families of tests, each adjusted on its own.
+  for (const units of [result.rows, result.groups ?? []]) {
+    const adjusted = adjust(
+      units.map((u) => u.upper_tail_p),
       how,
     );
-    result.groups.forEach((g, i) => {
-      g.adjusted_p = groupP[i];
-      g.flagged = groupP[i] !== null && groupP[i]! <= 1 - flagLevel;
+    units.forEach((u, i) => {
+      u.adjusted_p = adjusted[i];
+      u.flagged = adjusted[i] !== null && adjusted[i]! <= 1 - flagLevel;
     });
   }
 }

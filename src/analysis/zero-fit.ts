@@ -15,19 +15,7 @@ import { summarizeZeroFit } from "../infer/zero-summary.js";
 import { screenRank, symZeros } from "../math/linalg.js";
 import { columnValues } from "../design/matrix-columns.js";
 import type { Clustering } from "../design/clusters.js";
-import { dominantClusters } from "../infer/cluster.js";
-
-/** The few-clusters and dominant-cluster warnings of clustered counts. */
-function clusterWarnings(c: Clustering): string[] {
-  const out: string[] = [];
-  if (c.count < 30)
-    out.push(
-      `only ${c.count} clusters of '${c.column}': cluster-robust standard errors are unreliable with few clusters (fewer than about 30 is common practice for caution; Cameron and Miller 2015)`,
-    );
-  for (const d of dominantClusters(c))
-    out.push(`one cluster of '${d.column}' ('${d.cluster}') holds ${Math.round(100 * d.share)}% of the rows`);
-  return out;
-}
+import { clusterWarnings, dominantClusters } from "../infer/cluster.js";
 
 export interface ZeroAnalysis {
   fit: ZeroFit;
@@ -123,6 +111,12 @@ export function analyzeZeroFit(
         ? { kind: "robust" }
         : undefined,
   });
-  for (const c of clustered ?? []) for (const w of clusterWarnings(c)) summary.warnings.push(w);
+  if (clustered)
+    summary.warnings.push(
+      ...clusterWarnings(
+        clustered.map((c) => ({ column: c.column, count: c.count })),
+        clustered.flatMap(dominantClusters),
+      ),
+    );
   return { fit, summary };
 }

@@ -97,8 +97,14 @@ export async function loadDesigns(
   }
   const build = () =>
     specs.map((spec) => {
+      // Each model takes the references of its own factors; one that names no model's term goes to the first
+      // model, whose design then refuses it as a single model would.
       const ownRefs = Object.fromEntries(
-        Object.entries(refs).filter(([k]) => termVariables(spec).includes(k) || specs.length === 1),
+        Object.entries(refs).filter(
+          ([k]) =>
+            termVariables(spec).includes(k) ||
+            (spec === specs[0] && !specs.some((other) => termVariables(other).includes(k))),
+        ),
       );
       return buildDesign(table, spec, {
         exposure: opts.exposure,

@@ -5,6 +5,7 @@
 // interactions, for example). d is the date's days since 1970-01-01.
 import { InputError } from "../errors.js";
 import type { Column, FactorColumn, NumericColumn, Table } from "../io/table.js";
+import type { ModelFile } from "../io/model-file.js";
 import { fileRow } from "../io/table.js";
 
 export interface CalendarOptions {
@@ -29,6 +30,11 @@ export const DAY_NAMES = ["mon", "tue", "wed", "thu", "fri", "sat", "sun"] as co
 export const MAX_HARMONICS = 6;
 
 const DAY_MS = 86_400_000;
+
+/** YYYY-MM-DD of d days since 1970-01-01. */
+export function isoDate(d: number): string {
+  return new Date(d * DAY_MS).toISOString().slice(0, 10);
+}
 
 /** The names of the generated columns, in the order they join the model. */
 export function calendarTerms(o: CalendarOptions): string[] {
@@ -189,14 +195,7 @@ export function dayRange(days: Float64Array, rows: Int32Array | null): [number, 
 }
 
 /** A model file's calendar record as the design stage uses it. */
-export function calendarOfSaved(saved: {
-  column: string;
-  first_date: string;
-  last_date: string;
-  trend: boolean;
-  season: number;
-  day_of_week: boolean;
-}): Calendar {
+export function calendarOfSaved(saved: NonNullable<ModelFile["calendar"]>): Calendar {
   const day = (t: string) => {
     const p = parseDay(t);
     if ("reason" in p)
@@ -230,10 +229,9 @@ export function calendarForNewRows(table: Table, cal: Calendar): { table: Table;
   }
   const [lo, hi] = dayRange(days, null);
   const warnings: string[] = [];
-  const iso = (d: number) => new Date(d * DAY_MS).toISOString().slice(0, 10);
   if (cal.trend && table.nRows > 0 && (lo < cal.firstDay || hi > cal.lastDay))
     warnings.push(
-      `new rows are dated ${iso(lo)} to ${iso(hi)}, outside the fitted dates ${iso(cal.firstDay)} to ${iso(cal.lastDay)}: the trend is extrapolated there (by up to ${Math.round(Math.max(cal.firstDay - lo, hi - cal.lastDay, 0))} days)`,
+      `new rows are dated ${isoDate(lo)} to ${isoDate(hi)}, outside the fitted dates ${isoDate(cal.firstDay)} to ${isoDate(cal.lastDay)}: the trend is extrapolated there (by up to ${Math.round(Math.max(cal.firstDay - lo, hi - cal.lastDay, 0))} days)`,
     );
   return { table: uses ? withCalendarColumns(table, cal, days, cal.firstDay, daily) : table, warnings };
 }

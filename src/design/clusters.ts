@@ -32,6 +32,29 @@ export function clusteringOf(column: string, labels: string[]): Clustering {
   return { column, ids, count: index.size, names: [...index.keys()] };
 }
 
+/** The intersection of two clusterings (a clinic-week), numbered in order of first appearance. */
+export function clusterIntersection(
+  a: Pick<Clustering, "ids" | "count"> & { column?: string },
+  b: Pick<Clustering, "ids" | "count"> & { column?: string },
+): Clustering {
+  const ids = new Int32Array(a.ids.length);
+  const seen = new Map<number, number>();
+  for (let i = 0; i < ids.length; i++) {
+    if (a.ids[i] < 0 || b.ids[i] < 0) {
+      ids[i] = -1;
+      continue;
+    }
+    const key = a.ids[i] * b.count + b.ids[i];
+    let id = seen.get(key);
+    if (id === undefined) {
+      id = seen.size;
+      seen.set(key, id);
+    }
+    ids[i] = id;
+  }
+  return { column: `${a.column ?? ""}:${b.column ?? ""}`, ids, count: seen.size };
+}
+
 const MISSING = "(missing)";
 
 /**

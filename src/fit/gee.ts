@@ -10,7 +10,7 @@
 // as for --cluster, so that the independence structure gives exactly the
 // one-way cluster-robust covariance; the model-based covariance is φ·B⁻¹.
 import type { Design } from "../design/design.js";
-import { cholesky, choleskyInverse, choleskySolve, type SymMatrix } from "../math/linalg.js";
+import { cholesky, choleskyInverse, choleskySolve, sandwichProduct, type SymMatrix } from "../math/linalg.js";
 import type { GlmFit } from "./kernel/types.js";
 import { admissibleRange, applyInverse, momentCorrelation, type WorkingCorrelation } from "./working-correlation.js";
 import { conditionedRows, type ConditionedRows } from "./gee-rows.js";
@@ -157,26 +157,6 @@ function evaluate(
   return { b: { p: q, data: b }, u, meat, rho, rhoRaw, pearsonScale };
 }
 
-/** B⁻¹ M B⁻¹. */
-function sandwich(bInv: SymMatrix, meat: Float64Array): SymMatrix {
-  const q = bInv.p;
-  const t = new Float64Array(q * q);
-  for (let i = 0; i < q; i++)
-    for (let j = 0; j < q; j++) {
-      let acc = 0;
-      for (let k = 0; k < q; k++) acc += bInv.data[i * q + k] * meat[k * q + j];
-      t[i * q + j] = acc;
-    }
-  const out = new Float64Array(q * q);
-  for (let i = 0; i < q; i++)
-    for (let j = 0; j < q; j++) {
-      let acc = 0;
-      for (let k = 0; k < q; k++) acc += t[i * q + k] * bInv.data[k * q + j];
-      out[i * q + j] = acc;
-    }
-  return { p: q, data: out };
-}
-
 /**
  * Solve the estimating equations from an independence fit `start` (its
  * estimable columns and, for the NB2, its alpha). Returns null when the
@@ -225,7 +205,7 @@ export function fitGee(design: Design, start: GlmFit, o: GeeOptions): GeeFit | n
   const bInv = choleskyInverse(l, q);
   const G = sizes.length;
   const cr1 = (G / (G - 1)) * ((n - 1) / (n - q));
-  const robust = sandwich(bInv, pass.meat);
+  const robust = sandwichProduct(bInv, pass.meat);
   const scale = o.estimateScale ? pass.pearsonScale : 1;
   const beta = new Float64Array(start.beta);
   const betaEst = z.toOriginal(gamma);

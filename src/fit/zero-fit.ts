@@ -4,12 +4,23 @@
 // by Newton steps on a difference Hessian (zero-optimize.ts).
 // The standard errors come from the inverse of that observed information.
 // Both design matrices are centred and scaled (gee-rows.ts) while fitting.
+import { clusterIntersection } from "../design/clusters.js";
 import type { Design } from "../design/design.js";
 import { clipNegativeEigenvalues } from "../math/eigen.js";
-import { cholesky, choleskyInverse, congruence, type SymMatrix } from "../math/linalg.js";
+import { cholesky, choleskyInverse, congruence, sandwichProduct, type SymMatrix } from "../math/linalg.js";
 import { conditionedRows } from "./gee-rows.js";
 import { isHurdle, isNegbinForm, type ZeroFamily } from "./zero-likelihood.js";
-import { bfgs, columnsOf, evaluate, hessian, polish, type Problem, scoreMeat } from "./zero-optimize.js";
+import {
+  bfgs,
+  columnsOf,
+  countPredictor,
+  evaluate,
+  hessian,
+  polish,
+  type Problem,
+  scoreMeat,
+  zeroPredictor,
+} from "./zero-optimize.js";
 
 export interface ZeroFitOptions {
   family: ZeroFamily;
@@ -83,12 +94,8 @@ export function fitZeroModel(count: Design, zero: Design, o: ZeroFitOptions): Ze
     zeroProb = new Float64Array(count.n);
   let meanProb = 0;
   for (let i = 0; i < count.n; i++) {
-    let eta = count.offset[i];
-    for (let k = 0; k < p; k++) eta += X.values[i * p + k] * theta[k];
-    let u = 0;
-    for (let k = 0; k < r; k++) u += Z.values[i * r + k] * theta[p + k];
-    lambda[i] = Math.exp(eta);
-    zeroProb[i] = 1 / (1 + Math.exp(-u));
+    lambda[i] = Math.exp(countPredictor(P, theta, i));
+    zeroProb[i] = 1 / (1 + Math.exp(-zeroPredictor(P, theta, i)));
     meanProb += zeroProb[i] / count.n;
   }
   const boundary = {
@@ -146,30 +153,15 @@ export function fitZeroModel(count: Design, zero: Design, o: ZeroFitOptions): Ze
       const q = keep.length;
       // H⁻¹ M H⁻¹ over the kept parameters, with the CR1 factor for clusters (none for HC0).
       const oneWay = (c: { ids: Int32Array | null; count: number }) => {
-        const meat = scoreMeat(P, theta, c, keep);
-        const tmp = new Float64Array(q * q),
-          inner = new Float64Array(q * q);
-        for (let i = 0; i < q; i++)
-          for (let j = 0; j < q; j++) {
-            let acc = 0;
-            for (let k2 = 0; k2 < q; k2++) acc += inv.data[i * q + k2] * meat[k2 * q + j];
-            tmp[i * q + j] = acc;
-          }
         const factor = c.ids ? (c.count / (c.count - 1)) * ((count.n - 1) / (count.n - q)) : 1;
-        for (let i = 0; i < q; i++)
-          for (let j = 0; j < q; j++) {
-            let acc = 0;
-            for (let k2 = 0; k2 < q; k2++) acc += tmp[i * q + k2] * inv.data[k2 * q + j];
-            inner[i * q + j] = acc * factor;
-          }
-        return inner;
+        return sandwichProduct(inv, scoreMeat(P, theta, c, keep)).data.map((x) => x * factor);
       };
       let inner: Float64Array;
       if (o.sandwich.length === 1) inner = oneWay(o.sandwich[0]);
       else {
         // Two-way (Cameron, Gelbach and Miller 2011): V_a + V_b − V_ab, negative eigenvalues set to 0.
         const [a, b] = o.sandwich;
-        const both = intersect(a, b);
+        const both = clusterIntersection({ ids: a.ids!, count: a.count }, { ids: b.ids!, count: b.count });
         const va = oneWay(a),
           vb = oneWay(b),
           vab = oneWay(both);
@@ -200,24 +192,4 @@ export function fitZeroModel(count: Design, zero: Design, o: ZeroFitOptions): Ze
     lambda,
     zeroProb,
   };
-}
-
-/** The intersection of two clusterings (a unit-month), numbered in order of first appearance. */
-function intersect(
-  a: { ids: Int32Array | null; count: number },
-  b: { ids: Int32Array | null; count: number },
-): { ids: Int32Array; count: number } {
-  const n = a.ids!.length;
-  const ids = new Int32Array(n);
-  const seen = new Map<number, number>();
-  for (let i = 0; i < n; i++) {
-    const key = a.ids![i] * b.count + b.ids![i];
-    let id = seen.get(key);
-    if (id === undefined) {
-      id = seen.size;
-      seen.set(key, id);
-    }
-    ids[i] = id;
-  }
-  return { ids, count: seen.size };
 }

@@ -20,20 +20,33 @@ export interface Problem {
   fixed?: number;
 }
 
+/** Row i's count-part linear predictor η = offset + xβ at θ. */
+export function countPredictor(P: Problem, theta: Float64Array, i: number): number {
+  const p = P.X.q;
+  let eta = P.off[i];
+  for (let k = 0; k < p; k++) eta += P.X.values[i * p + k] * theta[k];
+  return eta;
+}
+
+/** Row i's zero-part linear predictor u = zγ at θ. */
+export function zeroPredictor(P: Problem, theta: Float64Array, i: number): number {
+  const p = P.X.q,
+    r = P.Z.q;
+  let u = 0;
+  for (let k = 0; k < r; k++) u += P.Z.values[i * r + k] * theta[p + k];
+  return u;
+}
+
 /** Negative log-likelihood and its gradient at θ (conditioned coordinates). */
 export function evaluate(P: Problem, theta: Float64Array, grad: Float64Array | null): number {
-  const { X, Z, y, off, w, family, nb } = P;
+  const { X, Z, y, w, family, nb } = P;
   const p = X.q,
     r = Z.q;
   const a = nb ? theta[p + r] : 0;
   let nll = 0;
   if (grad) grad.fill(0);
   for (let i = 0; i < y.length; i++) {
-    let eta = off[i];
-    for (let k = 0; k < p; k++) eta += X.values[i * p + k] * theta[k];
-    let u = 0;
-    for (let k = 0; k < r; k++) u += Z.values[i * r + k] * theta[p + k];
-    const t = rowTerms(family, y[i], eta, u, a);
+    const t = rowTerms(family, y[i], countPredictor(P, theta, i), zeroPredictor(P, theta, i), a);
     const wi = w ? w[i] : 1;
     nll -= wi * t.logLik;
     if (!grad) continue;
@@ -165,7 +178,7 @@ export function scoreMeat(
   sw: { ids: Int32Array | null; count: number },
   keep: number[],
 ): Float64Array {
-  const { X, Z, y, off, w, family, nb } = P;
+  const { X, Z, y, w, family, nb } = P;
   const p = X.q,
     r = Z.q,
     q = keep.length;
@@ -174,11 +187,7 @@ export function scoreMeat(
   const a = nb ? theta[p + r] : 0;
   const score = new Float64Array(p + r + (nb ? 1 : 0));
   for (let i = 0; i < y.length; i++) {
-    let eta = off[i];
-    for (let k = 0; k < p; k++) eta += X.values[i * p + k] * theta[k];
-    let u = 0;
-    for (let k = 0; k < r; k++) u += Z.values[i * r + k] * theta[p + k];
-    const t = rowTerms(family, y[i], eta, u, a);
+    const t = rowTerms(family, y[i], countPredictor(P, theta, i), zeroPredictor(P, theta, i), a);
     const wi = w ? w[i] : 1;
     for (let k = 0; k < p; k++) score[k] = wi * t.dEta * X.values[i * p + k];
     for (let k = 0; k < r; k++) score[p + k] = wi * t.dU * Z.values[i * r + k];

@@ -220,6 +220,11 @@ export function parseFormula(text: string, options: { intercept?: boolean } = {}
   return { text, response, terms: ordered, intercept: options.intercept ?? true };
 }
 
+/** "COUNT ~ TERMS" for a response and a terms text, the response in backquotes when it is not a plain name. */
+export function formulaText(response: string, terms: string): string {
+  return `${/^[A-Za-z_.][A-Za-z0-9_.]*$/.test(response) ? response : `\`${response}\``} ~ ${terms}`;
+}
+
 /** Columns named anywhere in the terms. */
 export function termVariables(spec: Formula): string[] {
   const out: string[] = [];

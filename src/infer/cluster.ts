@@ -6,7 +6,7 @@
 // Miller (2011), whose negative eigenvalues, when the difference makes any,
 // are set to 0 (their §2.3 fix). Wald tests from it refer to Student's t on
 // G − 1 degrees of freedom, G the smallest number of clusters.
-import type { Clustering } from "../design/clusters.js";
+import { type Clustering, clusterIntersection } from "../design/clusters.js";
 import type { Design } from "../design/design.js";
 import { informationOf } from "../fit/kernel/information.js";
 import type { GlmFit } from "../fit/kernel/types.js";
@@ -59,26 +59,6 @@ function oneWay(design: Design, fit: GlmFit, scores: Float64Array, c: Clustering
   return { p: v.p, data: v.data.map((x) => x * factor) };
 }
 
-/** The intersection of two clusterings (a clinic-week), numbered in order of first appearance. */
-function intersection(a: Clustering, b: Clustering): Clustering {
-  const ids = new Int32Array(a.ids.length);
-  const seen = new Map<number, number>();
-  for (let i = 0; i < ids.length; i++) {
-    if (a.ids[i] < 0 || b.ids[i] < 0) {
-      ids[i] = -1;
-      continue;
-    }
-    const key = a.ids[i] * b.count + b.ids[i];
-    let id = seen.get(key);
-    if (id === undefined) {
-      id = seen.size;
-      seen.set(key, id);
-    }
-    ids[i] = id;
-  }
-  return { column: `${a.column}:${b.column}`, ids, count: seen.size };
-}
-
 /** Cluster-robust covariance over the fit's estimated columns, for one or two clusterings. */
 export function clusterCovariance(design: Design, fit: GlmFit, clusterings: Clustering[]): ClusterCovariance {
   if (clusterings.length < 1 || clusterings.length > 2) throw new Error("one or two clusterings");
@@ -104,7 +84,7 @@ export function clusterCovariance(design: Design, fit: GlmFit, clusterings: Clus
   const [a, b] = clusterings;
   const va = oneWay(design, fit, scores, a, nCoef);
   const vb = oneWay(design, fit, scores, b, nCoef);
-  const vab = oneWay(design, fit, scores, intersection(a, b), nCoef);
+  const vab = oneWay(design, fit, scores, clusterIntersection(a, b), nCoef);
   const sum: SymMatrix = { p: va.p, data: va.data.map((x, k) => x + vb.data[k] - vab.data[k]) };
   const { matrix, clipped } = clipNegativeEigenvalues(sum);
   // Only a sum with a negative eigenvalue is replaced; otherwise it stands as computed.
@@ -116,4 +96,22 @@ export function clusterCovariance(design: Design, fit: GlmFit, clusterings: Clus
     eigenvaluesClipped: clipped,
     dominant: [...dominantClusters(a), ...dominantClusters(b)],
   };
+}
+
+/** The warnings of clustered counts: few clusters (under about 30, common practice), and a cluster holding most rows. */
+export function clusterWarnings(
+  clusters: { column: string; count: number }[],
+  dominant: { column: string; cluster: string; share: number }[],
+): string[] {
+  const out: string[] = [];
+  for (const c of clusters)
+    if (c.count < 30)
+      out.push(
+        `only ${c.count} clusters of '${c.column}': cluster-robust standard errors are unreliable with few clusters (fewer than about 30 is common practice for caution; Cameron and Miller 2015)`,
+      );
+  for (const d of dominant)
+    out.push(
+      `one cluster of '${d.column}' ('${d.cluster}') holds ${Math.round(100 * d.share)}% of the rows; the cluster-robust errors then rest mostly on the others`,
+    );
+  return out;
 }

@@ -85,6 +85,17 @@ function extraColumns(a: CompareEntry, b: CompareEntry): { cols: number[]; noEve
   return { cols, noEvents };
 }
 
+/** Mark the model with the smallest AIC, and with the smallest BIC, in its preferred_by. */
+export function markPreferred(models: CompareModel[]): void {
+  for (const crit of ["aic", "bic"] as const) {
+    let best = -1;
+    models.forEach((m, i) => {
+      if (m[crit] !== null && (best < 0 || m[crit]! < models[best][crit]!)) best = i;
+    });
+    if (best >= 0) models[best].preferred_by.push(crit.toUpperCase());
+  }
+}
+
 /**
  * Under clustering, a nested pair is tested by the Wald F of the larger
  * model's extra columns with its cluster-robust covariance, F = W/df on
@@ -156,13 +167,7 @@ export function compareModels(entries: CompareEntry[], clustered?: ClusterCovari
       preferred_by: [],
     };
   });
-  for (const crit of ["aic", "bic"] as const) {
-    let best = -1;
-    models.forEach((m, i) => {
-      if (m[crit] !== null && (best < 0 || m[crit]! < models[best][crit]!)) best = i;
-    });
-    if (best >= 0) models[best].preferred_by.push(crit.toUpperCase());
-  }
+  markPreferred(models);
   const nested: ComparePair[] = [];
   const notNested: [number, number][] = [];
   for (let i = 0; i < entries.length; i++)

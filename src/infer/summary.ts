@@ -2,6 +2,7 @@
 // Standard errors are the square roots of the diagonal of the inverse
 // expected (Fisher) information X'WX at the estimate (GlmFit.covariance),
 // times sqrt(phi) for quasi-Poisson, or the sandwich estimate with --robust.
+import { isoDate } from "../design/calendar.js";
 import type { Design } from "../design/design.js";
 import type { FamilyName, CountFit } from "../fit/count-fit.js";
 import {
@@ -13,7 +14,7 @@ import {
 } from "../math/distributions.js";
 import type { ProfileResult } from "./profile.js";
 import { boundaryLrTest, fitStatistics } from "./fit-statistics.js";
-import type { ClusterCovariance } from "./cluster.js";
+import { type ClusterCovariance, clusterWarnings } from "./cluster.js";
 import { sandwichCovariance } from "./robust.js";
 import type { TermTest } from "./terms.js";
 import type { GroupSummary } from "./groups.js";
@@ -279,17 +280,7 @@ export function summarizeFit(design: Design, mf: CountFit, options: SummaryOptio
           warnings.push(
             `${design.columns[c].name}: the ${side} profile limit is ${r.open ? (side === "lower" ? "0 (open)" : "unbounded") : "not available"}: ${r.reason}`,
           );
-  if (cl) {
-    for (const c of cl.clusters)
-      if (c.count < 30)
-        warnings.push(
-          `only ${c.count} clusters of '${c.column}': cluster-robust standard errors are unreliable with few clusters (fewer than about 30 is common practice for caution; Cameron and Miller 2015)`,
-        );
-    for (const d of cl.dominant)
-      warnings.push(
-        `one cluster of '${d.column}' ('${d.cluster}') holds ${Math.round(100 * d.share)}% of the rows; the cluster-robust errors then rest mostly on the others`,
-      );
-  }
+  if (cl) warnings.push(...clusterWarnings(cl.clusters, cl.dominant));
   if (options.robust && options.profiles)
     warnings.push(
       "with --robust, the Wald limits use sandwich standard errors; the profile limits remain likelihood-based (model-based)",
@@ -429,11 +420,6 @@ function profileRow(pr: ProfileResult | undefined): [number | null, number | nul
   const lo = pr.lower.value !== null ? Math.exp(pr.lower.value) : pr.lower.open ? 0 : null;
   const hi = pr.upper.value !== null ? Math.exp(pr.upper.value) : null;
   return [lo, hi];
-}
-
-/** YYYY-MM-DD of d days since 1970-01-01. */
-function isoDate(d: number): string {
-  return new Date(d * 86_400_000).toISOString().slice(0, 10);
 }
 
 /**

@@ -130,3 +130,23 @@ export function symSubmatrix(a: SymMatrix, idx: number[]): SymMatrix {
   for (let i = 0; i < q; i++) for (let j = 0; j < q; j++) out[i * q + j] = a.data[idx[i] * a.p + idx[j]];
   return { p: q, data: out };
 }
+
+/** The sandwich A M A for a symmetric "bread" A (an inverse information) and a p×p "meat" M (row-major). */
+export function sandwichProduct(bread: SymMatrix, meat: Float64Array): SymMatrix {
+  const q = bread.p;
+  const t = new Float64Array(q * q);
+  for (let i = 0; i < q; i++)
+    for (let j = 0; j < q; j++) {
+      let acc = 0;
+      for (let k = 0; k < q; k++) acc += bread.data[i * q + k] * meat[k * q + j];
+      t[i * q + j] = acc;
+    }
+  const out = new Float64Array(q * q);
+  for (let i = 0; i < q; i++)
+    for (let j = 0; j < q; j++) {
+      let acc = 0;
+      for (let k = 0; k < q; k++) acc += t[i * q + k] * bread.data[k * q + j];
+      out[i * q + j] = acc;
+    }
+  return { p: q, data: out };
+}

@@ -43,7 +43,7 @@ function droppedText(s: FitSummary): string {
 }
 
 /** A header line "  label   text", the text wrapped under itself. */
-export function labelled(label: string, text: string, width: number): string[] {
+function labelled(label: string, text: string, width: number): string[] {
   return wrap(text, width - 10).map((l, k) => `  ${(k === 0 ? label : "").padEnd(8)}${l}`);
 }
 
@@ -111,6 +111,16 @@ export function estimateTable(
   return table(rows, align);
 }
 
+/** The header's "family" line of --family auto (none when the family was given). */
+export function familyChoiceLines(s: FitSummary, width: number): string[] {
+  if (!s.family_choice) return [];
+  return labelled(
+    "family",
+    `${s.family_choice.used} (--family ${s.family_choice.requested}): ${s.family_choice.reason}`,
+    width,
+  );
+}
+
 export function renderFitText(s: FitSummary, o: TextOptions): string {
   const out: string[] = [];
   const st = o.style;
@@ -126,14 +136,7 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
       o.width,
     ),
   );
-  if (s.family_choice)
-    out.push(
-      ...labelled(
-        "family",
-        `${s.family_choice.used} (--family ${s.family_choice.requested}): ${s.family_choice.reason}`,
-        o.width,
-      ),
-    );
+  out.push(...familyChoiceLines(s, o.width));
   out.push("");
 
   // Rates (the levels that take the intercept's place in a model without one), then rate ratios, grouped by term.

@@ -1,4 +1,5 @@
 // Writing the saved-model record from a fit.
+import { isoDate } from "../design/calendar.js";
 import type { Design } from "../design/design.js";
 import type { CountFit } from "../fit/count-fit.js";
 import type { ClusterCovariance } from "../infer/cluster.js";
@@ -75,8 +76,4 @@ export function modelFileOf(
         }
       : {}),
   };
-}
-
-function isoDate(d: number): string {
-  return new Date(d * 86_400_000).toISOString().slice(0, 10);
 }

@@ -2,7 +2,7 @@
 // rate ratios, the zero part as odds ratios, alpha, zeros observed against
 // expected, the likelihood figures, warnings and the closing caution.
 import type { FitSummary } from "../infer/summary.js";
-import { closingBlock, estimateTable, FAMILY_TITLE, labelled } from "./fit-text.js";
+import { closingBlock, estimateTable, FAMILY_TITLE, familyChoiceLines } from "./fit-text.js";
 import { fixed, interval, pEquals, sig, table, wrap } from "./format.js";
 import type { Style } from "./style.js";
 
@@ -21,14 +21,7 @@ export function renderZeroText(s: FitSummary, o: { style: Style; width: number }
     `  model   count part ${s.model}; zero part ~ ${zp.terms}`,
     `  fit     maximum likelihood, ${s.converged ? "converged" : st.bad("did NOT converge")} after ${s.iterations} quasi-Newton steps`,
   );
-  if (s.family_choice)
-    out.push(
-      ...labelled(
-        "family",
-        `${s.family_choice.used} (--family ${s.family_choice.requested}): ${s.family_choice.reason}`,
-        o.width,
-      ),
-    );
+  out.push(...familyChoiceLines(s, o.width));
   out.push("");
   const nonIntercept = s.coefficients.filter((c) => c.kind !== "intercept");
   const showP = s.profile_reference !== null;

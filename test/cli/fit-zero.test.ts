@@ -7,20 +7,12 @@ import assert from "node:assert/strict";
 import { mkdtempSync, readFileSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
-import AjvModule from "ajv";
-import { FIXTURES, ROOT, assertRel, runCli } from "../helpers.js";
+import { assertRel, FIXTURES, runCli, schemaValidator } from "../helpers.js";
 
 const ref = JSON.parse(readFileSync(join(FIXTURES, "scipy", "zero_expected.json"), "utf8"));
 const DATA = join(FIXTURES, "scipy", ref.data);
 const ARGS = ["fit", DATA, "--model", ref.model, "--exposure", ref.exposure, "--zero-terms", ref.zero_terms];
-const Ajv = (AjvModule as unknown as { default: typeof AjvModule }).default ?? AjvModule;
-const validate = new (
-  Ajv as unknown as new (
-    o: object,
-  ) => { compile(s: object): ((d: unknown) => boolean) & { errors?: unknown } }
-)({ allErrors: true, strict: false }).compile(
-  JSON.parse(readFileSync(join(ROOT, "schemas", "fit-1.schema.json"), "utf8")),
-);
+const validate = schemaValidator("fit");
 
 for (const family of ["zip", "zinb", "hurdle-poisson", "hurdle-negbin"])
   test(`fit --family ${family}: JSON count part, zero part and alpha as scipy's (1e-6), and the schema holds`, () => {

@@ -8,17 +8,9 @@ import assert from "node:assert/strict";
 import { mkdtempSync, readFileSync, writeFileSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
-import AjvModule from "ajv";
-import { ROOT, runCli } from "../helpers.js";
+import { runCli, schemaValidator } from "../helpers.js";
 
-const Ajv = (AjvModule as unknown as { default: typeof AjvModule }).default ?? AjvModule;
-const validate = new (
-  Ajv as unknown as new (
-    o: object,
-  ) => { compile(s: object): ((d: unknown) => boolean) & { errors?: unknown } }
-)({ allErrors: true, strict: false }).compile(
-  JSON.parse(readFileSync(join(ROOT, "schemas", "predict-1.schema.json"), "utf8")),
-);
+const validate = schemaValidator("predict");
 
 const dir = mkdtempSync(join(tmpdir(), "tallyfit-groups-"));
 const MODEL = join(dir, "nb.json");

@@ -7,17 +7,9 @@ import assert from "node:assert/strict";
 import { mkdtempSync, readFileSync, readdirSync, writeFileSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
-import AjvModule from "ajv";
-import { ROOT, runCli } from "../helpers.js";
+import { ROOT, runCli, schemaValidator } from "../helpers.js";
 
-const Ajv = (AjvModule as unknown as { default: typeof AjvModule }).default ?? AjvModule;
-const ajv = new (
-  Ajv as unknown as new (
-    o: object,
-  ) => { compile(s: object): ((d: unknown) => boolean) & { errors?: unknown } }
-)({ allErrors: true, strict: false });
-const schema = (name: string) =>
-  ajv.compile(JSON.parse(readFileSync(join(ROOT, "schemas", `${name}-1.schema.json`), "utf8")));
+const schema = schemaValidator;
 
 const EX = join(ROOT, "examples");
 

@@ -9,8 +9,7 @@ import assert from "node:assert/strict";
 import { mkdtempSync, readFileSync, writeFileSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
-import AjvModule from "ajv";
-import { FIXTURES, ROOT, assertRel, runCli } from "../helpers.js";
+import { assertRel, FIXTURES, runCli, schemaValidator } from "../helpers.js";
 
 const ref = JSON.parse(readFileSync(join(FIXTURES, "scipy", "gee_expected.json"), "utf8"));
 const DATA = join(FIXTURES, "scipy", ref.data);
@@ -27,14 +26,7 @@ const ARGS = [
   "1e-13",
 ];
 
-const Ajv = (AjvModule as unknown as { default: typeof AjvModule }).default ?? AjvModule;
-const validate = new (
-  Ajv as unknown as new (
-    o: object,
-  ) => { compile(s: object): ((d: unknown) => boolean) & { errors?: unknown } }
-)({ allErrors: true, strict: false }).compile(
-  JSON.parse(readFileSync(join(ROOT, "schemas", "fit-1.schema.json"), "utf8")),
-);
+const validate = schemaValidator("fit");
 
 for (const [name, extra] of [
   ["poisson_exchangeable", ["--gee", "exchangeable"]],

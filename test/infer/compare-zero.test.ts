@@ -7,21 +7,13 @@ import { test } from "node:test";
 import assert from "node:assert/strict";
 import { readFileSync } from "node:fs";
 import { join } from "node:path";
-import AjvModule from "ajv";
 import { zeroPair } from "../../src/infer/compare-zero.js";
 import { chiSquareUpperTail } from "../../src/math/distributions.js";
-import { FIXTURES, ROOT, assertRel, runCli } from "../helpers.js";
+import { assertRel, FIXTURES, runCli, schemaValidator } from "../helpers.js";
 
 const ref = JSON.parse(readFileSync(join(FIXTURES, "scipy", "zero_expected.json"), "utf8"));
 const DATA = join(FIXTURES, "scipy", ref.data);
-const Ajv = (AjvModule as unknown as { default: typeof AjvModule }).default ?? AjvModule;
-const validate = new (
-  Ajv as unknown as new (
-    o: object,
-  ) => { compile(s: object): ((d: unknown) => boolean) & { errors?: unknown } }
-)({ allErrors: true, strict: false }).compile(
-  JSON.parse(readFileSync(join(ROOT, "schemas", "compare-1.schema.json"), "utf8")),
-);
+const validate = schemaValidator("compare");
 
 test("compare negbin, zip, zinb: zip ⊂ zinb by the boundary-mixture LR from scipy's log-likelihoods; plain against zero by AIC only", () => {
   const m = ["--model", ref.model];

@@ -4,7 +4,7 @@ import { diagnosticsOf } from "../../analysis/fit.js";
 import { clusteringOf, orderKeyOf } from "../../design/clusters.js";
 import { EXIT, InputError } from "../../errors.js";
 import { ZERO_FAMILIES } from "../../fit/zero-likelihood.js";
-import { parseFormula } from "../../formula/formula.js";
+import { formulaText, parseFormula } from "../../formula/formula.js";
 import { summarizeFit } from "../../infer/summary.js";
 import { renderCheckText } from "../../report/check-text.js";
 import { renderJson } from "../../report/json.js";
@@ -50,7 +50,7 @@ export async function runCheck(file: string | undefined, opts: CheckCliOptions):
     ...(opts.orderBy ? [{ column: opts.orderBy, option: "--order-by" }] : []),
   ];
   const response = parseFormula(opts.model[0], { intercept: opts.intercept }).response;
-  const zeroModel = `${/^[A-Za-z_.][A-Za-z0-9_.]*$/.test(response) ? response : `\`${response}\``} ~ ${zeroTerms}`;
+  const zeroModel = formulaText(response, zeroTerms);
   const { designs, control, labels } = await loadDesigns(
     file,
     opts,

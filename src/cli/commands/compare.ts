@@ -4,7 +4,7 @@ import { clusteringOf } from "../../design/clusters.js";
 import { EXIT, InputError } from "../../errors.js";
 import type { FamilyName } from "../../fit/count-fit.js";
 import { ZERO_FAMILIES, type ZeroFamily } from "../../fit/zero-likelihood.js";
-import { parseFormula } from "../../formula/formula.js";
+import { formulaText, parseFormula } from "../../formula/formula.js";
 import { renderCompareText } from "../../report/compare-text.js";
 import { renderJson } from "../../report/json.js";
 import { loadDesigns } from "../input.js";
@@ -42,7 +42,7 @@ export async function runCompare(file: string | undefined, opts: CompareCliOptio
   if (opts.output) outputs.claim(opts.output, "--output");
   if (opts.cluster.length > 2) throw new InputError("--cluster is given once (one-way) or twice (two-way clustering).");
   const response = parseFormula(opts.model[0], { intercept: opts.intercept }).response;
-  const zeroModel = `${/^[A-Za-z_.][A-Za-z0-9_.]*$/.test(response) ? response : `\`${response}\``} ~ ${zeroTerms}`;
+  const zeroModel = formulaText(response, zeroTerms);
   const loaded = await loadDesigns(
     file,
     opts,

@@ -1,10 +1,11 @@
 // tallyfit fit --family zip|zinb|hurdle-poisson|hurdle-negbin: the count part
 // and the zero part (--zero-terms) fitted together by maximum likelihood.
 import { analyzeZeroFit } from "../../analysis/zero-fit.js";
-import { clusteringOf } from "../../design/clusters.js";
+import { type Clustering, clusteringOf } from "../../design/clusters.js";
+import type { Design } from "../../design/design.js";
 import { EXIT, InputError } from "../../errors.js";
 import type { ZeroFamily } from "../../fit/zero-likelihood.js";
-import { parseFormula } from "../../formula/formula.js";
+import { formulaText, parseFormula } from "../../formula/formula.js";
 import { renderJson } from "../../report/json.js";
 import { displaySafe } from "../../report/safe-text.js";
 import { renderZeroText } from "../../report/zero-text.js";
@@ -16,8 +17,13 @@ import type { FitCliOptions } from "./fit-options.js";
 import type { FitSummary } from "../../infer/summary.js";
 import { ZERO_FAMILIES } from "../../fit/zero-likelihood.js";
 
+/** The zero part's terms (--zero-terms; an intercept by default). */
+export function zeroTermsOf(opts: FitCliOptions): string {
+  return opts.zeroTerms?.trim() || "1";
+}
+
 /** The first option given that the excess-zero families do not take yet, or null. */
-function unsupportedOption(opts: FitCliOptions): string | null {
+export function unsupportedOption(opts: FitCliOptions): string | null {
   try {
     refuseUnsupported(opts);
     return null;
@@ -32,28 +38,22 @@ function unsupportedOption(opts: FitCliOptions): string | null {
  * intercept) and keep the one with the smallest AIC when it beats the plain
  * family's AIC. Returns the report to print, or null to keep the plain fit.
  */
-export async function autoZeroFit(
-  file: string | undefined,
+export function autoZeroFit(
   opts: FitCliOptions,
   plain: { family: string; aic: number; excessZeros: boolean; reason: string },
   level: number,
-): Promise<{ summary: FitSummary; note: null } | { summary: null; note: string } | null> {
+  /** The count and zero designs on the same rows (loaded with the plain fit's), or null when an option blocks the zero families. */
+  designs: [Design, Design] | null,
+  clusters: Clustering[],
+): { summary: FitSummary; note: null } | { summary: null; note: string } | null {
   if (!plain.excessZeros) return null;
-  const blocked = unsupportedOption(opts);
-  if (blocked)
+  if (!designs)
     return {
       summary: null,
-      note: `the check found more zeros than either plain model expects, but the zero-inflated and hurdle families were not tried because ${blocked} does not go with them yet`,
+      note: `the check found more zeros than either plain model expects, but the zero-inflated and hurdle families were not tried because ${unsupportedOption(opts)} does not go with them yet`,
     };
-  const zeroTerms = opts.zeroTerms?.trim() || "1";
-  const { designs, labels } = await loadDesigns(
-    file,
-    { ...opts, quiet: true },
-    [opts.model[0], zeroModelOf(opts, zeroTerms)],
-    opts.cluster.map((column) => ({ column, option: "--cluster" })),
-  );
+  const zeroTerms = zeroTermsOf(opts);
   // The covariance asked for (--robust, --cluster) goes with the zero families too; the AIC does not depend on it.
-  const clusters = opts.cluster.map((c) => clusteringOf(c, labels.get(c)!));
   const covariance = { robust: !!opts.robust, clusters };
   const tried: { family: ZeroFamily; aic: number; summary: FitSummary }[] = [];
   for (const family of ZERO_FAMILIES)
@@ -78,9 +78,9 @@ export async function autoZeroFit(
   return { summary: best.summary, note: null };
 }
 
-function zeroModelOf(opts: FitCliOptions, zeroTerms: string): string {
+export function zeroModelOf(opts: FitCliOptions, zeroTerms: string): string {
   const response = parseFormula(opts.model[0], { intercept: opts.intercept }).response;
-  return `${/^[A-Za-z_.][A-Za-z0-9_.]*$/.test(response) ? response : `\`${response}\``} ~ ${zeroTerms}`;
+  return formulaText(response, zeroTerms);
 }
 
 /** Render an excess-zero fit's report. */
@@ -111,7 +111,7 @@ export async function runZeroFit(file: string | undefined, opts: FitCliOptions, 
   refuseUnsupported(opts);
   const level = parseProbability("--level", opts.level, "0.95");
   if (opts.intervals) oneOf("--intervals", opts.intervals, ["wald", "profile", "both"]);
-  const zeroTerms = opts.zeroTerms?.trim() || "1";
+  const zeroTerms = zeroTermsOf(opts);
   const outputs = new RunOutputs([file ?? "-"]);
   if (opts.output) outputs.claim(opts.output, "--output");
   // Both parts on the same rows: the rows complete for the count terms and the zero terms.

@@ -8,7 +8,7 @@ import { summarizeGroups } from "../../infer/groups.js";
 import { clusteringOf, orderKeyOf } from "../../design/clusters.js";
 import { WORKING_CORRELATIONS } from "../../fit/working-correlation.js";
 import { ZERO_FAMILIES, type ZeroFamily } from "../../fit/zero-likelihood.js";
-import { autoZeroFit, renderZeroReport, runZeroFit } from "./fit-zero.js";
+import { autoZeroFit, renderZeroReport, runZeroFit, unsupportedOption, zeroModelOf, zeroTermsOf } from "./fit-zero.js";
 import type { FitCliOptions } from "./fit-options.js";
 import type { CountSpread } from "../../infer/ratio-limits.js";
 import type { FitSummary } from "../../infer/summary.js";
@@ -102,7 +102,15 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
     ...opts.cluster.map((column) => ({ column, option: "--cluster" })),
     ...(opts.orderBy ? [{ column: opts.orderBy, option: "--order-by" }] : []),
   ];
-  const { designs, control, labels, sha256 } = await loadDesigns(file, opts, [opts.model[0]], alsoRead);
+  // With --family auto the zero part's design is built with the model's, on the same rows, in case the check
+  // finds excess zeros and the zero families are tried (their AIC is then comparable with the plain fit's).
+  const zeroModel = family === "auto" && !unsupportedOption(opts) ? zeroModelOf(opts, zeroTermsOf(opts)) : null;
+  const { designs, control, labels, sha256 } = await loadDesigns(
+    file,
+    opts,
+    zeroModel ? [opts.model[0], zeroModel] : [opts.model[0]],
+    alsoRead,
+  );
   const design = designs[0];
   if (opts.plot) plotKind(opts.plot);
   for (const [option, given] of [
@@ -144,8 +152,7 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
   if (onProgress && progressOnTerminal()) clearProgressLine();
   if (family === "auto" && check) {
     // More zeros than either plain model expects: the excess-zero families are tried too.
-    const zero = await autoZeroFit(
-      file,
+    const zero = autoZeroFit(
       opts,
       {
         family: summary.family,
@@ -154,7 +161,10 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
         reason: summary.family_choice?.reason ?? "",
       },
       level,
+      zeroModel ? [designs[0], designs[1]] : null,
+      clusters,
     );
+
     if (zero?.note) summary.warnings.push(zero.note);
     else if (zero?.summary) {
       if (!["text", "json"].includes(opts.format))
