@@ -42,6 +42,9 @@ export function lgammaRatio(y: number, r: number): number {
     for (let k = 0; k < y; k++) s += Math.log(r + k);
     return s;
   }
+  // Large r: Stirling's series for the difference, (r + y − ½)·log(1 + y/r) + y·log r − y + 1/(12(r + y)) − 1/(12r)
+  // (the next terms are O(r⁻³)), where the lgamma difference itself would cancel.
+  if (r > 1e5) return (r + y - 0.5) * Math.log1p(y / r) + y * Math.log(r) - y + (1 / (r + y) - 1 / r) / 12;
   return lgamma(y + r) - lgamma(r);
 }
 
@@ -56,6 +59,14 @@ export function harmonic(y: number, r: number): [number, number] {
       e += t * t;
     }
     return [d, e];
+  }
+  // Large r: ψ(x) ≈ log x − 1/(2x) − 1/(12x²) and ψ′(x) ≈ 1/x + 1/(2x²) + 1/(6x³), differenced without cancellation.
+  if (r > 1e5) {
+    const s = r + y;
+    return [
+      Math.log1p(y / r) - (1 / s - 1 / r) / 2 - (1 / (s * s) - 1 / (r * r)) / 12,
+      y / (r * s) + (1 / (r * r) - 1 / (s * s)) / 2 + (1 / (r * r * r) - 1 / (s * s * s)) / 6,
+    ];
   }
   return [digamma(y + r) - digamma(r), trigamma(r) - trigamma(y + r)];
 }

@@ -8,7 +8,8 @@
 //   count: P(0) = 1 − p, P(y) = p·f(y)/(1 − f(0)) for y > 0;
 // f is the Poisson or the NB2 (variance λ + αλ², parametrised by a = log α).
 // The scores are with respect to η, u and a.
-import { digamma, lgamma } from "../math/distributions.js";
+import { lgamma } from "../math/distributions.js";
+import { harmonic, lgammaRatio } from "./family.js";
 
 export type ZeroFamily = "zip" | "zinb" | "hurdle-poisson" | "hurdle-negbin";
 
@@ -52,13 +53,11 @@ function countPart(y: number, eta: number, alpha: number) {
   const logF0 = r * logRatio;
   const dEta0 = -lambda / (1 + alpha * lambda);
   // ∂ log f/∂r = ψ(y + r) − ψ(r) + log(r/(r + λ)) + 1 − (r + y)/(r + λ); ∂/∂a = −r·∂/∂r.
-  const dR0 = logRatio + 1 - r / (r + lambda);
-  const logF =
-    (y > 0 ? lgamma(y + r) - lgamma(r) : 0) -
-    lgamma(y + 1) +
-    r * logRatio +
-    (y > 0 ? y * (eta - Math.log(r + lambda)) : 0);
-  const dR = (y > 0 ? digamma(y + r) - digamma(r) : 0) + logRatio + 1 - (r + y) / (r + lambda);
+  // 1 − r/(r + λ) and 1 − (r + y)/(r + λ) written as αλ/(1 + αλ) and α(λ − y)/(1 + αλ): no cancellation as α → 0.
+  const dR0 = logRatio + (alpha * lambda) / (1 + alpha * lambda);
+  const logF = lgammaRatio(y, r) - lgamma(y + 1) + r * logRatio + (y > 0 ? y * (eta - Math.log(r + lambda)) : 0);
+  // The log-gamma and digamma differences without cancellation when r is large (alpha near its boundary).
+  const dR = harmonic(y, r)[0] + logRatio + (alpha * (lambda - y)) / (1 + alpha * lambda);
   return { logF, dEta: (y - lambda) / (1 + alpha * lambda), dA: -r * dR, logF0, dEta0, dA0: -r * dR0 };
 }
 

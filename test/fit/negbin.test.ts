@@ -7,7 +7,7 @@ import { FIXTURES, assertRel, fitCsv, negbinDraw, rng, simulateRates } from "../
 import { fitGlm } from "../../src/fit/kernel/glm.js";
 import { nullDeviance } from "../../src/fit/count-fit.js";
 import { digamma, lgamma, trigamma } from "../../src/math/distributions.js";
-import { lgammaRatio } from "../../src/fit/family.js";
+import { harmonic, lgammaRatio } from "../../src/fit/family.js";
 
 const expected = JSON.parse(readFileSync(join(FIXTURES, "scipy", "expected.json"), "utf8"));
 const fixture = (name: string) => readFileSync(join(FIXTURES, "scipy", name), "utf8");
@@ -115,6 +115,22 @@ test(`special functions from @stdlib agree with scipy.special (${expected.source
     [64, 1e3],
   ])
     assertRel(lgammaRatio(y, r), lgamma(y + r) - lgamma(r), 1e-11, `ratio ${y},${r}`);
+  // Large r (alpha near 0), where the lgamma difference cancels: against the defining sum Σ_{k<y} log(r + k),
+  // and the harmonic sums against Σ 1/(r + k) and Σ 1/(r + k)².
+  for (const y of [17, 300, 2000])
+    for (const r of [2e5, 1e9, 1e17]) {
+      let s = 0,
+        d = 0,
+        e = 0;
+      for (let k = 0; k < y; k++) {
+        s += Math.log(r + k);
+        d += 1 / (r + k);
+        e += 1 / (r + k) ** 2;
+      }
+      assertRel(lgammaRatio(y, r), s, 1e-12, `ratio ${y},${r}`);
+      assertRel(harmonic(y, r)[0], d, 1e-9, `harmonic ${y},${r}`);
+      assertRel(harmonic(y, r)[1], e, 1e-9, `harmonic² ${y},${r}`);
+    }
 });
 
 test("intercept-only deviances (NB2 by a one-coefficient Newton, Poisson in closed form) equal a general IRLS fit of the intercept", () => {

@@ -11,7 +11,7 @@ import { join } from "node:path";
 import { buildDesign } from "../../src/design/design.js";
 import { fitCounts } from "../../src/fit/count-fit.js";
 import { fitZeroModel } from "../../src/fit/zero-fit.js";
-import { ZERO_FAMILIES } from "../../src/fit/zero-likelihood.js";
+import { rowTerms, ZERO_FAMILIES } from "../../src/fit/zero-likelihood.js";
 import { parseFormula } from "../../src/formula/formula.js";
 import { parseTable } from "../../src/io/csv.js";
 import { FIXTURES, assertRel, poissonDraw, rng } from "../helpers.js";
@@ -76,4 +76,16 @@ test("Poisson data without excess zeros: the zero-inflated Poisson reaches Ï€ â†
   assert.ok(z.converged);
   plain.fit.estimable.forEach((c, k) => assert.ok(Math.abs(z.beta[k] - plain.fit.beta[c]) < 0.05, `count ${k}`));
   assert.ok(z.covariance !== null, "the count part keeps its standard errors");
+});
+
+test("the NB2 forms' row log-likelihood and scores near alpha's boundary equal the Poisson's (no cancellation at alpha = 1e-17)", () => {
+  for (const family of ["zinb", "hurdle-negbin"] as const)
+    for (const y of [0, 1, 7, 54, 400]) {
+      const eta = Math.log(y + 0.5);
+      const nb = rowTerms(family, y, eta, -0.4, Math.log(1e-17));
+      const poisson = rowTerms(family === "zinb" ? "zip" : "hurdle-poisson", y, eta, -0.4, 0);
+      assertRel(nb.logLik, poisson.logLik, 1e-9, `${family} log-lik at y = ${y}`);
+      assertRel(nb.dEta, poisson.dEta, 1e-9, `${family} score at y = ${y}`);
+      assert.ok(Math.abs(nb.dA) < 1e-6, `${family} alpha score at y = ${y}: ${nb.dA}`);
+    }
 });
