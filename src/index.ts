@@ -57,7 +57,8 @@ export { negbinSumPmf } from "./infer/negbin-sum.js";
 export { holm, benjaminiHochberg, type Adjustment } from "./infer/multiplicity.js";
 export { runChecks, withDependence, type CheckResult, type CheckTest } from "./infer/check.js";
 export { compareModels, type CompareResult } from "./infer/compare.js";
-export { predictRows, type PredictOptions, type PredictResult, type PredictedRow } from "./infer/predict.js";
+export type { PredictOptions, PredictResult, PredictedRow } from "./infer/predict.js";
+export { predictRows } from "./infer/predict-range.js";
 export { summarizeGroups, type GroupSummary } from "./infer/groups.js";
 export { garwoodInterval } from "./infer/garwood.js";
 export { rootogram, quantileResiduals, type Rootogram } from "./infer/diagnostics.js";
@@ -74,6 +75,7 @@ export { renderPredictCsv, renderPredictText } from "./report/predict.js";
 export { renderSvg } from "./report/svg.js";
 export { svgToPng } from "./report/png.js";
 export { modelFileOf } from "./report/model-file.js";
+export { zeroModelFileOf, type ZeroCovarianceKind } from "./report/zero-model-file.js";
 export { makeStyle } from "./report/style.js";
 
 // The commands' compositions of the stages.

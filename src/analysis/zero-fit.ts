@@ -20,6 +20,8 @@ import { clusterWarnings, dominantClusters } from "../infer/cluster.js";
 export interface ZeroAnalysis {
   fit: ZeroFit;
   summary: FitSummary;
+  /** The count part's estimable columns and the zero part's columns, as the fit's parameters are laid out. */
+  columns: { count: number[]; zero: number[] };
 }
 
 /** The zero part's columns; an aliased one is an input error (the zero terms repeat each other). */
@@ -118,5 +120,5 @@ export function analyzeZeroFit(
         clustered.flatMap(dominantClusters),
       ),
     );
-  return { fit, summary };
+  return { fit, summary, columns: { count: countColumns, zero: zeroColumns } };
 }

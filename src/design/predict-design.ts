@@ -4,7 +4,7 @@ import { InputError } from "../errors.js";
 import type { Column, Table } from "../io/table.js";
 import { fileRow } from "../io/table.js";
 import type { Formula } from "../formula/formula.js";
-import type { ModelFile } from "../io/model-file.js";
+import { type ModelFile, zeroPartModel } from "../io/model-file.js";
 import { layoutColumns, type DesignColumn, type FactorCoding, type DesignMatrix } from "./design.js";
 import { lookupColumn, numericColumn } from "./columns.js";
 import { closestName, listNames } from "./naming.js";
@@ -22,6 +22,8 @@ export interface PredictionDesign {
   hasResponse: boolean;
   /** File row of each design row, when rows were skipped (null: design row i is file row i + 2). */
   fileRows: Int32Array | null;
+  /** Excess-zero families: the zero part's columns for the same rows (null otherwise). */
+  zeroPart: { matrix: DesignMatrix; columns: DesignColumn[] } | null;
 }
 
 export function specOf(saved: ModelFile): Formula {
@@ -124,7 +126,16 @@ export function buildPredictionDesign(table: Table, saved: ModelFile): Predictio
     observed,
     hasResponse: !!respCol,
     fileRows: null,
+    zeroPart: zeroPartDesign(table, saved),
   };
+}
+
+/** The zero part's columns of the new rows, built as the model's are (same checks, same messages). */
+function zeroPartDesign(table: Table, saved: ModelFile): PredictionDesign["zeroPart"] {
+  const zeroModel = zeroPartModel(saved);
+  if (!zeroModel) return null;
+  const { matrix, columns } = buildPredictionDesign(table, zeroModel);
+  return { matrix, columns };
 }
 
 /** A row that cannot be predicted: its file row and why. */
@@ -186,5 +197,9 @@ export function unpredictableRows(table: Table, saved: ModelFile): SkippedRow[] 
           mark(i, `'${saved.exposure}' is ${e[i]}, which the count cannot have`);
       }
   }
+  // The zero part's variables are checked as the count part's are.
+  const zeroModel = zeroPartModel(saved);
+  if (zeroModel)
+    for (const s of unpredictableRows(table, zeroModel)) if (!out.has(s.row - 2)) out.set(s.row - 2, s.reason);
   return [...out.entries()].sort((a, b) => a[0] - b[0]).map(([i, reason]) => ({ row: fileRow(i), reason }));
 }

@@ -10,6 +10,7 @@ import type { ModelFile } from "../io/model-file.js";
 import { negbinSumPmf, negbinSumReach, negbinSumTerms } from "./negbin-sum.js";
 import { drawMeans, type GroupFlag, type PredictOptions, prepare, rowLinear } from "./predict.js";
 import { predictiveTable, tableQuantile } from "./predictive.js";
+import { zeroGroupFlags } from "./zero-group-flags.js";
 
 export interface GroupFlags {
   by: string[];
@@ -57,6 +58,7 @@ export function groupFlags(
   ids: Int32Array,
   names: string[],
 ): GroupFlags {
+  if (saved.zero_part) return zeroGroupFlags(pd, saved, o, by, ids, names);
   const prep = prepare(pd, saved, o);
   const D = o.draws;
   const members: number[][] = names.map(() => []);

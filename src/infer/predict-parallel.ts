@@ -6,7 +6,8 @@ import { availableParallelism } from "node:os";
 import { Worker } from "node:worker_threads";
 import type { PredictionDesign } from "../design/predict-design.js";
 import type { ModelFile } from "../io/model-file.js";
-import { type PredictOptions, type PredictResult, type PredictedRow, predictRange, predictResult } from "./predict.js";
+import { type PredictOptions, type PredictResult, type PredictedRow, predictResult } from "./predict.js";
+import { predictRowRange } from "./predict-range.js";
 
 /** Rows × draws below which a worker costs more to start than it saves. */
 export const PREDICT_PARALLEL_MIN_WORK = 400_000;
@@ -23,7 +24,7 @@ export async function predictRowsParallel(
   o: PredictOptions,
   useWorker = wantPredictWorker(pd.n, o.draws),
 ): Promise<PredictResult> {
-  if (!useWorker) return predictResult(saved, o, predictRange(pd, saved, o, 0, pd.n));
+  if (!useWorker) return predictResult(saved, o, predictRowRange(pd, saved, o, 0, pd.n));
   const mid = Math.ceil(pd.n / 2);
   let reply: Promise<PredictedRow[] | null>;
   try {
@@ -38,8 +39,8 @@ export async function predictRowsParallel(
   } catch {
     reply = Promise.resolve(null);
   }
-  const first = predictRange(pd, saved, o, 0, mid);
+  const first = predictRowRange(pd, saved, o, 0, mid);
   // A worker that failed leaves its rows to this thread, which computes them the same way.
-  const second = (await reply) ?? predictRange(pd, saved, o, mid, pd.n);
+  const second = (await reply) ?? predictRowRange(pd, saved, o, mid, pd.n);
   return predictResult(saved, o, [...first, ...second]);
 }

@@ -2,7 +2,8 @@
 import { parentPort, workerData } from "node:worker_threads";
 import type { PredictionDesign } from "../design/predict-design.js";
 import type { ModelFile } from "../io/model-file.js";
-import { type PredictOptions, predictRange } from "./predict.js";
+import type { PredictOptions } from "./predict.js";
+import { predictRowRange } from "./predict-range.js";
 
 const { pd, saved, o, from, to } = workerData as {
   pd: PredictionDesign;
@@ -11,4 +12,4 @@ const { pd, saved, o, from, to } = workerData as {
   from: number;
   to: number;
 };
-parentPort!.postMessage({ rows: predictRange(pd, saved, o, from, to) });
+parentPort!.postMessage({ rows: predictRowRange(pd, saved, o, from, to) });

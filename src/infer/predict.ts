@@ -94,12 +94,21 @@ export interface Prepared {
   phi: number;
   zq: number;
   quasi: boolean;
+  /** Excess-zero families: the zero part's estimates, their positions in the covariance (−1: held fixed). */
+  gamma: Float64Array;
+  zpos: Int32Array;
 }
 
 export function prepare(pd: PredictionDesign, saved: ModelFile, o: PredictOptions): Prepared {
   const p = pd.columns.length;
   const covIndex = new Map(saved.covariance.terms.map((t, k) => [t, k]));
-  const q = saved.covariance.terms.length;
+  // Excess-zero families: the covariance is joint over the count part, the zero part and log alpha.
+  const zeroTerms = saved.covariance.zero_terms ?? [];
+  const q = saved.covariance.terms.length + zeroTerms.length + (saved.covariance.log_alpha ? 1 : 0);
+  const zeroIndex = new Map(zeroTerms.map((t, k) => [t, saved.covariance.terms.length + k]));
+  const zeroCoefficients = saved.zero_part?.coefficients ?? [];
+  const gamma = Float64Array.from(zeroCoefficients, (c) => c.estimate);
+  const zpos = Int32Array.from(zeroCoefficients, (c) => zeroIndex.get(c.term) ?? -1);
   const beta = new Float64Array(p);
   const pos = new Int32Array(p).fill(-1);
   // A level with no events: its estimate is −∞ (a rate of 0), but the data only say the rate is small, so its
@@ -133,15 +142,18 @@ export function prepare(pd: PredictionDesign, saved: ModelFile, o: PredictOption
       dev[d * q + r] = s;
     }
   }
-  const alpha = saved.family === "negbin" ? (saved.alpha ?? 0) : 0;
+  const alpha = typeof saved.alpha === "number" ? saved.alpha : 0;
   const alphas = new Float64Array(D).fill(alpha);
-  if (alpha > 0 && saved.alpha_std_error) {
+  if (alpha > 0 && saved.covariance.log_alpha) {
+    // Drawn jointly with the coefficients: log alpha is the covariance's last row.
+    for (let d = 0; d < D; d++) alphas[d] = alpha * Math.exp(dev[d * q + q - 1]);
+  } else if (alpha > 0 && saved.alpha_std_error) {
     const sd = saved.alpha_std_error / alpha; // log alpha ~ N(log alpha-hat, (se/alpha)²)
     for (let d = 0; d < D; d++) alphas[d] = alpha * Math.exp(sd * gen());
   }
   const zq = normalQuantile(1 - (1 - o.level) / 2);
   const quasi = saved.family === "quasipoisson";
-  return { beta, pos, upper, v, q, dev, alphas, alpha, phi, zq, quasi };
+  return { beta, pos, upper, v, q, dev, alphas, alpha, phi, zq, quasi, gamma, zpos };
 }
 
 /**
@@ -263,18 +275,27 @@ export function predictRange(
   return rows;
 }
 
-/** Predict every new row on this thread. */
-export function predictRows(pd: PredictionDesign, saved: ModelFile, o: PredictOptions): PredictResult {
-  return predictResult(saved, o, predictRange(pd, saved, o, 0, pd.n));
+/** How the predictions of an excess-zero family are made. */
+function zeroMethod(saved: ModelFile, o: PredictOptions): string {
+  const hurdle = saved.zero_part?.probability_of === "non_zero_count";
+  const count = saved.alpha !== null ? "NB2" : "Poisson";
+  const parts = saved.zero_part?.boundary ? "the count part's coefficients" : "both parts' coefficients";
+  const drawn = saved.covariance.log_alpha ? `${parts} and log alpha` : parts;
+  const tail = +((1 - o.level) / 2).toPrecision(6);
+  return (
+    `expected count ${hurdle ? "p·λ/(1 − f(0))" : "(1 − π)·λ"} at the estimates; mean interval: the ${tail} and ${+(1 - tail).toPrecision(6)} quantiles of that mean over the draws; ` +
+    `prediction interval and tail probability: the ${hurdle ? "hurdle" : "zero-inflated"} ${count} distribution mixed over ${o.draws} joint draws of ${drawn} from their asymptotic normal distribution (${saved.covariance.type ?? "model"} covariance; seed ${o.seed}); flagged when the observed count is above the ${o.flagLevel} quantile`
+  );
 }
 
 /** The result record around the rows' predictions. */
 export function predictResult(saved: ModelFile, o: PredictOptions, rows: PredictedRow[]): PredictResult {
   const D = o.draws;
   const alpha = saved.family === "negbin" ? (saved.alpha ?? 0) : 0;
-  const method =
-    `mean interval: delta method on the log scale (Wald ${o.level}); prediction interval and tail probability: the ${saved.family === "negbin" ? "negative-binomial" : saved.family === "quasipoisson" ? "negative binomial with variance phi·mu" : "Poisson"} ` +
-    `distribution mixed over ${D} draws of the coefficients${alpha > 0 ? " and log alpha" : ""} from their asymptotic normal distribution (seed ${o.seed}); flagged when the observed count is above the ${o.flagLevel} quantile`;
+  const method = saved.zero_part
+    ? zeroMethod(saved, o)
+    : `mean interval: delta method on the log scale (Wald ${o.level}); prediction interval and tail probability: the ${saved.family === "negbin" ? "negative-binomial" : saved.family === "quasipoisson" ? "negative binomial with variance phi·mu" : "Poisson"} ` +
+      `distribution mixed over ${D} draws of the coefficients${alpha > 0 ? " and log alpha" : ""} from their asymptotic normal distribution (seed ${o.seed}); flagged when the observed count is above the ${o.flagLevel} quantile`;
   return {
     schema: "tallyfit.predict/1",
     model: saved.model,

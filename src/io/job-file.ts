@@ -14,7 +14,9 @@ export interface JobFile {
   exposure?: string;
   offset?: string;
   weights?: string;
-  family?: "poisson" | "negbin" | "quasipoisson" | "auto";
+  family?: "poisson" | "negbin" | "quasipoisson" | "zip" | "zinb" | "hurdle-poisson" | "hurdle-negbin" | "auto";
+  /** The zero part's terms of a zero-inflated or hurdle family. */
+  zero_terms?: string;
   design?: {
     factor?: string[];
     ref?: Record<string, string>;
@@ -37,7 +39,7 @@ export interface JobFile {
   };
   check?: {
     run?: boolean;
-    family?: "poisson" | "negbin" | "quasipoisson";
+    family?: "poisson" | "negbin" | "quasipoisson" | "zip" | "zinb" | "hurdle-poisson" | "hurdle-negbin";
     cluster?: string;
     order_by?: string;
     alpha?: number;

@@ -10,7 +10,7 @@ export interface ModelFile {
   schema: "tallyfit.model/1";
   tool: { name: "tallyfit"; version: string };
   data: { source: string; sha256: string; n_rows: number; n_used: number };
-  family: "poisson" | "negbin" | "quasipoisson";
+  family: "poisson" | "negbin" | "quasipoisson" | "zip" | "zinb" | "hurdle-poisson" | "hurdle-negbin";
   link: "log";
   model: string;
   response: string;
@@ -35,13 +35,23 @@ export interface ModelFile {
     upper_limit?: number | null;
     upper_limit_level?: number;
   }[];
-  /** Model-based covariance (inverse Fisher information) of the estimated coefficients, original scale. */
+  /**
+   * Covariance of the estimated coefficients, original scale: the inverse Fisher information (plain families),
+   * the inverse observed information (excess-zero families), or a robust one (type). For the excess-zero
+   * families it is joint: the count part's terms, then the zero part's (zero_terms), then log alpha.
+   */
   covariance: {
     terms: string[];
+    /** Excess-zero families: the zero part's estimated terms, drawn with the count part (none at its boundary). */
+    zero_terms?: string[];
+    /** Excess-zero NB2 forms: the last row and column are log alpha (false at alpha's boundary). */
+    log_alpha?: boolean;
     matrix: number[][];
     /** Absent or "model": the inverse Fisher information; otherwise a cluster-robust covariance (already final). */
     type?:
       | "model"
+      | "observed-information"
+      | "robust-HC0"
       | "cluster-CR1"
       | "two-way-cluster-CR1"
       | "gee-independence-CR1"
@@ -53,6 +63,8 @@ export interface ModelFile {
   dispersion_phi: number;
   alpha: number | null;
   alpha_std_error: number | null;
+  /** Excess-zero families: the zero part, a logit model of a structural zero (zip, zinb) or of a non-zero count (hurdle). */
+  zero_part?: ZeroPartFile;
   /** Calendar terms made from a date column (--date): predict makes them the same way for new rows. */
   calendar?: {
     column: string;
@@ -64,6 +76,40 @@ export interface ModelFile {
     day_of_week: boolean;
   };
 }
+
+export interface ZeroPartFile {
+  probability_of: "structural_zero" | "non_zero_count";
+  model: string;
+  intercept: boolean;
+  terms: string[][];
+  factors: { name: string; levels: string[]; reference: string }[];
+  numeric: string[];
+  coefficients: { term: string; status: "estimated"; estimate: number }[];
+  /** No excess zeros (π → 0): the zero part is held at its estimates, which give π ≈ 0, and not drawn. */
+  boundary: boolean;
+}
+
+/** The zero part as a model of its own (its terms over the same rows, without exposure), to build its design. */
+export function zeroPartModel(saved: ModelFile): ModelFile | null {
+  const z = saved.zero_part;
+  if (!z) return null;
+  return {
+    ...saved,
+    family: "poisson",
+    model: z.model,
+    intercept: z.intercept,
+    terms: z.terms,
+    factors: z.factors,
+    numeric: z.numeric,
+    coefficients: z.coefficients,
+    exposure: null,
+    offset: null,
+    zero_part: undefined,
+    calendar: undefined,
+  };
+}
+
+export const ZERO_FAMILY_NAMES = ["zip", "zinb", "hurdle-poisson", "hurdle-negbin"] as const;
 
 export const MODEL_FILE_SCHEMA = "tallyfit.model/1";
 
@@ -116,15 +162,30 @@ function consistencyFault(m: ModelFile): string | null {
   for (const c of estimated)
     if (typeof c.estimate !== "number" || !Number.isFinite(c.estimate))
       return `/coefficients: '${c.term}' is estimated but its estimate is not a number`;
-  const q = m.covariance.terms.length;
-  if (q !== estimated.length || m.covariance.terms.some((t, k) => t !== estimated[k].term))
+  if (m.covariance.terms.length !== estimated.length || m.covariance.terms.some((t, k) => t !== estimated[k].term))
     return "/covariance/terms do not match the estimated coefficients";
+  const zeroFamily = (ZERO_FAMILY_NAMES as readonly string[]).includes(m.family);
+  if (zeroFamily !== !!m.zero_part)
+    return zeroFamily
+      ? `/zero_part is missing for the family ${m.family}`
+      : `/zero_part belongs to no ${m.family} model`;
+  const zeroTerms = m.covariance.zero_terms ?? [];
+  if (m.zero_part) {
+    const drawn = m.zero_part.boundary ? [] : m.zero_part.coefficients.map((c) => c.term);
+    if (zeroTerms.length !== drawn.length || zeroTerms.some((t, k) => t !== drawn[k]))
+      return "/covariance/zero_terms do not match the zero part's coefficients";
+    for (const c of m.zero_part.coefficients)
+      if (!Number.isFinite(c.estimate)) return `/zero_part/coefficients: '${c.term}' has no usable estimate`;
+  }
+  if (m.covariance.log_alpha && !(m.family === "zinb" || m.family === "hurdle-negbin"))
+    return "/covariance/log_alpha belongs to the NB2 forms only";
+  const q = m.covariance.terms.length + zeroTerms.length + (m.covariance.log_alpha ? 1 : 0);
   if (m.covariance.matrix.length !== q || m.covariance.matrix.some((row) => row.length !== q))
     return `/covariance/matrix is not ${q} × ${q}`;
   for (let r = 0; r < q; r++)
     if (!(m.covariance.matrix[r][r] > 0))
       return `/covariance/matrix has a variance that is not positive (row ${r + 1})`;
-  if (m.family === "negbin" && !(typeof m.alpha === "number" && m.alpha >= 0))
+  if (["negbin", "zinb", "hurdle-negbin"].includes(m.family) && !(typeof m.alpha === "number" && m.alpha >= 0))
     return "/alpha must be a number ≥ 0 for the negative binomial";
   if (!(m.dispersion_phi > 0)) return "/dispersion_phi must be positive";
   for (const f of m.factors)

@@ -20,24 +20,8 @@ export function modelFileOf(
   const fit = mf.fit;
   const est = fit.estimable;
   const q = fit.covariance.p;
-  const factorNames = new Set(design.factors.map((f) => f.name));
-  const numeric: string[] = [];
-  for (const t of design.model.terms)
-    for (const v of t.variables) if (!factorNames.has(v) && !numeric.includes(v)) numeric.push(v);
   return {
-    schema: MODEL_FILE_SCHEMA,
-    tool: { name: "tallyfit", version: meta.version },
-    data: { source: design.source, sha256: meta.sha256, n_rows: design.nRows, n_used: design.n },
-    family: mf.family,
-    link: "log",
-    model: design.model.text,
-    response: design.model.response,
-    intercept: design.model.intercept,
-    terms: design.model.terms.map((t) => [...t.variables]),
-    exposure: design.exposureName,
-    offset: design.offsetName,
-    factors: design.factors.map((f) => ({ name: f.name, levels: [...f.levels], reference: f.reference })),
-    numeric,
+    ...modelHeadOf(design, meta, mf.family),
     coefficients: design.columns.map((c, j) => {
       const st = fit.status[j];
       const status = st === "estimated" ? "estimated" : st === "no_events" ? "no_events" : "aliased";
@@ -63,17 +47,75 @@ export function modelFileOf(
     dispersion_phi: mf.family === "quasipoisson" ? quasiPhi(design, fit) : 1,
     alpha: mf.negbin ? mf.negbin.alpha : null,
     alpha_std_error: mf.negbin ? mf.negbin.alphaStdError : null,
-    ...(design.calendar
-      ? {
-          calendar: {
-            column: design.calendar.column,
-            first_date: isoDate(design.calendar.firstDay),
-            last_date: isoDate(design.calendar.lastDay),
-            trend: design.calendar.trend,
-            season: design.calendar.season,
-            day_of_week: design.calendar.dayOfWeek,
-          },
-        }
-      : {}),
+    ...calendarOf(design),
   };
+}
+
+/** The variables of a design's model: its terms, factors with levels and reference, and numeric variables. */
+export function modelVariablesOf(design: Design): Pick<ModelFile, "intercept" | "terms" | "factors" | "numeric"> {
+  const factorNames = new Set(design.factors.map((f) => f.name));
+  const numeric: string[] = [];
+  for (const t of design.model.terms)
+    for (const v of t.variables) if (!factorNames.has(v) && !numeric.includes(v)) numeric.push(v);
+  return {
+    intercept: design.model.intercept,
+    terms: design.model.terms.map((t) => [...t.variables]),
+    factors: design.factors.map((f) => ({ name: f.name, levels: [...f.levels], reference: f.reference })),
+    numeric,
+  };
+}
+
+/** What every model file starts with: the tool, the data, the family, the model and its variables (in file order). */
+export function modelHeadOf(
+  design: Design,
+  meta: { version: string; sha256: string },
+  family: ModelFile["family"],
+): Pick<
+  ModelFile,
+  | "schema"
+  | "tool"
+  | "data"
+  | "family"
+  | "link"
+  | "model"
+  | "response"
+  | "intercept"
+  | "terms"
+  | "exposure"
+  | "offset"
+  | "factors"
+  | "numeric"
+> {
+  const v = modelVariablesOf(design);
+  return {
+    schema: MODEL_FILE_SCHEMA,
+    tool: { name: "tallyfit", version: meta.version },
+    data: { source: design.source, sha256: meta.sha256, n_rows: design.nRows, n_used: design.n },
+    family,
+    link: "log",
+    model: design.model.text,
+    response: design.model.response,
+    intercept: v.intercept,
+    terms: v.terms,
+    exposure: design.exposureName,
+    offset: design.offsetName,
+    factors: v.factors,
+    numeric: v.numeric,
+  };
+}
+
+/** The calendar entry of a design made with --date (none otherwise). */
+export function calendarOf(design: Design): Pick<ModelFile, "calendar"> {
+  return design.calendar
+    ? {
+        calendar: {
+          column: design.calendar.column,
+          first_date: isoDate(design.calendar.firstDay),
+          last_date: isoDate(design.calendar.lastDay),
+          trend: design.calendar.trend,
+          season: design.calendar.season,
+          day_of_week: design.calendar.dayOfWeek,
+        },
+      }
+    : {};
 }

@@ -47,7 +47,7 @@ test("the text report names the parts; --zero-terms without a zero family and op
       [...ARGS, "--family", "zip", "--cluster", "unit", "--gee", "exchangeable"],
       /--gee does not go with the zero-inflated and hurdle families yet/,
     ],
-    [[...ARGS, "--family", "zip", "--save-model", "/tmp/x.json"], /--save-model does not go with/],
+    [[...ARGS, "--family", "zip", "--summary-by", "unit"], /--summary-by does not go with/],
     [[...ARGS.slice(0, -1), "small_unit +", "--family", "zip"], /--zero-terms:/],
   ];
   for (const [args, re] of cases) {
@@ -80,11 +80,15 @@ test("--family auto tries the excess-zero families only when the check finds mor
   assert.equal(plain.family, "negbin", "no excess zeros: a plain family");
   assert.equal(plain.zero_part, undefined);
   const dir = mkdtempSync(join(tmpdir(), "tallyfit-zero-"));
-  const blocked = JSON.parse(
-    runCli([...ARGS, "--family", "auto", "--format", "json", "--save-model", join(dir, "m.json")]).stdout,
-  );
+  const blocked = JSON.parse(runCli([...ARGS, "--family", "auto", "--format", "json", "--summary-by", "unit"]).stdout);
   assert.equal(blocked.family, "negbin");
-  assert.ok(blocked.warnings.some((w: string) => /were not tried because --save-model/.test(w)));
+  assert.ok(blocked.warnings.some((w: string) => /were not tried because --summary-by/.test(w)));
+  // The family auto chose is the one saved for predict.
+  const saved = runCli([...ARGS, "--family", "auto", "--format", "json", "--save-model", join(dir, "m.json")]);
+  assert.equal(saved.code, 0, saved.stderr);
+  const model = JSON.parse(readFileSync(join(dir, "m.json"), "utf8"));
+  assert.equal(model.family, "zinb");
+  assert.equal(model.zero_part.probability_of, "structural_zero");
 });
 
 test("--robust and --cluster unit: sandwich standard errors of both parts as the runner's (scores by differences, 1e-4); t on G − 1", () => {

@@ -64,6 +64,43 @@ test("run: the weekly job fits, checks and predicts; every output validates agai
   assert.equal(read("run.json").exit_code, 4);
 });
 
+test("run with an excess-zero family: zero_terms reach fit and check, and predict uses the saved zinb model", () => {
+  const dir = mkdtempSync(join(tmpdir(), "tallyfit-run-"));
+  const job = join(dir, "wards.yaml");
+  writeFileSync(
+    job,
+    `schema: tallyfit.job/1
+data: ${EX}/ward_reports.csv
+model: falls ~ ward_type
+exposure: bed_days
+family: zinb
+zero_terms: small_unit
+fit:
+  intervals: wald
+predict:
+  data: ${EX}/ward_reports.csv
+  flag_by: [ward_type]
+  draws: 100
+  fail_on_flag: none
+outputs:
+  dir: ${join(dir, "out")}
+  report: json
+  predictions: json
+`,
+  );
+  const r = runCli(["run", job]);
+  assert.equal(r.code, 0, r.stderr);
+  const read = (f: string) => JSON.parse(readFileSync(join(dir, "out", f), "utf8"));
+  assert.equal(read("fit.json").family, "zinb");
+  assert.equal(read("fit.json").zero_part.terms, "small_unit");
+  assert.equal(read("check.json").check.family_checked, "zinb");
+  assert.equal(read("model.json").zero_part.model, "falls ~ small_unit");
+  const predictions = read("predictions.json");
+  assert.ok(schema("predict")(predictions));
+  assert.equal(predictions.family, "zinb");
+  assert.equal(predictions.groups.length, 4);
+});
+
 test("a failed run leaves the earlier outputs as they were; a JSON job works like YAML", () => {
   const dir = mkdtempSync(join(tmpdir(), "tallyfit-run-"));
   const out = join(dir, "out");

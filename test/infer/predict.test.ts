@@ -8,7 +8,7 @@ import { buildDesign } from "../../src/design/design.js";
 import { buildPredictionDesign } from "../../src/design/predict-design.js";
 import { fitCounts, type FamilyName } from "../../src/fit/count-fit.js";
 import { garwoodInterval } from "../../src/infer/garwood.js";
-import { predictRows } from "../../src/infer/predict.js";
+import { predictRows } from "../../src/infer/predict-range.js";
 import { parseModelFile } from "../../src/io/model-file.js";
 import { parseTable } from "../../src/io/csv.js";
 import { parseFormula } from "../../src/formula/formula.js";

@@ -1,6 +1,6 @@
 // tallyfit fit --family zip|zinb|hurdle-poisson|hurdle-negbin: the count part
 // and the zero part (--zero-terms) fitted together by maximum likelihood.
-import { analyzeZeroFit } from "../../analysis/zero-fit.js";
+import { analyzeZeroFit, type ZeroAnalysis } from "../../analysis/zero-fit.js";
 import { type Clustering, clusteringOf } from "../../design/clusters.js";
 import type { Design } from "../../design/design.js";
 import { EXIT, InputError } from "../../errors.js";
@@ -16,6 +16,9 @@ import { RunOutputs } from "../run-outputs.js";
 import type { FitCliOptions } from "./fit-options.js";
 import type { FitSummary } from "../../infer/summary.js";
 import { ZERO_FAMILIES } from "../../fit/zero-likelihood.js";
+import type { ModelFile } from "../../io/model-file.js";
+import { type ZeroCovarianceKind, zeroModelFileOf } from "../../report/zero-model-file.js";
+import { VERSION } from "../version.js";
 
 /** The zero part's terms (--zero-terms; an intercept by default). */
 export function zeroTermsOf(opts: FitCliOptions): string {
@@ -45,7 +48,7 @@ export function autoZeroFit(
   /** The count and zero designs on the same rows (loaded with the plain fit's), or null when an option blocks the zero families. */
   designs: [Design, Design] | null,
   clusters: Clustering[],
-): { summary: FitSummary; note: null } | { summary: null; note: string } | null {
+): { summary: FitSummary; analysis: ZeroAnalysis; note: null } | { summary: null; note: string } | null {
   if (!plain.excessZeros) return null;
   if (!designs)
     return {
@@ -55,11 +58,12 @@ export function autoZeroFit(
   const zeroTerms = zeroTermsOf(opts);
   // The covariance asked for (--robust, --cluster) goes with the zero families too; the AIC does not depend on it.
   const covariance = { robust: !!opts.robust, clusters };
-  const tried: { family: ZeroFamily; aic: number; summary: FitSummary }[] = [];
+  const tried: { family: ZeroFamily; aic: number; summary: FitSummary; analysis: ZeroAnalysis }[] = [];
   for (const family of ZERO_FAMILIES)
     try {
-      const { summary } = analyzeZeroFit(designs[0], designs[1], family, { level, zeroTerms, ...covariance });
-      if (summary.converged) tried.push({ family, aic: summary.aic, summary });
+      const analysis = analyzeZeroFit(designs[0], designs[1], family, { level, zeroTerms, ...covariance });
+      if (analysis.summary.converged)
+        tried.push({ family, aic: analysis.summary.aic, summary: analysis.summary, analysis });
     } catch {
       // A family that cannot be fitted here is not a candidate.
     }
@@ -75,7 +79,7 @@ export function autoZeroFit(
     used: best.family,
     reason: `${plain.reason}; the check also found more zeros than either plain model expects, so the zero-inflated and hurdle families were fitted (zero part ~ ${zeroTerms}) and ${best.family} has the smallest AIC (${listed}; ${plain.family} ${plain.aic.toFixed(1)})`,
   };
-  return { summary: best.summary, note: null };
+  return { summary: best.summary, analysis: best.analysis, note: null };
 }
 
 export function zeroModelOf(opts: FitCliOptions, zeroTerms: string): string {
@@ -100,7 +104,6 @@ function refuseUnsupported(opts: FitCliOptions): void {
     "--intervals profile|both with --robust or --cluster",
     "profile limits come from the likelihood, which treats rows as independent; with a sandwich the limits are Wald",
   );
-  not(!!opts.saveModel, "--save-model", "predict does not take these families yet");
   not(!!opts.summaryBy, "--summary-by", "the group table follows in a later version");
   not(!!opts.plot, "--plot", "the picture follows in a later version");
   not(!!opts.date, "--date", "calendar terms follow in a later version");
@@ -114,6 +117,7 @@ export async function runZeroFit(file: string | undefined, opts: FitCliOptions, 
   const zeroTerms = zeroTermsOf(opts);
   const outputs = new RunOutputs([file ?? "-"]);
   if (opts.output) outputs.claim(opts.output, "--output");
+  if (opts.saveModel) outputs.claim(opts.saveModel, "--save-model");
   // Both parts on the same rows: the rows complete for the count terms and the zero terms.
   const zeroModel = zeroModelOf(opts, zeroTerms);
   try {
@@ -122,7 +126,7 @@ export async function runZeroFit(file: string | undefined, opts: FitCliOptions, 
     if (e instanceof InputError) throw new InputError(e.message.replace(/^--model:/, "--zero-terms:"));
     throw e;
   }
-  const { designs, labels } = await loadDesigns(
+  const { designs, labels, sha256 } = await loadDesigns(
     file,
     opts,
     [opts.model[0], zeroModel],
@@ -131,7 +135,7 @@ export async function runZeroFit(file: string | undefined, opts: FitCliOptions, 
   const control = { maxIter: Number(opts.maxIter) };
   if (opts.cluster.length > 2) throw new InputError("--cluster is given once (one-way) or twice (two-way clustering).");
   const clusters = opts.cluster.map((c) => clusteringOf(c, labels.get(c)!));
-  const { summary } = analyzeZeroFit(designs[0], designs[1], family, {
+  const analysis = analyzeZeroFit(designs[0], designs[1], family, {
     level,
     zeroTerms,
     control,
@@ -139,7 +143,31 @@ export async function runZeroFit(file: string | undefined, opts: FitCliOptions, 
     clusters,
     profiles: (opts.intervals ?? "both") !== "wald",
   });
+  const { summary } = analysis;
+  if (opts.saveModel)
+    outputs.add(
+      opts.saveModel,
+      "--save-model",
+      renderJson(saveZeroModel([designs[0], designs[1]], analysis, opts, clusters, sha256)),
+    );
   const content = renderZeroReport(summary, opts);
   await finish(outputs, opts, content);
   return EXIT.ok;
+}
+
+/** The model file of an excess-zero fit, with the covariance its report used. */
+export function saveZeroModel(
+  designs: [Design, Design],
+  analysis: ZeroAnalysis,
+  opts: FitCliOptions,
+  clusters: Clustering[],
+  sha256: string,
+): ModelFile {
+  const kind: ZeroCovarianceKind = clusters.length
+    ? {
+        type: clusters.length === 2 ? "two-way-cluster-CR1" : "cluster-CR1",
+        clusters: clusters.map((c) => ({ column: c.column, count: c.count })),
+      }
+    : { type: opts.robust ? "robust-HC0" : "observed-information" };
+  return zeroModelFileOf(designs[0], designs[1], analysis.fit, analysis.columns, { version: VERSION, sha256 }, kind);
 }

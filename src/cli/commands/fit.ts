@@ -1,5 +1,4 @@
 // tallyfit fit: one model, its report, and optionally the model file and picture.
-import { readFileSync } from "node:fs";
 import { analyzeFitParallel, diagnosticsOf, noEventsUpperLimits } from "../../analysis/fit.js";
 import { naturalCompare } from "../../design/naming.js";
 import { EXIT, InputError } from "../../errors.js";
@@ -8,7 +7,15 @@ import { summarizeGroups } from "../../infer/groups.js";
 import { clusteringOf, orderKeyOf } from "../../design/clusters.js";
 import { WORKING_CORRELATIONS } from "../../fit/working-correlation.js";
 import { ZERO_FAMILIES, type ZeroFamily } from "../../fit/zero-likelihood.js";
-import { autoZeroFit, renderZeroReport, runZeroFit, unsupportedOption, zeroModelOf, zeroTermsOf } from "./fit-zero.js";
+import {
+  autoZeroFit,
+  renderZeroReport,
+  runZeroFit,
+  saveZeroModel,
+  unsupportedOption,
+  zeroModelOf,
+  zeroTermsOf,
+} from "./fit-zero.js";
 import type { FitCliOptions } from "./fit-options.js";
 import type { CountSpread } from "../../infer/ratio-limits.js";
 import type { FitSummary } from "../../infer/summary.js";
@@ -25,7 +32,7 @@ import { RunOutputs } from "../run-outputs.js";
 import { clearProgressLine, fittingProgress, progressOnTerminal } from "../terminal.js";
 import { mergeChoice } from "./shared.js";
 
-const VERSION: string = JSON.parse(readFileSync(new URL("../../../../package.json", import.meta.url), "utf8")).version;
+import { VERSION } from "../version.js";
 
 export type { FitCliOptions } from "./fit-options.js";
 
@@ -170,6 +177,12 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
       if (!["text", "json"].includes(opts.format))
         throw new InputError(
           `--family auto chose ${zero.summary.family}, whose report is text or json; give --format text or json.`,
+        );
+      if (opts.saveModel)
+        outputs.add(
+          opts.saveModel,
+          "--save-model",
+          renderJson(saveZeroModel([designs[0], designs[1]], zero.analysis, opts, clusters, sha256)),
         );
       await finish(outputs, opts, renderZeroReport(zero.summary, opts));
       return EXIT.ok;

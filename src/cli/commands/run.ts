@@ -7,6 +7,7 @@
 import { mkdirSync, mkdtempSync, readdirSync, renameSync, rmSync, writeFileSync } from "node:fs";
 import { dirname, join, resolve } from "node:path";
 import { EXIT, FitError, InputError } from "../../errors.js";
+import { ZERO_FAMILIES } from "../../fit/zero-likelihood.js";
 import { type JobFile, loadJobFile } from "../../io/job-file.js";
 
 /** Runs one command line (argv after the program name) in this process and returns its exit code. */
@@ -61,6 +62,7 @@ export function jobSteps(job: JobFile, jobPath: string, stage: string): Step[] {
     join(stage, "model.json"),
     "--quiet",
   ];
+  if (job.zero_terms) fitArgs.push("--zero-terms", job.zero_terms);
   if (f.level !== undefined) fitArgs.push("--level", String(f.level));
   if (f.intervals) fitArgs.push("--intervals", f.intervals);
   if (f.robust) fitArgs.push("--robust");
@@ -86,6 +88,8 @@ export function jobSteps(job: JobFile, jobPath: string, stage: string): Step[] {
       join(stage, checkOut),
       "--quiet",
     ];
+    if (job.zero_terms && (ZERO_FAMILIES as readonly string[]).includes(checked))
+      args.push("--zero-terms", job.zero_terms);
     if (c.cluster) args.push("--cluster", c.cluster);
     if (c.order_by) args.push("--order-by", c.order_by);
     if (c.alpha !== undefined) args.push("--alpha", String(c.alpha));
