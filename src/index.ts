@@ -66,7 +66,10 @@ export { rootogram, quantileResiduals, type Rootogram } from "./infer/diagnostic
 // Report: text, JSON, CSV, Markdown, pictures and the model file.
 export { renderFitText, CAUTION } from "./report/fit-text.js";
 export { renderFitCsv } from "./report/fit-csv.js";
-export { renderFitMarkdown } from "./report/fit-markdown.js";
+export { checkPage, comparePage, fitPage, predictPage, type PageFormat } from "./report/pages.js";
+export { HtmlSink, escapeHtml } from "./report/html-sink.js";
+export { MarkdownSink, escapeMarkdown } from "./report/markdown-sink.js";
+export { TextSink, type ReportSink } from "./report/sink.js";
 export { renderJson } from "./report/json.js";
 export { renderCheckText } from "./report/check-text.js";
 export { renderCompareText } from "./report/compare-text.js";

@@ -1,5 +1,6 @@
 // Where a run's results go: files all or nothing (run-outputs.ts), the report
 // to stdout otherwise, with a failed stdout remembered for the exit code.
+import { dirname, relative, resolve } from "node:path";
 import type { Diagnostics } from "../analysis/fit.js";
 import type { FitSummary } from "../infer/summary.js";
 import { svgToPng } from "../report/png.js";
@@ -60,6 +61,17 @@ export async function finish(
 
 /** The diagnostic page as SVG or PNG (by the file name), queued with the run's outputs. */
 export function addPlot(outputs: RunOutputs, path: string, title: string, d: Diagnostics, summary: FitSummary): void {
-  const svg = renderSvg({ title, rootogram: d.rootogram, fitted: d.fitted, residuals: d.residuals, summary });
+  const svg = plotSvg(title, d, summary);
   outputs.add(path, "--plot", plotKind(path) === "svg" ? svg : svgToPng(svg));
+}
+
+/** The diagnostic page (rootogram, residuals, forest plot) as SVG. */
+export function plotSvg(title: string, d: Diagnostics, summary: FitSummary): string {
+  return renderSvg({ title, rootogram: d.rootogram, fitted: d.fitted, residuals: d.residuals, summary });
+}
+
+/** How a Markdown report refers to the --plot file: relative to the report's directory (--output), else as given. */
+export function plotReference(opts: { output?: string; plot?: string }): string | undefined {
+  if (!opts.plot) return undefined;
+  return opts.output ? relative(dirname(resolve(opts.output)), resolve(opts.plot)) || opts.plot : opts.plot;
 }

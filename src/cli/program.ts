@@ -70,8 +70,12 @@ export function buildProgram(onResult: (code: number) => void): Command {
     .configureOutput({ writeErr: (s) => process.stderr.write(s), writeOut: (s) => process.stdout.write(s) })
     .showHelpAfterError("(run tallyfit --help for the commands and options)");
 
-  const fit = fittingCommand(program, "fit", "fit one model and print the report", "text, json, csv or markdown", (c) =>
-    addPlotOption(addIntervalOptions(c)),
+  const fit = fittingCommand(
+    program,
+    "fit",
+    "fit one model and print the report",
+    "text, json, csv, markdown or html (one self-contained page)",
+    (c) => addPlotOption(addIntervalOptions(c)),
   )
     .option("--alpha <p>", "test level of the dispersion check used by --family auto", "0.05")
     .option("--save-model <file>", "write everything predict needs to FILE (JSON, schema tallyfit.model/1)")
@@ -128,16 +132,18 @@ export function buildProgram(onResult: (code: number) => void): Command {
     )
     .option("--summary-by <col>", "observed and expected totals by group (text and JSON output)")
     .option("--per <n>", "units of exposure for the crude rates of --summary-by", "1");
-  addTerminalOptions(addReadOptions(addOutputOptions(predict, "csv, json or text", "csv", "the results"))).action(
-    async (file: string | undefined, opts: PredictCliOptions) => onResult(await runPredict(file, opts)),
-  );
+  addTerminalOptions(
+    addReadOptions(
+      addOutputOptions(predict, "csv, json, text, markdown or html (one self-contained page)", "csv", "the results"),
+    ),
+  ).action(async (file: string | undefined, opts: PredictCliOptions) => onResult(await runPredict(file, opts)));
   withExamples(predict, EXAMPLES.predict);
 
   const check = fittingCommand(
     program,
     "check",
     "dispersion and zero-count diagnostics of the Poisson model, or with --family negbin|quasipoisson the adequacy of that model; exit code 4 when a test flags",
-    "text or json",
+    "text, json, markdown or html (one self-contained page)",
     (c) =>
       addClusterOption(
         addPlotOption(c),
@@ -157,7 +163,7 @@ export function buildProgram(onResult: (code: number) => void): Command {
     program,
     "compare",
     "nested-model tests and information criteria for two or more models on the same rows",
-    "text or json",
+    "text, json, markdown or html (one self-contained page)",
     (c) =>
       addClusterOption(
         c,

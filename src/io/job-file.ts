@@ -57,7 +57,11 @@ export interface JobFile {
     seed?: number;
     fail_on_flag?: "rows" | "groups" | "any" | "none";
   };
-  outputs: { dir: string; report?: "text" | "json" | "markdown"; predictions?: "csv" | "json" | "text" };
+  outputs: {
+    dir: string;
+    report?: "text" | "json" | "markdown" | "html";
+    predictions?: "csv" | "json" | "text" | "markdown" | "html";
+  };
 }
 
 export const JOB_FILE_SCHEMA = "tallyfit.job/1";

@@ -1,23 +1,27 @@
-// The text report of `tallyfit check`.
+// The report of `tallyfit check`, written to any sink (text, Markdown, HTML).
 import type { CheckResult } from "../infer/check.js";
-import { closingBlock } from "./fit-text.js";
-import { fixed, pValue, table, wrap } from "./format.js";
+import { closing } from "./fit-text.js";
+import { fixed, pValue } from "./format.js";
+import { type ReportSink, TextSink } from "./sink.js";
 import type { Style } from "./style.js";
 
 export function renderCheckText(r: CheckResult, o: { style: Style; width: number }): string {
-  const st = o.style;
-  const out: string[] = [];
-  out.push(
-    st.heading(
-      r.family_checked && r.family_checked !== "poisson"
-        ? `Adequacy check of the ${r.family_checked === "negbin" ? "negative-binomial" : "quasi-Poisson"} model${r.dependence ? ", with dependence" : ""}`
-        : `Dispersion${r.dependence ? ", zero-count and dependence" : " and zero-count"} check of the Poisson model`,
-    ),
+  const k = new TextSink(o.style, o.width);
+  writeCheck(r, k);
+  return k.done();
+}
+
+export function writeCheck(r: CheckResult, k: ReportSink, picture?: { svg: string; file?: string }): void {
+  const st = k.style;
+  k.heading(
+    r.family_checked && r.family_checked !== "poisson"
+      ? `Adequacy check of the ${r.family_checked === "negbin" ? "negative-binomial" : "quasi-Poisson"} model${r.dependence ? ", with dependence" : ""}`
+      : `Dispersion${r.dependence ? ", zero-count and dependence" : " and zero-count"} check of the Poisson model`,
   );
-  out.push(`  data    ${r.source}: ${fixed(r.n_used, 0)} rows used`);
-  out.push(`  model   ${r.model}${r.exposure ? `, exposure ${r.exposure}` : ""}`);
-  out.push(`  level   each test flags at p < ${r.test_level}`);
-  out.push("");
+  k.header("data", `${r.source}: ${fixed(r.n_used, 0)} rows used`);
+  k.header("model", `${r.model}${r.exposure ? `, exposure ${r.exposure}` : ""}`);
+  k.header("level", `each test flags at p < ${r.test_level}`);
+  k.blank();
   const rows: string[][] = [["test", "statistic", "df", "p-value", "flag", "reference"]];
   for (const t of r.tests)
     rows.push([
@@ -28,23 +32,26 @@ export function renderCheckText(r: CheckResult, o: { style: Style; width: number
       t.flagged ? st.caution("FLAG") : "ok",
       t.reference,
     ]);
-  out.push(...table(rows, ["l", "r", "r", "r", "l", "l"]));
-  out.push("");
-  out.push(st.heading("Readings"));
-  for (const t of r.tests) out.push(...wrap(`${t.label}: ${t.reading}.`, o.width - 2, "    ").map((l) => `  ${l}`));
-  out.push("");
+  k.table(rows, ["l", "r", "r", "r", "l", "l"]);
+  k.blank();
+  k.heading("Readings");
+  for (const t of r.tests) k.para(`${t.label}: ${t.reading}.`, 2, 4);
+  k.blank();
   const paint =
     (r.verdict.code === "poisson_adequate" || r.verdict.code === "model_adequate") && !r.flagged ? st.good : st.caution;
-  out.push(st.heading("Verdict"));
-  out.push(...wrap(paint(r.verdict.text), o.width - 2, "  ").map((l) => `  ${l}`));
-  out.push(...wrap(`Next: ${r.verdict.next_step}`, o.width - 2, "  ").map((l) => `  ${l}`));
-  out.push("");
-  out.push(
-    ...closingBlock(
-      r.warnings.filter((w) => !/left out$/.test(w)),
-      st,
-      o.width,
-    ),
+  k.heading("Verdict");
+  k.para(paint(r.verdict.text));
+  k.para(`Next: ${r.verdict.next_step}`);
+  k.blank();
+  if (picture)
+    k.picture(
+      picture.svg,
+      "Diagnostic pictures of the checked model",
+      "A hanging rootogram of observed against expected count frequencies, randomized quantile residuals against fitted means and against normal quantiles, and the rate ratios with their intervals.",
+      picture.file,
+    );
+  closing(
+    r.warnings.filter((w) => !/left out$/.test(w)),
+    k,
   );
-  return `${out.join("\n")}\n`;
 }

@@ -1,7 +1,8 @@
 // The text report of one fitted model, in tallyfit's own layout:
 // rate ratios first, then the coefficients, fit figures, dispersion, warnings.
 import type { CoefficientRow, FitSummary } from "../infer/summary.js";
-import { fixed, groupTable, interval, pEquals, pValue, profileInterval, sig, table, wrap } from "./format.js";
+import { fixed, groupRows, interval, pEquals, pValue, profileInterval, sig } from "./format.js";
+import { type Align, type ReportSink, TextSink } from "./sink.js";
 import type { Style } from "./style.js";
 import type { Rootogram } from "../infer/diagnostics.js";
 import { textRootogram } from "./text-rootogram.js";
@@ -42,11 +43,6 @@ function droppedText(s: FitSummary): string {
   return parts.length ? `, ${s.n_dropped} left out (${parts.join("; ")})` : "";
 }
 
-/** A header line "  label   text", the text wrapped under itself. */
-function labelled(label: string, text: string, width: number): string[] {
-  return wrap(text, width - 10).map((l, k) => `  ${(k === 0 ? label : "").padEnd(8)}${l}`);
-}
-
 /** Where IRLS ran over merged covariate patterns, say so: the figures are still per row. */
 function mergedText(s: FitSummary): string {
   const m = s.merged_patterns;
@@ -63,13 +59,13 @@ function groupHeading(rows: CoefficientRow[]): string {
 }
 
 /** Rows of exp(estimate) with intervals and p-values, grouped by term under a heading that names the reference. */
-export function estimateTable(
+export function estimateRows(
   members: CoefficientRow[],
   valueHeader: string,
   lv: string,
   showW: boolean,
   showP: boolean,
-): string[] {
+): [string[][], Align[]] {
   const head = ["term", valueHeader];
   if (showW) head.push(`Wald ${lv}`);
   if (showP) head.push(`profile ${lv}`);
@@ -80,7 +76,7 @@ export function estimateTable(
   for (const g of groups) {
     const inGroup = members.filter((c) => c.term_group === g);
     const h = groupHeading(inGroup);
-    if (h) rows.push([h, "", ...(showW ? [""] : []), ...(showP ? [""] : []), ""]);
+    if (h) rows.push([h]);
     for (const c of inGroup) {
       const label = (h ? "  " : "") + c.term + (c.per_units !== undefined ? ` (per ${c.per_units})` : "");
       if (c.status === "aliased") {
@@ -107,37 +103,45 @@ export function estimateTable(
       ]);
     }
   }
-  const align: ("l" | "r")[] = ["l", "r", ...(showW ? ["r" as const] : []), ...(showP ? ["r" as const] : []), "r"];
-  return table(rows, align);
+  const align: Align[] = ["l", "r", ...(showW ? ["r" as const] : []), ...(showP ? ["r" as const] : []), "r"];
+  return [rows, align];
 }
 
 /** The header's "family" line of --family auto (none when the family was given). */
-export function familyChoiceLines(s: FitSummary, width: number): string[] {
-  if (!s.family_choice) return [];
-  return labelled(
-    "family",
-    `${s.family_choice.used} (--family ${s.family_choice.requested}): ${s.family_choice.reason}`,
-    width,
-  );
+export function familyChoice(s: FitSummary, k: ReportSink): void {
+  if (s.family_choice)
+    k.header(
+      "family",
+      `${s.family_choice.used} (--family ${s.family_choice.requested}): ${s.family_choice.reason}`,
+      true,
+    );
 }
 
 export function renderFitText(s: FitSummary, o: TextOptions): string {
-  const out: string[] = [];
-  const st = o.style;
+  const k = new TextSink(o.style, o.width);
+  writeFit(s, k, o);
+  return k.done();
+}
+
+/** The fit report, written to any sink (text, Markdown, HTML). */
+export function writeFit(
+  s: FitSummary,
+  k: ReportSink,
+  o: { intervals: "wald" | "profile" | "both"; rootogram?: Rootogram; picture?: { svg: string; file?: string } },
+): void {
+  const st = k.style;
   const lv = pct(s.level);
   const exposureText = s.exposure ? `, exposure ${s.exposure} (log offset)` : s.offset ? `, offset ${s.offset}` : "";
-  out.push(st.heading(`${FAMILY_TITLE[s.family]} rate model for ${s.response}, log link${exposureText}`));
-  out.push(`  data    ${s.source}: ${fixed(s.n_rows, 0)} rows, ${fixed(s.n_used, 0)} used${droppedText(s)}`);
-  out.push(`  model   ${s.model}${s.weights ? `   (frequency weights: ${s.weights})` : ""}`);
-  out.push(
-    ...labelled(
-      "fit",
-      `${s.converged ? "converged" : st.bad("did NOT converge")} after ${s.iterations} ${s.family === "negbin" && s.negbin && !s.negbin.boundary ? "rounds of IRLS alternating with a Newton step for alpha" : `IRLS iteration${s.iterations === 1 ? "" : "s"}`}${mergedText(s)}`,
-      o.width,
-    ),
+  k.heading(`${FAMILY_TITLE[s.family]} rate model for ${s.response}, log link${exposureText}`);
+  k.header("data", `${s.source}: ${fixed(s.n_rows, 0)} rows, ${fixed(s.n_used, 0)} used${droppedText(s)}`);
+  k.header("model", `${s.model}${s.weights ? `   (frequency weights: ${s.weights})` : ""}`);
+  k.header(
+    "fit",
+    `${s.converged ? "converged" : st.bad("did NOT converge")} after ${s.iterations} ${s.family === "negbin" && s.negbin && !s.negbin.boundary ? "rounds of IRLS alternating with a Newton step for alpha" : `IRLS iteration${s.iterations === 1 ? "" : "s"}`}${mergedText(s)}`,
+    true,
   );
-  out.push(...familyChoiceLines(s, o.width));
-  out.push("");
+  familyChoice(s, k);
+  k.blank();
 
   // Rates (the levels that take the intercept's place in a model without one), then rate ratios, grouped by term.
   const showW = o.intervals !== "profile";
@@ -147,23 +151,19 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
   const ratios = nonIntercept.filter((c) => c.measure !== "rate");
   if (rates.length) {
     const per = s.exposure ? `per unit of ${s.exposure}` : s.offset ? "per unit of exp(offset)" : "per row";
-    out.push(st.heading(`Rates ${per} with ${lv} intervals (no intercept: each level is a rate, not a ratio)`));
-    out.push(...estimateTable(rates, "rate", lv, showW, showP));
-    out.push("");
+    k.heading(`Rates ${per} with ${lv} intervals (no intercept: each level is a rate, not a ratio)`);
+    k.table(...estimateRows(rates, "rate", lv, showW, showP));
+    k.blank();
   }
-  if (ratios.length || !rates.length) out.push(st.heading(`Rate ratios with ${lv} intervals`));
-  if (nonIntercept.length === 0) out.push("  (the model has no terms besides the intercept)");
+  if (ratios.length || !rates.length) k.heading(`Rate ratios with ${lv} intervals`);
+  if (nonIntercept.length === 0) k.para("(the model has no terms besides the intercept)");
   else if (ratios.length) {
-    out.push(...estimateTable(ratios, "rate ratio", lv, showW, showP));
+    k.table(...estimateRows(ratios, "rate ratio", lv, showW, showP));
     const numeric = nonIntercept.filter((c) => c.kind === "numeric" || c.kind === "slope");
     const scaled = numeric.filter((c) => c.per_units !== undefined);
     if (numeric.length)
-      out.push(
-        ...wrap(
-          `A numeric term's rate ratio is per one unit of that column${scaled.length ? `, except ${scaled.map((c) => `${c.term}: per ${fixed(c.per_units!, 0)} units`).join(", ")}` : ""}.`,
-          o.width - 2,
-          "  ",
-        ).map((l) => `  ${l}`),
+      k.para(
+        `A numeric term's rate ratio is per one unit of that column${scaled.length ? `, except ${scaled.map((c) => `${c.term}: per ${fixed(c.per_units!, 0)} units`).join(", ")}` : ""}.`,
       );
   }
   if (s.baseline) {
@@ -176,25 +176,24 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
       ...(seasonal.length ? ["the season terms at their means (the seasonal curve averaged over the rows used)"] : []),
     ];
     const per = s.baseline.per ? `per unit of ${s.baseline.per}` : s.offset ? "per unit of exp(offset)" : "per row";
-    out.push(
-      ...wrap(
-        `Baseline rate: ${sig(s.baseline.rate)} ${s.response} ${per}${at.length ? ` at ${at.join(", ")}` : ""} (Wald ${lv} ${interval(s.baseline.wald)}).`,
-        o.width - 2,
-        "  ",
-      ).map((l) => `  ${l}`),
+    k.para(
+      `Baseline rate: ${sig(s.baseline.rate)} ${s.response} ${per}${at.length ? ` at ${at.join(", ")}` : ""} (Wald ${lv} ${interval(s.baseline.wald)}).`,
     );
   }
-  out.push("");
+  k.blank();
 
-  if (s.seasonality) out.push(...seasonBlock(s.seasonality, lv, st), "");
-  out.push(st.heading("Coefficients on the log scale"));
+  if (s.seasonality) {
+    seasonBlock(s.seasonality, lv, k);
+    k.blank();
+  }
+  k.heading("Coefficients on the log scale");
   const crow: string[][] = [["term", "log rate ratio", "SE", s.test_distribution === "t" ? "t" : "z", "p-value"]];
   for (const c of s.coefficients) {
     if (c.status === "aliased") crow.push([c.term, "aliased", "", "", ""]);
     else if (c.status === "no_events") crow.push([c.term, "−∞", "–", "–", "–"]);
     else crow.push([c.term, fixed(c.estimate, 4), fixed(c.std_error, 4), fixed(c.z, 2), pValue(c.p_value)]);
   }
-  out.push(...table(crow, ["l", "r", "r", "r", "r"]));
+  k.table(crow, ["l", "r", "r", "r", "r"]);
   const clusterText = s.covariance
     ? `cluster-robust (CR1) standard errors over ${s.covariance.clusters.map((c) => `${fixed(c.count, 0)} ${c.column} clusters`).join(" and ")}${s.covariance.type === "two-way-cluster-CR1" ? " (two-way)" : ""}`
     : "";
@@ -208,12 +207,12 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
         : s.family === "quasipoisson"
           ? `standard errors from the inverse Fisher information times √φ (φ = ${fixed(s.dispersion.phi_used, 3)})`
           : "standard errors from the inverse Fisher information";
-  out.push(
-    `  ${seText}; ${s.test_distribution === "t" ? `t and p against Student's t on ${fixed(tDf, 0)} df` : "z and p against the standard normal"}`,
+  k.line(
+    `${seText}; ${s.test_distribution === "t" ? `t and p against Student's t on ${fixed(tDf, 0)} df` : "z and p against the standard normal"}`,
   );
-  if (s.profile_reference) out.push(`  profile limits: ${s.profile_reference}`);
-  out.push("");
-  if (s.gee) out.push(...geeBlock(s, o));
+  if (s.profile_reference) k.line(`profile limits: ${s.profile_reference}`);
+  k.blank();
+  if (s.gee) geeBlock(s, k);
 
   if (s.term_tests?.length) {
     const kind = s.term_tests[0].test;
@@ -225,7 +224,7 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
           : kind === "Wald F"
             ? "Wald F test with the cluster-robust covariance, on the clusters' df, other terms kept"
             : "likelihood-ratio test, other terms kept, same rows";
-    out.push(st.heading(`Dropping each term (${how})`));
+    k.heading(`Dropping each term (${how})`);
     const trows: string[][] = [["term", "df", kind === "F" ? "F" : kind, "p-value", ""]];
     for (const t of s.term_tests)
       trows.push([
@@ -235,10 +234,10 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
         pValue(t.p_value),
         t.note ?? "",
       ]);
-    out.push(...table(trows, ["l", "r", "r", "r", "l"]));
-    out.push("");
+    k.table(trows, ["l", "r", "r", "r", "l"]);
+    k.blank();
   }
-  out.push(st.heading("Fit"));
+  k.heading("Fit");
   const frows: string[][] = [
     ["deviance", fixed(s.deviance, 2), `on ${fixed(s.df_residual, 0)} residual df`],
     ["intercept-only deviance", fixed(s.null_deviance, 2), `on ${fixed(s.df_null, 0)} df`],
@@ -247,13 +246,13 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
     ["AIC", fixed(s.aic, 2), ""],
     ["BIC", fixed(s.bic, 2), ""],
   ];
-  out.push(...table(frows, ["l", "r", "l"]));
-  if (s.family === "negbin") out.push("  (both deviances are negative-binomial deviances at the fitted alpha)");
-  out.push("");
+  k.table(frows, ["l", "r", "l"], false);
+  if (s.family === "negbin") k.line("(both deviances are negative-binomial deviances at the fitted alpha)");
+  k.blank();
 
   if (s.negbin) {
     const nb = s.negbin;
-    out.push(st.heading("Negative-binomial dispersion (variance = mu + alpha·mu²)"));
+    k.heading("Negative-binomial dispersion (variance = mu + alpha·mu²)");
     const nrows: string[][] = [
       [
         "alpha",
@@ -271,39 +270,35 @@ export function renderFitText(s: FitSummary, o: TextOptions): string {
         "p halved: alpha = 0 is the edge of its range",
       ],
     ];
-    out.push(...table(nrows, ["l", "r", "l", "l"]));
-    if (nb.boundary)
-      out.push(
-        ...wrap(
-          st.good("alpha is 0 at the maximum: the negative binomial reduces to the Poisson here."),
-          o.width - 2,
-          "  ",
-        ).map((l) => `  ${l}`),
-      );
-    out.push("");
+    k.table(nrows, ["l", "r", "l", "l"], false);
+    if (nb.boundary) k.para(st.good("alpha is 0 at the maximum: the negative binomial reduces to the Poisson here."));
+    k.blank();
   }
-  out.push(st.heading("Dispersion"));
-  out.push(...dispersionBlock(s, o));
-  out.push("");
-  if (o.rootogram && o.width >= 60) {
-    out.push(st.heading("Counts: observed against the fitted model"));
-    out.push(...textRootogram(o.rootogram, o.width));
-    out.push("");
+  k.heading("Dispersion");
+  dispersionBlock(s, k);
+  k.blank();
+  if (o.rootogram && k.width >= 60) {
+    k.heading("Counts: observed against the fitted model");
+    k.preformatted(textRootogram(o.rootogram, k.width));
+    k.blank();
   }
+  if (o.picture)
+    k.picture(
+      o.picture.svg,
+      `Diagnostic pictures of the ${s.family} fit`,
+      "A hanging rootogram of observed against expected count frequencies, randomized quantile residuals against fitted means and against normal quantiles, and the rate ratios with their intervals.",
+      o.picture.file,
+    );
 
   if (s.summary_by) {
-    out.push(st.heading(`Observed and expected by ${s.summary_by.column} (O/E limits: ${s.summary_by.method})`));
-    out.push(...groupTable(s.summary_by));
-    out.push("");
+    k.heading(`Observed and expected by ${s.summary_by.column} (O/E limits: ${s.summary_by.method})`);
+    k.table(...groupRows(s.summary_by));
+    k.blank();
   }
-  out.push(
-    ...closingBlock(
-      s.warnings.filter((w) => !s.notices.includes(w)),
-      st,
-      o.width,
-    ),
+  closing(
+    s.warnings.filter((w) => !s.notices.includes(w)),
+    k,
   );
-  return `${out.join("\n")}\n`;
 }
 
 const MONTHS = ["Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec"];
@@ -315,21 +310,20 @@ function aboutDate(day: number): string {
 }
 
 /** The fitted seasonal pattern: peak, trough and the peak-to-trough rate ratio. */
-function seasonBlock(z: NonNullable<FitSummary["seasonality"]>, lv: string, st: Style): string[] {
-  return [
-    st.heading(`Seasonal pattern (${z.harmonics} harmonic pair${z.harmonics > 1 ? "s" : ""} a year)`),
-    ...table(
+function seasonBlock(z: NonNullable<FitSummary["seasonality"]>, lv: string, k: ReportSink): void {
+  k.heading(`Seasonal pattern (${z.harmonics} harmonic pair${z.harmonics > 1 ? "s" : ""} a year)`);
+  k.table(
+    [
+      ["highest rate", `day ${fixed(z.peak_day, 1)} after 1 January (${aboutDate(z.peak_day)})`],
+      ["lowest rate", `day ${fixed(z.trough_day, 1)} after 1 January (${aboutDate(z.trough_day)})`],
       [
-        ["highest rate", `day ${fixed(z.peak_day, 1)} after 1 January (${aboutDate(z.peak_day)})`],
-        ["lowest rate", `day ${fixed(z.trough_day, 1)} after 1 January (${aboutDate(z.trough_day)})`],
-        [
-          "peak-to-trough rate ratio",
-          `${sig(z.peak_to_trough)}, ${lv} ${interval(z.peak_to_trough_ci)} (delta method on the log scale)`,
-        ],
+        "peak-to-trough rate ratio",
+        `${sig(z.peak_to_trough)}, ${lv} ${interval(z.peak_to_trough_ci)} (delta method on the log scale)`,
       ],
-      ["l", "l"],
-    ),
-  ];
+    ],
+    ["l", "l"],
+    false,
+  );
 }
 
 const STRUCTURE_WORDS = {
@@ -339,7 +333,7 @@ const STRUCTURE_WORDS = {
 } as const;
 
 /** The working correlation, its parameter and the scale of a GEE fit. */
-function geeBlock(s: FitSummary, o: TextOptions): string[] {
+function geeBlock(s: FitSummary, k: ReportSink): void {
   const g = s.gee!;
   const sizes = g.cluster_sizes;
   const rows: string[][] = [
@@ -359,29 +353,24 @@ function geeBlock(s: FitSummary, o: TextOptions): string[] {
       : []),
     ["scoring steps", `${g.iterations}${g.converged ? "" : " (not settled)"}`],
   ];
-  return [
-    o.style.heading("Within-cluster correlation (generalized estimating equations)"),
-    ...table(rows, ["l", "l"]),
-    "",
-  ];
+  k.heading("Within-cluster correlation (generalized estimating equations)");
+  k.table(rows, ["l", "l"], false);
+  k.blank();
 }
 
 /** Numbered warnings (when there are any), then the short caution that ends every report. */
-export function closingBlock(warns: string[], st: Style, width: number): string[] {
-  const out: string[] = [];
+export function closing(warns: string[], k: ReportSink): void {
   if (warns.length) {
-    out.push(st.caution("Warnings"));
-    warns.forEach((w, i) => out.push(...wrap(`${i + 1}. ${w}`, width - 2, "   ").map((l) => `  ${l}`)));
-    out.push("");
+    k.heading("Warnings", "caution");
+    k.numbered(warns);
+    k.blank();
   }
-  out.push(...wrap(`Reading these results: ${CAUTION}`, width));
-  return out;
+  k.para(`Reading these results: ${CAUTION}`, 0, 0);
 }
 
-function dispersionBlock(s: FitSummary, o: TextOptions): string[] {
-  const st = o.style;
+function dispersionBlock(s: FitSummary, k: ReportSink): void {
+  const st = k.style;
   const d = s.dispersion;
-  const out: string[] = [];
   const rows = [
     [
       "Pearson chi-square / df",
@@ -392,7 +381,7 @@ function dispersionBlock(s: FitSummary, o: TextOptions): string[] {
     ],
     ["deviance / df", fixed(d.deviance, 3), Number.isNaN(d.deviance_p_value) ? "" : pEquals(d.deviance_p_value)],
   ];
-  out.push(...table(rows, ["l", "r", "l"]));
+  k.table(rows, ["l", "r", "l"], false);
   let verdict: string;
   if (s.df_residual <= 0)
     verdict = st.caution("No residual degrees of freedom: the dispersion cannot be judged from this fit.");
@@ -419,6 +408,5 @@ function dispersionBlock(s: FitSummary, o: TextOptions): string[] {
     verdict = `Standard errors are scaled by √φ = ${fixed(Math.sqrt(d.phi_used), 3)} to allow for the extra variation.`;
   else
     verdict = `The negative-binomial variance mu + alpha·mu² allows for extra variation; ratios near 1 mean it accounts for it.`;
-  out.push(...wrap(verdict, o.width - 2, "  ").map((l) => `  ${l}`));
-  return out;
+  k.para(verdict);
 }

@@ -99,7 +99,7 @@ export function pEquals(p: number | null | undefined): string {
 }
 
 /** The --summary-by table: observed, expected, O/E with its limits (GroupSummary.method), exposure and crude rate. */
-export function groupTable(g: GroupSummary): string[] {
+export function groupRows(g: GroupSummary): [string[][], ("l" | "r")[]] {
   const lv = `${+(g.level * 100).toFixed(2)}%`;
   const rows: string[][] = [
     [g.column, "rows", "observed", "expected", "O/E", `O/E ${lv}`, "exposure", `rate per ${group(String(g.per))}`],
@@ -115,5 +115,5 @@ export function groupTable(g: GroupSummary): string[] {
       r.exposure === null ? "–" : fixed(r.exposure, 1),
       r.crude_rate === null ? "–" : sig(r.crude_rate),
     ]);
-  return table(rows, ["l", "r", "r", "r", "r", "r", "r", "r"]);
+  return [rows, ["l", "r", "r", "r", "r", "r", "r", "r"]];
 }

@@ -2,7 +2,8 @@
 import type { GroupSummary } from "../infer/groups.js";
 import type { PredictResult } from "../infer/predict.js";
 import { csvField } from "./csv-field.js";
-import { fixed, groupTable, sig, table, wrap } from "./format.js";
+import { fixed, groupRows, sig } from "./format.js";
+import { type ReportSink, TextSink } from "./sink.js";
 import type { Style } from "./style.js";
 
 export const PREDICT_COLUMNS = [
@@ -58,9 +59,22 @@ export function renderPredictText(
   groups: GroupSummary | undefined,
   o: { style: Style; width: number; labels?: string[]; labelHeading?: string },
 ): string {
-  const st = o.style;
+  const k = new TextSink(o.style, o.width);
+  writePredict(r, groups, k, o);
+  return k.done();
+}
+
+/** The predict report, written to any sink; `picture` is the group flags' picture (HTML). */
+export function writePredict(
+  r: PredictResult,
+  groups: GroupSummary | undefined,
+  k: ReportSink,
+  o: { labels?: string[]; labelHeading?: string; picture?: { svg: string; title: string; description: string } },
+): void {
+  const st = k.style;
   const lv = `${+(r.level * 100).toFixed(2)}%`;
-  const out: string[] = [st.heading(`Expected counts under ${r.family} model ${r.model}`), ""];
+  k.heading(`Expected counts under ${r.family} model ${r.model}`);
+  k.blank();
   const rows: string[][] = [
     [
       "row",
@@ -86,20 +100,20 @@ export function renderPredictText(
       String(p.flag_limit),
       p.flagged ? st.caution("FLAG") : "",
     ]);
-  out.push(...table(rows, ["r", "l", "r", "r", "r", "r", "r", "r", "l"]));
+  k.table(rows, ["r", "l", "r", "r", "r", "r", "r", "r", "l"]);
   const notes = [...new Set(r.rows.flatMap((p) => (p.note ? [p.note] : [])))];
   for (const n of notes) {
     const which = r.rows.filter((p) => p.note === n).map((p) => p.row);
-    out.push(...wrap(`Rows ${which.join(", ")}: ${n}.`, o.width - 2, "  ").map((l) => `  ${l}`));
+    k.para(`Rows ${which.join(", ")}: ${n}.`);
   }
-  out.push("");
+  k.blank();
   if (groups) {
-    out.push(st.heading(`Observed and expected by ${groups.column} (O/E limits: ${groups.method})`));
-    out.push(...groupTable(groups));
-    out.push("");
+    k.heading(`Observed and expected by ${groups.column} (O/E limits: ${groups.method})`);
+    k.table(...groupRows(groups));
+    k.blank();
   }
   if (r.groups && r.flag_by) {
-    out.push(st.heading(`Totals by ${r.flag_by.join(" · ")}`));
+    k.heading(`Totals by ${r.flag_by.join(" · ")}`);
     const adjusted = r.adjustment !== "none";
     const grows: string[][] = [
       [
@@ -126,19 +140,20 @@ export function renderPredictText(
         String(g.flag_limit),
         g.flagged ? st.caution("FLAG") : "",
       ]);
-    out.push(...table(grows, ["l", "r", "r", "r", "r", "r", ...(adjusted ? ["r" as const] : []), "r", "l"]));
-    out.push(...wrap(`Method: ${r.group_method}.`, o.width - 2, "  ").map((l) => `  ${l}`));
-    out.push("");
+    k.table(grows, ["l", "r", "r", "r", "r", "r", ...(adjusted ? ["r" as const] : []), "r", "l"]);
+    k.para(`Method: ${r.group_method}.`);
+    if (o.picture) k.picture(o.picture.svg, o.picture.title, o.picture.description);
+    k.blank();
   }
-  out.push(...wrap(`${r.n_flagged} of ${r.rows.length} rows flagged. Method: ${r.method}.`, o.width));
-  out.push(...wrap(chanceLine(r), o.width));
+  k.para(`${r.n_flagged} of ${r.rows.length} rows flagged. Method: ${r.method}.`, 0, 0);
+  k.para(chanceLine(r), 0, 0);
   if (r.warnings.length) {
-    out.push("", st.caution("Warnings"));
-    r.warnings.forEach((w, i) => out.push(...wrap(`${i + 1}. ${w}`, o.width - 2, "   ").map((l) => `  ${l}`)));
-    out.push("");
+    k.blank();
+    k.heading("Warnings", "caution");
+    k.numbered(r.warnings);
+    k.blank();
   }
-  out.push(...wrap(FLAG_CAUTION, o.width));
-  return `${out.join("\n")}\n`;
+  k.para(FLAG_CAUTION, 0, 0);
 }
 
 /** How many flags chance alone would give, beside the flags found. */

@@ -2,113 +2,109 @@
 // rate ratios, the zero part as odds ratios, alpha, zeros observed against
 // expected, the likelihood figures, warnings and the closing caution.
 import type { FitSummary } from "../infer/summary.js";
-import { closingBlock, estimateTable, FAMILY_TITLE, familyChoiceLines } from "./fit-text.js";
-import { fixed, interval, pEquals, sig, table, wrap } from "./format.js";
+import { closing, estimateRows, FAMILY_TITLE, familyChoice } from "./fit-text.js";
+import { fixed, interval, pEquals, sig } from "./format.js";
+import { type ReportSink, TextSink } from "./sink.js";
 import type { Style } from "./style.js";
 
 export function renderZeroText(s: FitSummary, o: { style: Style; width: number }): string {
-  const st = o.style;
+  const k = new TextSink(o.style, o.width);
+  writeZeroFit(s, k);
+  return k.done();
+}
+
+/** The excess-zero fit's report, written to any sink. */
+export function writeZeroFit(s: FitSummary, k: ReportSink): void {
+  const st = k.style;
   const zp = s.zero_part!;
   const lv = `${+(s.level * 100).toFixed(2)}%`;
-  const out: string[] = [];
-  out.push(
-    st.heading(
-      `${FAMILY_TITLE[s.family]} model for ${s.response}, log link${s.exposure ? `, exposure ${s.exposure} (log offset)` : ""}`,
-    ),
+  k.heading(
+    `${FAMILY_TITLE[s.family]} model for ${s.response}, log link${s.exposure ? `, exposure ${s.exposure} (log offset)` : ""}`,
   );
-  out.push(
-    `  data    ${s.source}: ${fixed(s.n_rows, 0)} rows, ${fixed(s.n_used, 0)} used`,
-    `  model   count part ${s.model}; zero part ~ ${zp.terms}`,
-    `  fit     maximum likelihood, ${s.converged ? "converged" : st.bad("did NOT converge")} after ${s.iterations} quasi-Newton steps`,
+  k.header("data", `${s.source}: ${fixed(s.n_rows, 0)} rows, ${fixed(s.n_used, 0)} used`);
+  k.header("model", `count part ${s.model}; zero part ~ ${zp.terms}`);
+  k.header(
+    "fit",
+    `maximum likelihood, ${s.converged ? "converged" : st.bad("did NOT converge")} after ${s.iterations} quasi-Newton steps`,
   );
-  out.push(...familyChoiceLines(s, o.width));
-  out.push("");
+  familyChoice(s, k);
+  k.blank();
   const nonIntercept = s.coefficients.filter((c) => c.kind !== "intercept");
   const showP = s.profile_reference !== null;
-  out.push(st.heading(`Count part: rate ratios with ${lv} intervals`));
-  if (nonIntercept.length) out.push(...estimateTable(nonIntercept, "rate ratio", lv, true, showP));
-  else out.push("  (no terms besides the intercept)");
+  k.heading(`Count part: rate ratios with ${lv} intervals`);
+  if (nonIntercept.length) k.table(...estimateRows(nonIntercept, "rate ratio", lv, true, showP));
+  else k.para("(no terms besides the intercept)");
   if (s.baseline)
-    out.push(
-      ...wrap(
-        `Baseline rate: ${sig(s.baseline.rate)} ${s.response} per unit of ${s.baseline.per ?? "exposure"} ${zp.odds_of === "structural zero" ? "in rows that are not structural zeros" : "in the count distribution before its zeros are cut off"}, at the reference levels and numeric terms at 0 (Wald ${lv} ${interval(s.baseline.wald)}).`,
-        o.width - 2,
-        "  ",
-      ).map((l) => `  ${l}`),
+    k.para(
+      `Baseline rate: ${sig(s.baseline.rate)} ${s.response} per unit of ${s.baseline.per ?? "exposure"} ${zp.odds_of === "structural zero" ? "in rows that are not structural zeros" : "in the count distribution before its zeros are cut off"}, at the reference levels and numeric terms at 0 (Wald ${lv} ${interval(s.baseline.wald)}).`,
     );
-  out.push("");
-  out.push(
-    `  standard errors: ${
+  k.blank();
+  k.line(
+    `standard errors: ${
       s.covariance
         ? `cluster-robust (CR1) over ${s.covariance.clusters.map((c) => `${fixed(c.count, 0)} ${c.column} clusters`).join(" and ")}${s.covariance.clusters.length === 2 ? " (two-way)" : ""}, t on ${fixed(s.covariance.t_df, 0)} df`
         : s.standard_errors === "robust"
           ? "sandwich (HC0) from the rows' scores"
           : "inverse observed information"
     }, both parts${showP ? `; profile limits: ${s.profile_reference}` : ""}`,
-    "",
   );
-  out.push(st.heading(`Zero part: odds of a ${zp.odds_of}, with ${lv} intervals`));
+  k.blank();
+  k.heading(`Zero part: odds of a ${zp.odds_of}, with ${lv} intervals`);
   const zRows = zp.coefficients.filter((c) => c.kind !== "intercept");
   const base = zp.coefficients.find((c) => c.kind === "intercept");
-  if (zRows.length) out.push(...estimateTable(zRows, "odds ratio", lv, true, showP && !zp.boundary));
+  if (zRows.length) k.table(...estimateRows(zRows, "odds ratio", lv, true, showP && !zp.boundary));
   if (base)
-    out.push(
-      `  Odds of a ${zp.odds_of} at the reference levels: ${sig(base.odds_ratio ?? null)} (probability ${sig((base.odds_ratio ?? 0) / (1 + (base.odds_ratio ?? 0)))})${base.wald ? `, Wald ${lv} ${interval(base.wald)}` : ""}.`,
+    k.line(
+      `Odds of a ${zp.odds_of} at the reference levels: ${sig(base.odds_ratio ?? null)} (probability ${sig((base.odds_ratio ?? 0) / (1 + (base.odds_ratio ?? 0)))})${base.wald ? `, Wald ${lv} ${interval(base.wald)}` : ""}.`,
     );
-  if (zp.boundary) out.push(`  ${st.caution("The zero part is at its boundary; see the warnings.")}`);
-  out.push("");
+  if (zp.boundary) k.line(st.caution("The zero part is at its boundary; see the warnings."));
+  k.blank();
   if (s.negbin) {
     const nb = s.negbin;
-    out.push(st.heading("Count part's dispersion (variance = mu + alpha·mu²)"));
-    out.push(
-      ...table(
-        [
-          [
-            "alpha",
-            sig(nb.alpha),
-            nb.alpha_std_error !== null ? `SE ${sig(nb.alpha_std_error)}` : "",
-            nb.alpha_ci ? `${lv} ${interval(nb.alpha_ci)}, symmetric on the log scale` : "",
-          ],
-          [
-            "against the Poisson form, 2·Δlog L",
-            fixed(nb.lr_stat, 2),
-            pEquals(nb.lr_p_value),
-            "p halved: alpha = 0 is the edge of its range",
-          ],
-        ],
-        ["l", "r", "l", "l"],
-      ),
-    );
-    out.push("");
-  }
-  out.push(st.heading("Fit"));
-  out.push(
-    ...table(
+    k.heading("Count part's dispersion (variance = mu + alpha·mu²)");
+    k.table(
       [
         [
-          "zero counts",
-          `${fixed(s.zeros!.observed, 0)} observed`,
-          `${fixed(s.zeros!.expected, 1)} expected by the fitted model`,
+          "alpha",
+          sig(nb.alpha),
+          nb.alpha_std_error !== null ? `SE ${sig(nb.alpha_std_error)}` : "",
+          nb.alpha_ci ? `${lv} ${interval(nb.alpha_ci)}, symmetric on the log scale` : "",
         ],
-        ["log-likelihood", fixed(s.log_likelihood, 2), `${s.n_parameters} parameters`],
-        ["AIC", fixed(s.aic, 2), ""],
-        ["BIC", fixed(s.bic, 2), ""],
         [
-          "Pearson chi-square / df",
-          fixed(s.dispersion.pearson, 3),
-          `with the model's mean and variance, on ${fixed(s.df_residual, 0)} df`,
+          "against the Poisson form, 2·Δlog L",
+          fixed(nb.lr_stat, 2),
+          pEquals(nb.lr_p_value),
+          "p halved: alpha = 0 is the edge of its range",
         ],
       ],
-      ["l", "r", "l"],
-    ),
+      ["l", "r", "l", "l"],
+      false,
+    );
+    k.blank();
+  }
+  k.heading("Fit");
+  k.table(
+    [
+      [
+        "zero counts",
+        `${fixed(s.zeros!.observed, 0)} observed`,
+        `${fixed(s.zeros!.expected, 1)} expected by the fitted model`,
+      ],
+      ["log-likelihood", fixed(s.log_likelihood, 2), `${s.n_parameters} parameters`],
+      ["AIC", fixed(s.aic, 2), ""],
+      ["BIC", fixed(s.bic, 2), ""],
+      [
+        "Pearson chi-square / df",
+        fixed(s.dispersion.pearson, 3),
+        `with the model's mean and variance, on ${fixed(s.df_residual, 0)} df`,
+      ],
+    ],
+    ["l", "r", "l"],
+    false,
   );
-  out.push("");
-  out.push(
-    ...closingBlock(
-      s.warnings.filter((w) => !s.notices.includes(w)),
-      st,
-      o.width,
-    ),
+  k.blank();
+  closing(
+    s.warnings.filter((w) => !s.notices.includes(w)),
+    k,
   );
-  return `${out.join("\n")}\n`;
 }

@@ -40,8 +40,11 @@ test("--summary-by with CSV output is refused (its table has nowhere to go); Mar
     "markdown",
   ]);
   assert.equal(md.code, 0, md.stderr);
-  assert.match(md.stdout, /Observed and expected by `weekday`/);
-  assert.match(md.stdout, /\| weekday \| rows \| observed \| expected \| O\/E \| O\/E 95% \|/);
+  assert.match(md.stdout, /## Observed and expected by weekday \(O\/E limits: /);
+  assert.match(
+    md.stdout,
+    /\| weekday \| rows \| observed \| expected \| O\/E \| O\/E 95% \| exposure \| rate per 1 \|/,
+  );
   const predict = runCli([
     "predict",
     "--model-file",
@@ -61,7 +64,7 @@ test("each command's --help lists the formats it accepts and shows examples", ()
     assert.match(r.stdout, /\nExamples:\n {2}tallyfit /);
     assert.ok((r.stdout.match(/\n {2}tallyfit /g) ?? []).length >= 2, `${cmd}: at least two examples`);
   }
-  assert.match(runCli(["check", "--help"]).stdout, /--format <fmt> +text or json/);
+  assert.match(runCli(["check", "--help"]).stdout.replace(/\s+/g, " "), /--format <fmt> text, json, markdown or html/);
   assert.doesNotMatch(runCli(["check", "--help"]).stdout, /--robust|--intervals/);
   assert.doesNotMatch(runCli(["compare", "--help"]).stdout, /--plot|--robust|--level/);
 });

@@ -10,7 +10,8 @@ import { renderCheckText } from "../../report/check-text.js";
 import { renderJson } from "../../report/json.js";
 import { loadDesigns } from "../input.js";
 import { type ModelOptions, oneOf, parseProbability, plotKind } from "../options.js";
-import { addPlot, finish, textLayout } from "../output.js";
+import { addPlot, finish, plotReference, plotSvg, textLayout } from "../output.js";
+import { checkPage } from "../../report/pages.js";
 import { displaySafe } from "../../report/safe-text.js";
 import { RunOutputs } from "../run-outputs.js";
 import { clearProgressLine, fittingProgress, progressOnTerminal } from "../terminal.js";
@@ -26,7 +27,7 @@ export type CheckCliOptions = ModelOptions & {
 
 export async function runCheck(file: string | undefined, opts: CheckCliOptions): Promise<number> {
   if (opts.model.length !== 1) throw new InputError('check needs one --model "COUNT ~ TERMS".');
-  oneOf("--format", opts.format, ["text", "json"]);
+  oneOf("--format", opts.format, ["text", "json", "markdown", "html"]);
   const family = oneOf("--family", opts.family, ["poisson", "negbin", "quasipoisson", ...ZERO_FAMILIES]);
   const zeroFamily = (ZERO_FAMILIES as readonly string[]).includes(family);
   if (opts.zeroTerms && !zeroFamily)
@@ -79,15 +80,23 @@ export async function runCheck(file: string | undefined, opts: CheckCliOptions):
     orderBy,
   });
   if (onProgress && progressOnTerminal()) clearProgressLine();
-  if (opts.plot) {
+  let picture: string | undefined;
+  if (opts.plot || opts.format === "html") {
     // The picture's forest panel shows 95% Wald intervals (check has no interval options of its own).
     const summary = summarizeFit(design, poisson, { level: 0.95 });
-    addPlot(outputs, opts.plot, `Poisson fit of ${summary.model} (check)`, diagnosticsOf(design, poisson), summary);
+    const title = `Poisson fit of ${summary.model} (check)`;
+    const d = diagnosticsOf(design, poisson);
+    if (opts.plot) addPlot(outputs, opts.plot, title, d, summary);
+    picture = plotSvg(title, d, summary);
   }
   const content =
     opts.format === "json"
       ? renderJson({ schema: check.schema, check })
-      : renderCheckText(displaySafe(check), textLayout(opts));
+      : opts.format === "html"
+        ? checkPage(check, "html", picture ? { svg: picture } : undefined)
+        : opts.format === "markdown"
+          ? checkPage(check, "markdown", opts.plot ? { svg: "", file: plotReference(opts) } : undefined)
+          : renderCheckText(displaySafe(check), textLayout(opts));
   await finish(outputs, opts, content);
   return check.flagged ? EXIT.flagged : EXIT.ok;
 }

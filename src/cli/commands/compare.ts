@@ -6,6 +6,7 @@ import type { FamilyName } from "../../fit/count-fit.js";
 import { ZERO_FAMILIES, type ZeroFamily } from "../../fit/zero-likelihood.js";
 import { formulaText, parseFormula } from "../../formula/formula.js";
 import { renderCompareText } from "../../report/compare-text.js";
+import { comparePage } from "../../report/pages.js";
 import { renderJson } from "../../report/json.js";
 import { loadDesigns } from "../input.js";
 import { type ModelOptions, oneOf } from "../options.js";
@@ -18,7 +19,7 @@ export type CompareCliOptions = ModelOptions & { family: string[]; cluster: stri
 
 export async function runCompare(file: string | undefined, opts: CompareCliOptions): Promise<number> {
   if (opts.model.length < 2) throw new InputError("compare needs two or more --model options.");
-  oneOf("--format", opts.format, ["text", "json"]);
+  oneOf("--format", opts.format, ["text", "json", "markdown", "html"]);
   const given = opts.family.length === 0 ? ["poisson"] : opts.family;
   if (given.length !== 1 && given.length !== opts.model.length)
     throw new InputError(
@@ -60,7 +61,11 @@ export async function runCompare(file: string | undefined, opts: CompareCliOptio
   const clusters = opts.cluster.map((c) => clusteringOf(c, labels.get(c)!));
   const result = analyzeCompare(designs, families, control, merge, clusters, zero);
   const content =
-    opts.format === "json" ? renderJson(result) : renderCompareText(displaySafe(result), textLayout(opts));
+    opts.format === "json"
+      ? renderJson(result)
+      : opts.format === "markdown" || opts.format === "html"
+        ? comparePage(result, opts.format)
+        : renderCompareText(displaySafe(result), textLayout(opts));
   await finish(outputs, opts, content);
   return EXIT.ok;
 }

@@ -7,6 +7,7 @@ import { EXIT, InputError } from "../../errors.js";
 import type { ZeroFamily } from "../../fit/zero-likelihood.js";
 import { formulaText, parseFormula } from "../../formula/formula.js";
 import { renderJson } from "../../report/json.js";
+import { fitPage } from "../../report/pages.js";
 import { displaySafe } from "../../report/safe-text.js";
 import { renderZeroText } from "../../report/zero-text.js";
 import { loadDesigns } from "../input.js";
@@ -89,7 +90,9 @@ export function zeroModelOf(opts: FitCliOptions, zeroTerms: string): string {
 
 /** Render an excess-zero fit's report. */
 export function renderZeroReport(summary: FitSummary, opts: FitCliOptions): string {
-  return opts.format === "json" ? renderJson(summary) : renderZeroText(displaySafe(summary), textLayout(opts));
+  if (opts.format === "json") return renderJson(summary);
+  if (opts.format === "markdown" || opts.format === "html") return fitPage(summary, opts.format, { intervals: "both" });
+  return renderZeroText(displaySafe(summary), textLayout(opts));
 }
 
 /** Options of `fit` the excess-zero families do not take yet, each with the reason. */
@@ -110,7 +113,7 @@ function refuseUnsupported(opts: FitCliOptions): void {
 }
 
 export async function runZeroFit(file: string | undefined, opts: FitCliOptions, family: ZeroFamily): Promise<number> {
-  oneOf("--format", opts.format, ["text", "json"]);
+  oneOf("--format", opts.format, ["text", "json", "markdown", "html"]);
   refuseUnsupported(opts);
   const level = parseProbability("--level", opts.level, "0.95");
   if (opts.intervals) oneOf("--intervals", opts.intervals, ["wald", "profile", "both"]);

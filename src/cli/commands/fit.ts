@@ -21,12 +21,12 @@ import type { CountSpread } from "../../infer/ratio-limits.js";
 import type { FitSummary } from "../../infer/summary.js";
 import { renderFitText } from "../../report/fit-text.js";
 import { renderFitCsv } from "../../report/fit-csv.js";
-import { renderFitMarkdown } from "../../report/fit-markdown.js";
+import { fitPage } from "../../report/pages.js";
 import { renderJson } from "../../report/json.js";
 import { modelFileOf } from "../../report/model-file.js";
 import { loadDesigns } from "../input.js";
 import { oneOf, parseColumnNumbers, parsePositive, parseProbability, plotKind } from "../options.js";
-import { addPlot, finish, textLayout } from "../output.js";
+import { addPlot, finish, plotReference, plotSvg, textLayout } from "../output.js";
 import { displaySafe } from "../../report/safe-text.js";
 import { RunOutputs } from "../run-outputs.js";
 import { clearProgressLine, fittingProgress, progressOnTerminal } from "../terminal.js";
@@ -53,7 +53,7 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
         : "fit takes one --model; use `tallyfit compare` for several.",
     );
   const level = parseProbability("--level", opts.level, "0.95");
-  oneOf("--format", opts.format, ["text", "json", "csv", "markdown"]);
+  oneOf("--format", opts.format, ["text", "json", "csv", "markdown", "html"]);
   if (opts.summaryBy && opts.format === "csv")
     throw new InputError(
       "--summary-by is not part of the CSV output (one line per coefficient); use --format text, json or markdown for the group table.",
@@ -174,9 +174,9 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
 
     if (zero?.note) summary.warnings.push(zero.note);
     else if (zero?.summary) {
-      if (!["text", "json"].includes(opts.format))
+      if (opts.format === "csv")
         throw new InputError(
-          `--family auto chose ${zero.summary.family}, whose report is text or json; give --format text or json.`,
+          `--family auto chose ${zero.summary.family}, whose report has two parts and no CSV form; give --format text, json, markdown or html.`,
         );
       if (opts.saveModel)
         outputs.add(
@@ -189,8 +189,9 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
     }
   }
   const wide = opts.format === "text" && !opts.output && process.stdout.isTTY && (process.stdout.columns ?? 0) >= 60;
-  const diag = opts.plot || wide ? diagnosticsOf(design, countFit) : null;
-  if (opts.plot && diag) addPlot(outputs, opts.plot, `${summary.family} fit of ${summary.model}`, diag, summary);
+  const diag = opts.plot || wide || opts.format === "html" ? diagnosticsOf(design, countFit) : null;
+  const plotTitle = `${summary.family} fit of ${summary.model}`;
+  if (opts.plot && diag) addPlot(outputs, opts.plot, plotTitle, diag, summary);
   if (opts.summaryBy)
     summary.summary_by = summarizeGroups(
       opts.summaryBy,
@@ -216,7 +217,16 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
   let content: string;
   if (opts.format === "json") content = renderJson(summary);
   else if (opts.format === "csv") content = renderFitCsv(summary);
-  else if (opts.format === "markdown") content = renderFitMarkdown(summary);
+  else if (opts.format === "markdown")
+    content = fitPage(summary, "markdown", {
+      intervals,
+      picture: opts.plot ? { svg: "", file: plotReference(opts) } : undefined,
+    });
+  else if (opts.format === "html")
+    content = fitPage(summary, "html", {
+      intervals,
+      picture: diag ? { svg: plotSvg(plotTitle, diag, summary) } : undefined,
+    });
   else
     content = renderFitText(displaySafe(summary), {
       ...textLayout(opts),

@@ -9,6 +9,7 @@ import { ADJUSTMENTS } from "../../infer/multiplicity.js";
 import { columnLabels } from "../../io/table.js";
 import { renderJson } from "../../report/json.js";
 import { renderPredictCsv, renderPredictText } from "../../report/predict.js";
+import { predictPage } from "../../report/pages.js";
 import {
   type IoOptions,
   oneOf,
@@ -43,7 +44,7 @@ export interface PredictCliOptions extends IoOptions {
 }
 
 export async function runPredict(file: string | undefined, opts: PredictCliOptions): Promise<number> {
-  oneOf("--format", opts.format, ["csv", "json", "text"]);
+  oneOf("--format", opts.format, ["csv", "json", "text", "markdown", "html"]);
   if (opts.summaryBy && opts.format === "csv")
     throw new InputError(
       "--summary-by is not part of the CSV output (one line per input row); use --format text or json for the group table.",
@@ -133,11 +134,14 @@ export async function runPredict(file: string | undefined, opts: PredictCliOptio
     const shown = [...opts.id, ...saved.factors.map((f) => f.name).filter((f) => !opts.id.includes(f))];
     const cols = shown.map((c) => columnLabels(rows, c, all));
     const labels = Array.from({ length: design.n }, (_, i) => cols.map((c) => c[i]).join(" "));
-    content = renderPredictText(displaySafe(result), displaySafe(groups), {
-      ...textLayout(opts),
-      labels: displaySafe(labels),
-      labelHeading: displaySafe(shown.join(" ")),
-    });
+    if (opts.format === "markdown" || opts.format === "html")
+      content = predictPage(result, groups, opts.format, { labels, labelHeading: shown.join(" ") });
+    else
+      content = renderPredictText(displaySafe(result), displaySafe(groups), {
+        ...textLayout(opts),
+        labels: displaySafe(labels),
+        labelHeading: displaySafe(shown.join(" ")),
+      });
   }
   await finish(outputs, opts, content);
   if (opts.format === "csv" || opts.output) for (const w of result.warnings) notice(opts, w);

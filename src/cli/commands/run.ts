@@ -13,8 +13,8 @@ import { type JobFile, loadJobFile } from "../../io/job-file.js";
 /** Runs one command line (argv after the program name) in this process and returns its exit code. */
 export type CommandRunner = (args: string[]) => Promise<number>;
 
-const REPORT_EXT = { text: "txt", json: "json", markdown: "md" } as const;
-const PREDICT_EXT = { csv: "csv", json: "json", text: "txt" } as const;
+const REPORT_EXT = { text: "txt", json: "json", markdown: "md", html: "html" } as const;
+const PREDICT_EXT = { csv: "csv", json: "json", text: "txt", markdown: "md", html: "html" } as const;
 
 /** The data, model and design arguments every fitting step shares. */
 function designArgs(job: JobFile, at: (p: string) => string): string[] {
@@ -75,7 +75,8 @@ export function jobSteps(job: JobFile, jobPath: string, stage: string): Step[] {
   if (c.run !== false) {
     // The check tests the model in use: the fitted family unless the job names another (auto: the Poisson check).
     const checked = c.family ?? (family === "auto" ? "poisson" : family);
-    const checkFormat = report === "json" ? "json" : "text";
+    // check writes every format but CSV, the same as the fit's report.
+    const checkFormat = report;
     const checkOut = `check.${REPORT_EXT[checkFormat]}`;
     const args = [
       "check",
