@@ -114,7 +114,7 @@ async function bench(rows: number, reps: number, withYardstick: boolean): Promis
     );
   if (rows <= 100000)
     cases.push([
-      "tallyfit poisson, profile limits, 30 coef.",
+      "tallyfit poisson, profiles of 30 coefficients",
       process.execPath,
       [
         BIN,

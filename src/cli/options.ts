@@ -198,8 +198,14 @@ function addModelSpecOptions(cmd: Command, multiModel: boolean): Command {
         ).default("poisson"),
       );
   return withFamily
-    .option("--exposure <col>", "exposure column (person-time, open hours, bed-days); its log becomes the offset")
-    .option("--offset <col>", "an offset column already on the log scale")
+    .option(
+      "--exposure <col>",
+      "how much opportunity each row had for events, in plain units (bed-days, open hours, person-years); rates are per unit of it (tallyfit takes the log)",
+    )
+    .option(
+      "--offset <col>",
+      "a column that is already a log quantity (log person-years computed upstream); added unchanged to the linear predictor",
+    )
     .option(
       "--factor <cols>",
       "treat these numeric-looking columns as categorical (comma-separated, repeatable)",

@@ -81,7 +81,6 @@ export interface NegbinSummary {
   /** Wald interval on log alpha, back-transformed. */
   alpha_ci: [number, number] | null;
   alpha_ci_method: "wald-log";
-  theta: number | null;
   lr_stat: number;
   lr_p_value: number;
   boundary: boolean;
@@ -304,7 +303,6 @@ export function summarizeFit(design: Design, mf: CountFit, options: SummaryOptio
       alpha_std_error: nb.alphaStdError,
       alpha_ci: ci,
       alpha_ci_method: "wald-log",
-      theta: nb.alpha > 0 ? 1 / nb.alpha : null,
       lr_stat: lr.stat,
       lr_p_value: lr.p,
       boundary: nb.boundary,

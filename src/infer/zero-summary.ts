@@ -182,7 +182,6 @@ export function summarizeZeroFit(count: Design, zero: Design, z: ZeroFit, o: Zer
       alpha_std_error: seLog === null ? null : z.alpha * seLog,
       alpha_ci: seLog === null ? null : [z.alpha * Math.exp(-crit * seLog), z.alpha * Math.exp(crit * seLog)],
       alpha_ci_method: "wald-log",
-      theta: z.alpha > 0 ? 1 / z.alpha : null,
       lr_stat: lr.stat,
       lr_p_value: lr.p,
       boundary: z.boundary.alpha,

@@ -47,7 +47,7 @@ export function writeCheck(r: CheckResult, k: ReportSink, picture?: { svg: strin
     k.picture(
       picture.svg,
       "Diagnostic pictures of the checked model",
-      "A hanging rootogram of observed against expected count frequencies, randomized quantile residuals against fitted means and against normal quantiles, and the rate ratios with their intervals.",
+      "The rate ratios with their intervals; beneath them, a hanging rootogram of observed against expected count frequencies, randomized quantile residuals across the fitted means, and their quantiles against normal quantiles.",
       picture.file,
     );
   closing(

@@ -238,42 +238,29 @@ export function writeFit(
     k.blank();
   }
   k.heading("Fit");
-  const frows: string[][] = [
-    ["deviance", fixed(s.deviance, 2), `on ${fixed(s.df_residual, 0)} residual df`],
-    ["intercept-only deviance", fixed(s.null_deviance, 2), `on ${fixed(s.df_null, 0)} df`],
-    ["Pearson chi-square", fixed(s.pearson_chi2, 2), ""],
-    ["log-likelihood", fixed(s.log_likelihood, 2), `${s.n_parameters} parameters`],
-    ["AIC", fixed(s.aic, 2), ""],
-    ["BIC", fixed(s.bic, 2), ""],
-  ];
-  k.table(frows, ["l", "r", "l"], false);
-  if (s.family === "negbin") k.line("(both deviances are negative-binomial deviances at the fitted alpha)");
+  // The deviances of this model and of the intercept-only model side by side, then the likelihood figures.
+  k.table(
+    [
+      ["", "deviance", "residual df"],
+      ["this model", fixed(s.deviance, 2), fixed(s.df_residual, 0)],
+      ["intercept only", fixed(s.null_deviance, 2), fixed(s.df_null, 0)],
+    ],
+    ["l", "r", "r"],
+  );
+  if (s.family === "negbin") k.line("(both are negative-binomial deviances at the fitted alpha)");
+  k.table(
+    [
+      ["Pearson chi-square", fixed(s.pearson_chi2, 2), ""],
+      ["log-likelihood", fixed(s.log_likelihood, 2), `${s.n_parameters} parameters`],
+      ["AIC", fixed(s.aic, 2), ""],
+      ["BIC", fixed(s.bic, 2), ""],
+    ],
+    ["l", "r", "l"],
+    false,
+  );
   k.blank();
 
-  if (s.negbin) {
-    const nb = s.negbin;
-    k.heading("Negative-binomial dispersion (variance = mu + alpha·mu²)");
-    const nrows: string[][] = [
-      [
-        "alpha",
-        sig(nb.alpha),
-        nb.alpha_std_error !== null ? `SE ${sig(nb.alpha_std_error)}` : "",
-        nb.alpha_ci ? `${lv} ${interval(nb.alpha_ci)}, symmetric on the log scale` : "",
-      ],
-      ["1/alpha (NB size)", nb.theta === null ? "∞" : sig(nb.theta), "", ""],
-      ["log-likelihood", fixed(s.log_likelihood, 2), `Poisson ${fixed(nb.poisson_log_likelihood, 2)}`, ""],
-      ["AIC", fixed(s.aic, 2), `Poisson ${fixed(nb.poisson_aic, 2)}`, ""],
-      [
-        "NB2 against Poisson, 2·Δlog L",
-        fixed(nb.lr_stat, 2),
-        pEquals(nb.lr_p_value),
-        "p halved: alpha = 0 is the edge of its range",
-      ],
-    ];
-    k.table(nrows, ["l", "r", "l", "l"], false);
-    if (nb.boundary) k.para(st.good("alpha is 0 at the maximum: the negative binomial reduces to the Poisson here."));
-    k.blank();
-  }
+  if (s.negbin) negbinBlock(s, lv, k);
   k.heading("Dispersion");
   dispersionBlock(s, k);
   k.blank();
@@ -286,7 +273,7 @@ export function writeFit(
     k.picture(
       o.picture.svg,
       `Diagnostic pictures of the ${s.family} fit`,
-      "A hanging rootogram of observed against expected count frequencies, randomized quantile residuals against fitted means and against normal quantiles, and the rate ratios with their intervals.",
+      "The rate ratios with their intervals; beneath them, a hanging rootogram of observed against expected count frequencies, randomized quantile residuals across the fitted means, and their quantiles against normal quantiles.",
       o.picture.file,
     );
 
@@ -358,6 +345,43 @@ function geeBlock(s: FitSummary, k: ReportSink): void {
   k.blank();
 }
 
+/**
+ * The NB2 dispersion: alpha with its interval (from the standard error of
+ * log alpha), the two likelihoods side by side, and the likelihood ratio of
+ * NB2 against the Poisson with its boundary-corrected p-value.
+ */
+function negbinBlock(s: FitSummary, lv: string, k: ReportSink): void {
+  const nb = s.negbin!;
+  k.heading("Extra-Poisson variation (NB2: variance = μ + α·μ²)");
+  k.table(
+    [
+      [
+        "α",
+        sig(nb.alpha),
+        nb.alpha_ci ? `${lv} ${interval(nb.alpha_ci)}` : "",
+        nb.alpha_std_error !== null
+          ? `standard error ${sig(nb.alpha_std_error)}; limits exp(log α ± z·SE of log α)`
+          : "",
+      ],
+    ],
+    ["l", "r", "l", "l"],
+    false,
+  );
+  k.table(
+    [
+      ["", "log-likelihood", "AIC"],
+      ["NB2", fixed(s.log_likelihood, 2), fixed(s.aic, 2)],
+      ["Poisson (α = 0)", fixed(nb.poisson_log_likelihood, 2), fixed(nb.poisson_aic, 2)],
+    ],
+    ["l", "r", "r"],
+  );
+  k.para(
+    `Twice the log-likelihood gain of NB2 over the Poisson: ${fixed(nb.lr_stat, 2)}, ${pEquals(nb.lr_p_value)} (half the chi-square(1) tail, as α cannot fall below 0).`,
+  );
+  if (nb.boundary) k.para(k.style.good("α is 0 at the maximum: the negative binomial reduces to the Poisson here."));
+  k.blank();
+}
+
 /** Numbered warnings (when there are any), then the short caution that ends every report. */
 export function closing(warns: string[], k: ReportSink): void {
   if (warns.length) {
@@ -406,7 +430,6 @@ function dispersionBlock(s: FitSummary, k: ReportSink): void {
       );
   } else if (s.family === "quasipoisson")
     verdict = `Standard errors are scaled by √φ = ${fixed(Math.sqrt(d.phi_used), 3)} to allow for the extra variation.`;
-  else
-    verdict = `The negative-binomial variance mu + alpha·mu² allows for extra variation; ratios near 1 mean it accounts for it.`;
+  else verdict = `The NB2 variance μ + α·μ² allows for extra variation; ratios near 1 mean it accounts for it.`;
   k.para(verdict);
 }

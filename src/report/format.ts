@@ -25,13 +25,15 @@ export function sig(x: number | null | undefined, digits = 4): string {
   return x.toPrecision(digits);
 }
 
-/** A p-value: two significant digits, "< 1e-16" below what a normal tail can honestly resolve. */
+/**
+ * A p-value as health journals print it: "<0.001" below a thousandth, three
+ * decimals below 0.1 (0.049 stays 0.049), two above (JSON keeps the full value).
+ */
 export function pValue(p: number | null | undefined): string {
   if (p === null || p === undefined || Number.isNaN(p)) return "–";
-  if (p < 1e-16) return "<1e-16";
-  if (p < 0.001) return p.toExponential(1).replace("e-0", "e-").replace("e+", "e");
-  if (p >= 0.9995) return "1.00";
-  return p < 0.01 ? p.toFixed(4) : p.toFixed(3);
+  if (p < 0.001) return "<0.001";
+  if (p < 0.1) return p.toFixed(3);
+  return p.toFixed(2);
 }
 
 /** An interval "low – high" on the rate-ratio scale; open ends shown as 0 or ∞. */
@@ -92,7 +94,7 @@ export function wrap(text: string, width: number, indent = ""): string[] {
   return lines;
 }
 
-/** "p = 0.031" or "p < 1e-16". */
+/** "p = 0.031" or "p < 0.001". */
 export function pEquals(p: number | null | undefined): string {
   const t = pValue(p);
   return t.startsWith("<") ? `p < ${t.slice(1)}` : `p = ${t}`;

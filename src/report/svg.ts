@@ -1,6 +1,8 @@
-// A one-page diagnostic picture as SVG, drawn by our own small module: a
-// hanging rootogram, randomized quantile residuals against fitted values (log
-// axis), their normal quantile plot, and a forest plot of rate ratios.
+// A one-page diagnostic picture as SVG, drawn by our own small module: the
+// rate ratios with their intervals across the top (what a reader publishes),
+// and under them three checks side by side: a hanging rootogram of the count
+// frequencies, randomized quantile residuals across the fitted means (log
+// axis), and the residuals' quantiles against normal quantiles.
 // Palette: a dark slate for data marks and a burnt orange for model marks,
 // distinct for the common colour-vision deficiencies and apart in lightness,
 // so the page also reads in greyscale.
@@ -132,8 +134,8 @@ function rootogramPanel(b: Box, r: Rootogram): string {
     s += `<rect class="bar" x="${f2(sx(c) - bw / 2)}" y="${f2(sy(hi))}" width="${f2(bw)}" height="${f2(Math.max(0, sy(bottom) - sy(hi)))}" fill="${DATA_LIGHT}" stroke="${DATA}" stroke-width="0.8"><title>${label}: observed ${f2(r.observed[j])}, expected ${f2(r.expected[j])}</title></rect>`;
   });
   s += `<polyline class="curve" fill="none" stroke="${MODEL}" stroke-width="2.2" points="${r.counts.map((c, j) => `${f2(sx(c))},${f2(sy(se[j]))}`).join(" ")}"/>`;
-  const xlabel = r.binWidth === 1 ? "count" : `count (bars are bins of ${r.binWidth} values, up to the largest count)`;
-  return panel(b, "Hanging rootogram: observed bars hung from the expected curve", xlabel, "√frequency", s);
+  const xlabel = r.binWidth === 1 ? "count" : `count (bars: bins of ${r.binWidth} values, to the largest)`;
+  return panel(b, "Count frequencies, √ scale", xlabel, "√frequency (bars hang from the curve)", s);
 }
 
 function residualPanel(b: Box, fitted: Float64Array, res: Float64Array): string {
@@ -150,7 +152,7 @@ function residualPanel(b: Box, fitted: Float64Array, res: Float64Array): string 
   for (let i = 0; i < res.length; i++)
     if (fitted[i] > 0)
       s += `<circle class="pt" cx="${f2(sx(fitted[i]))}" cy="${f2(sy(res[i]))}" r="2.2" fill="${DATA}" fill-opacity="0.55"/>`;
-  return panel(b, "Randomized quantile residuals", "fitted mean (log scale)", "residual", s);
+  return panel(b, "Residuals across fitted means", "fitted mean (log scale)", "randomized quantile residual", s);
 }
 
 function qqPanel(b: Box, res: Float64Array): string {
@@ -164,7 +166,7 @@ function qqPanel(b: Box, res: Float64Array): string {
   s += `<line x1="${f2(sx(-m))}" y1="${f2(sy(-m))}" x2="${f2(sx(m))}" y2="${f2(sy(m))}" stroke="${MODEL}" stroke-width="1.5"/>`;
   for (let i = 0; i < n; i++)
     s += `<circle class="qq" cx="${f2(sx(th[i]))}" cy="${f2(sy(r[i]))}" r="2.2" fill="${DATA}" fill-opacity="0.55"/>`;
-  return panel(b, "Normal quantiles of the residuals", "standard normal quantile", "residual quantile", s);
+  return panel(b, "Residuals against normal quantiles", "standard normal quantile", "residual quantile", s);
 }
 
 /** The rows of the forest panel: each factor's reference level, then its levels; numeric terms as they come. */
@@ -189,9 +191,9 @@ function shorten(s: string, max = 30): string {
   return [...s].length <= max ? s : `${[...s].slice(0, max - 1).join("")}…`;
 }
 
-/** Height of the forest panel: a line per row, at least as tall as the other panels. */
+/** Height of the rate-ratio panel: a line per row, with room for a few rows at least. */
 export function forestHeight(summary: FitSummary): number {
-  return Math.max(300, 18 * (forestRows(summary).length + 1));
+  return Math.max(160, 18 * (forestRows(summary).length + 1));
 }
 
 function forestPanel(b: Box, summary: FitSummary): string {
@@ -243,7 +245,7 @@ function forestPanel(b: Box, summary: FitSummary): string {
   const lv = `${+(summary.level * 100).toFixed(2)}%`;
   return panel(
     b,
-    `Rate ratios with ${lv} ${which} intervals`,
+    `Rate ratios and their ${lv} ${which} intervals`,
     "rate ratio (log scale; dashed line: no difference; hollow: reference level)",
     "",
     s,
@@ -251,23 +253,26 @@ function forestPanel(b: Box, summary: FitSummary): string {
 }
 
 export function renderSvg(p: PlotInput): string {
-  const W = 1200;
+  const W = 1300;
   const fh = forestHeight(p.summary);
-  const H = 580 + fh;
+  // The rate ratios across the top; the three checks in a row beneath them.
+  const checksY = 90 + fh + 110;
+  const H = checksY + 280 + 80;
   const boxes: Box[] = [
-    { x: 80, y: 90, w: 460, h: 300 },
-    { x: 690, y: 90, w: 460, h: 300 },
-    { x: 80, y: 500, w: 460, h: 300 },
-    { x: 640, y: 500, w: 510, h: fh }, // wider, and as tall as its rows need: the forest plot holds the term names
+    { x: 80, y: checksY, w: 330, h: 280 },
+    { x: 505, y: checksY, w: 330, h: 280 },
+    { x: 930, y: checksY, w: 330, h: 280 },
+    { x: 80, y: 90, w: 1180, h: fh },
   ];
   const body =
+    forestPanel(boxes[3], p.summary) +
     rootogramPanel(boxes[0], p.rootogram) +
     residualPanel(boxes[1], p.fitted, p.residuals) +
-    qqPanel(boxes[2], p.residuals) +
-    forestPanel(boxes[3], p.summary);
+    qqPanel(boxes[2], p.residuals);
   const desc =
-    "Four panels: a hanging rootogram of observed against expected count frequencies; randomized quantile residuals against fitted means; " +
-    "the normal quantile plot of those residuals; and rate ratios with their intervals, reference levels hollow.";
+    "Across the top, the rate ratios with their intervals, reference levels hollow; beneath, three checks: the count frequencies " +
+    "as a hanging rootogram (observed bars hung from the expected curve), randomized quantile residuals across the fitted means, " +
+    "and the residuals' quantiles against normal quantiles.";
   return (
     `<?xml version="1.0" encoding="UTF-8"?>\n` +
     `<svg xmlns="http://www.w3.org/2000/svg" width="${W}" height="${H}" viewBox="0 0 ${W} ${H}" font-family="${FONT}" role="img" aria-labelledby="tf-title tf-desc">` +

@@ -61,24 +61,23 @@ export function writeZeroFit(s: FitSummary, k: ReportSink): void {
   k.blank();
   if (s.negbin) {
     const nb = s.negbin;
-    k.heading("Count part's dispersion (variance = mu + alpha·mu²)");
+    k.heading("Extra-Poisson variation in the count part (NB2: variance = μ + α·μ²)");
     k.table(
       [
         [
-          "alpha",
+          "α",
           sig(nb.alpha),
-          nb.alpha_std_error !== null ? `SE ${sig(nb.alpha_std_error)}` : "",
-          nb.alpha_ci ? `${lv} ${interval(nb.alpha_ci)}, symmetric on the log scale` : "",
-        ],
-        [
-          "against the Poisson form, 2·Δlog L",
-          fixed(nb.lr_stat, 2),
-          pEquals(nb.lr_p_value),
-          "p halved: alpha = 0 is the edge of its range",
+          nb.alpha_ci ? `${lv} ${interval(nb.alpha_ci)}` : "",
+          nb.alpha_std_error !== null
+            ? `standard error ${sig(nb.alpha_std_error)}; limits exp(log α ± z·SE of log α)`
+            : "",
         ],
       ],
       ["l", "r", "l", "l"],
       false,
+    );
+    k.para(
+      `Twice the log-likelihood gain over the Poisson form: ${fixed(nb.lr_stat, 2)}, ${pEquals(nb.lr_p_value)} (half the chi-square(1) tail, as α cannot fall below 0).`,
     );
     k.blank();
   }

@@ -48,7 +48,7 @@ test("fit --format html: every coefficient's term and rate ratio as in the JSON,
     assert.ok(Math.abs(shown / c.rate_ratio - 1) < 5e-4, `${c.term}: ${shown} against ${c.rate_ratio}`);
   }
   assert.match(dom, /<h1>Negative-binomial \(NB2\) rate model for visits/);
-  assert.match(text(dom), /The negative-binomial variance mu \+ alpha·mu² allows for extra variation/);
+  assert.match(text(dom), /The NB2 variance μ \+ α·μ² allows for extra variation/);
   assert.match(
     dom,
     /<svg [^>]*role="img" aria-labelledby="fig1-title fig1-desc"><title id="fig1-title">Diagnostic pictures/,
