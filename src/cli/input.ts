@@ -4,7 +4,8 @@ import { buildDesign, type Design } from "../design/design.js";
 import { InputError } from "../errors.js";
 import { parseFormula, termVariables } from "../formula/formula.js";
 import { loadTableStream } from "../io/csv.js";
-import { columnLabels } from "../io/table.js";
+import { loadDuckDbQuery, loadParquet } from "../io/duckdb-table.js";
+import { columnLabels, type Table } from "../io/table.js";
 import {
   type Calendar,
   type CalendarOptions,
@@ -61,7 +62,12 @@ export async function loadDesigns(
   const orderGiven = parseOrder(opts.order);
   const factors = parseColumnList(opts.factor);
   const path = file ?? "-";
-  if (path === "-" && process.stdin.isTTY)
+  if (opts.db && file) throw new InputError(`give the data once: a FILE (${file}) or --db with --sql, not both.`);
+  if (!!opts.db !== !!opts.sql)
+    throw new InputError(
+      opts.db ? "--db needs --sql QUERY: the query whose rows are the data." : "--sql needs --db URL.",
+    );
+  if (path === "-" && process.stdin.isTTY && !opts.db)
     throw new InputError("no input: give a CSV file, or pipe one in (a FILE of - reads standard input).");
   const generated = calendar ? calendarTerms(calendar) : [];
   const vars = [...new Set(specs.flatMap((spec) => [spec.response, ...termVariables(spec)]))];
@@ -74,16 +80,12 @@ export async function loadDesigns(
   ];
   const name = path === "-" ? "<stdin>" : path;
   const progress = opts.quiet || !process.stderr.isTTY ? undefined : readingProgress();
-  const { table: read, sha256 } = await loadTableStream(
-    path,
-    { delimiter: opts.delimiter, decimalComma: opts.decimalComma, na: parseNa(opts.na), factors, select },
-    progress,
-  );
+  const { table: read, sha256 } = await readRows(path, opts, { factors, select }, progress);
   if (progress) clearProgressLine();
   for (const f of factors)
     if (!read.header.includes(f))
       throw new InputError(
-        `${name}: --factor column '${f}' is not in the file. The columns are ${read.header.map((h) => `'${h}'`).join(", ")}.`,
+        `${read.source}: --factor column '${f}' is not in the file. The columns are ${read.header.map((h) => `'${h}'`).join(", ")}.`,
       );
   const days = calendar ? daysOf(read, calendar.column) : null;
   // The trend counts from the first date among the rows used: the designs are built again when a row
@@ -153,4 +155,28 @@ function calendarOptionsOf(opts: ModelOptions): CalendarOptions | null {
   if (season > MAX_HARMONICS)
     throw new InputError(`--season takes 1 to ${MAX_HARMONICS} harmonic pairs (got ${season}).`);
   return { column: opts.date, trend: !!opts.trend, season, dayOfWeek: !!opts.dayOfWeek };
+}
+
+/**
+ * The rows, from wherever they are: a CSV (gzip-compressed or not), a Parquet
+ * file (by its .parquet name), or a query against a database (--db, --sql).
+ */
+async function readRows(
+  path: string,
+  opts: ModelOptions,
+  columns: { factors: string[]; select: string[] },
+  progress?: (bytes: number, rows: number) => void,
+): Promise<{ table: Table; sha256: string }> {
+  if (opts.db) {
+    if (opts.db === "duckdb:" || opts.db.startsWith("duckdb:")) return loadDuckDbQuery(opts.db, opts.sql!, columns);
+    throw new InputError(
+      `--db ${opts.db.replace(/\/\/[^@/]*@/, "//…@")}: this version reads DuckDB (duckdb: or duckdb:PATH); export the rows to CSV or Parquet for other databases.`,
+    );
+  }
+  if (/\.parquet$/i.test(path)) return loadParquet(path, columns);
+  return loadTableStream(
+    path,
+    { delimiter: opts.delimiter, decimalComma: opts.decimalComma, na: parseNa(opts.na), ...columns },
+    progress,
+  );
 }

@@ -37,6 +37,8 @@ export interface ModelOptions extends IoOptions {
   trend?: boolean;
   season?: string;
   dayOfWeek?: boolean;
+  db?: string;
+  sql?: string;
 }
 
 export function collect(value: string, previous: string[]): string[] {
@@ -153,9 +155,11 @@ export function addClusterOption(cmd: Command, help: string): Command {
   return cmd.option("--cluster <col>", help, collect, []);
 }
 
-/** The model, family and design options of fit, check and compare. */
+/** The model, family and design options of fit, check and compare, and where the rows come from. */
 export function addModelOptions(cmd: Command, multiModel = false): Command {
-  return addModelSpecOptions(cmd, multiModel);
+  return addModelSpecOptions(cmd, multiModel)
+    .option("--db <url>", "read the rows from a database instead of a file: duckdb: (in memory) or duckdb:PATH")
+    .option("--sql <query>", "with --db: the query whose rows are the data (it becomes a subquery)");
 }
 
 /** The interval and covariance options of fit. */

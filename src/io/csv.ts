@@ -1,7 +1,9 @@
 // CSV loading: RFC 4180 records into typed columns by the byte-level reader
 // (tokenizer.ts); test/io/csv-parse-oracle.ts holds the csv-parse reference it is tested against.
 import { createHash } from "node:crypto";
+import { createReadStream } from "node:fs";
 import { open, stat } from "node:fs/promises";
+import { createGunzip } from "node:zlib";
 import { InputError } from "../errors.js";
 import { DEFAULT_NA, defaultDelimiter } from "./dialect.js";
 import { unreadable } from "./source-bytes.js";
@@ -98,7 +100,10 @@ export async function loadTableStream(
   };
   try {
     if (path === "-") for await (const chunk of process.stdin) consume(chunk as Uint8Array);
-    else {
+    else if (await isGzip(path)) {
+      // A gzip-compressed CSV (FILE.csv.gz) is read through the decompressor; the digest is of the CSV itself.
+      for await (const chunk of createReadStream(path).pipe(createGunzip())) consume(chunk as Uint8Array);
+    } else {
       reader.expectedBytes = (await stat(path)).size;
       // One 4 MB buffer, refilled: the reader copies what it keeps, so no chunk outlives its read
       // (a new buffer per chunk would leave hundreds of MB to the garbage collector on a large file).
@@ -116,11 +121,25 @@ export async function loadTableStream(
     }
   } catch (e) {
     if (e instanceof InputError) throw e;
+    if ((e as NodeJS.ErrnoException).code?.startsWith("Z_"))
+      throw new InputError(`${name}: the gzip data is damaged (${(e as Error).message}); compress the CSV again.`);
     throw unreadable(name, e);
   }
   if (!any || !nonBlank)
     throw new InputError(`${name}: the file is empty; expected a header row and at least one data row.`);
   return { table: reader.finish(), sha256: hash.digest("hex") };
+}
+
+/** Whether a file starts with the gzip magic bytes 1f 8b (whatever its name). */
+export async function isGzip(path: string): Promise<boolean> {
+  const fh = await open(path, "r");
+  try {
+    const b = Buffer.alloc(2);
+    const { bytesRead } = await fh.read(b, 0, 2, 0);
+    return bytesRead === 2 && b[0] === 0x1f && b[1] === 0x8b;
+  } finally {
+    await fh.close();
+  }
 }
 
 /** Read and parse a CSV file or standard input ("-"). */

@@ -1,6 +1,7 @@
 // Reading a source's bytes and checking that they are UTF-8 text.
 import { isUtf8 } from "node:buffer";
 import { readFile } from "node:fs/promises";
+import { gunzipSync } from "node:zlib";
 import { InputError } from "../errors.js";
 
 /** Read a file path, or standard input for "-". */
@@ -10,11 +11,20 @@ export async function readSource(path: string): Promise<{ bytes: Buffer; name: s
     for await (const chunk of process.stdin) chunks.push(chunk as Buffer);
     return { bytes: Buffer.concat(chunks), name: "<stdin>" };
   }
+  let bytes: Buffer;
   try {
-    return { bytes: await readFile(path), name: path };
+    bytes = await readFile(path);
   } catch (e) {
     throw unreadable(path, e);
   }
+  // A gzip-compressed file (FILE.csv.gz, or any file starting with 1f 8b) is decompressed.
+  if (bytes.length >= 2 && bytes[0] === 0x1f && bytes[1] === 0x8b)
+    try {
+      bytes = gunzipSync(bytes);
+    } catch (e) {
+      throw new InputError(`${path}: the gzip data is damaged (${(e as Error).message}); compress the CSV again.`);
+    }
+  return { bytes, name: path };
 }
 
 /** The input error for a file that cannot be read, in words ("no such file", "permission denied", …). */

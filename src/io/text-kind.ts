@@ -1,4 +1,5 @@
-// What a file is before it is read as CSV: refuse gzip and UTF-16 by their
+// What a file is before it is read as CSV: refuse gzip (on standard input; a
+// named .gz file is decompressed before it gets here) and UTF-16 by their
 // first bytes, and the limits that keep reading bounded.
 import { InputError } from "../errors.js";
 
@@ -9,7 +10,7 @@ export const READER_LIMITS = { lineBytes: 64_000_000, columns: 100_000 } as cons
 export function checkTextKind(b: Uint8Array, source: string): void {
   if (b[0] === 0x1f && b[1] === 0x8b)
     throw new InputError(
-      `${source}: a gzip-compressed file, not CSV text; decompress it first (for example gunzip -c FILE | tallyfit … -).`,
+      `${source}: gzip-compressed data, not CSV text; give the file by its name (FILE.csv.gz is read directly) or decompress it first (gunzip -c FILE | tallyfit … -).`,
     );
   const utf16 =
     (b[0] === 0xff && b[1] === 0xfe) ||

@@ -292,11 +292,11 @@ export const CASES: ErrorCase[] = [
     message: /--cluster site: every row used is in one cluster \('s1'\)/,
   },
   {
-    mistake: "gzip-compressed file",
+    mistake: "damaged gzip-compressed file",
     content: new Uint8Array([0x1f, 0x8b, 8, 0, 0, 0, 0, 0]),
     args: M,
     code: 2,
-    message: /a gzip-compressed file, not CSV text/,
+    message: /the gzip data is damaged \(unexpected end of file\); compress the CSV again/,
   },
 ];
 
