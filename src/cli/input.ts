@@ -5,6 +5,7 @@ import { InputError } from "../errors.js";
 import { parseFormula, termVariables } from "../formula/formula.js";
 import { loadTableStream } from "../io/csv.js";
 import { loadDuckDbQuery, loadParquet } from "../io/duckdb-table.js";
+import { loadPostgresQuery, shownUrl } from "../io/postgres-table.js";
 import { columnLabels, type Table } from "../io/table.js";
 import {
   type Calendar,
@@ -168,9 +169,10 @@ async function readRows(
   progress?: (bytes: number, rows: number) => void,
 ): Promise<{ table: Table; sha256: string }> {
   if (opts.db) {
-    if (opts.db === "duckdb:" || opts.db.startsWith("duckdb:")) return loadDuckDbQuery(opts.db, opts.sql!, columns);
+    if (opts.db.startsWith("duckdb:")) return loadDuckDbQuery(opts.db, opts.sql!, columns);
+    if (/^postgres(ql)?:\/\//.test(opts.db)) return loadPostgresQuery(opts.db, opts.sql!, columns);
     throw new InputError(
-      `--db ${opts.db.replace(/\/\/[^@/]*@/, "//…@")}: this version reads DuckDB (duckdb: or duckdb:PATH); export the rows to CSV or Parquet for other databases.`,
+      `--db ${shownUrl(opts.db)}: not a database this version reads; give duckdb:[PATH] or postgres://user@host:port/db (or export the rows to CSV or Parquet).`,
     );
   }
   if (/\.parquet$/i.test(path)) return loadParquet(path, columns);

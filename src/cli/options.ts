@@ -158,7 +158,10 @@ export function addClusterOption(cmd: Command, help: string): Command {
 /** The model, family and design options of fit, check and compare, and where the rows come from. */
 export function addModelOptions(cmd: Command, multiModel = false): Command {
   return addModelSpecOptions(cmd, multiModel)
-    .option("--db <url>", "read the rows from a database instead of a file: duckdb: (in memory) or duckdb:PATH")
+    .option(
+      "--db <url>",
+      "read the rows from a database instead of a file: duckdb: (in memory), duckdb:PATH or postgres://user@host:port/db",
+    )
     .option("--sql <query>", "with --db: the query whose rows are the data (it becomes a subquery)");
 }
 

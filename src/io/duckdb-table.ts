@@ -9,9 +9,17 @@ import { readFile } from "node:fs/promises";
 import { createHash } from "node:crypto";
 import { InputError } from "../errors.js";
 import { unreadable } from "./source-bytes.js";
-import type { Column, Table } from "./table.js";
+import type { Table } from "./table.js";
+import { rowsDigest, typedTable } from "./typed-columns.js";
 
 type Value = unknown;
+
+/** A DuckDB date value (days since 1970-01-01) as YYYY-MM-DD; any other value as it is. */
+function duckValue(v: Value): Value {
+  if (v && typeof v === "object" && "days" in (v as object))
+    return new Date(Number((v as { days: number }).days) * 86_400_000).toISOString().slice(0, 10);
+  return v;
+}
 
 /** A DuckDB identifier, double-quoted with inner quotes doubled. */
 export function quoteIdentifier(name: string): string {
@@ -50,70 +58,20 @@ async function connect(path: string): Promise<Connection & { close(): void }> {
   });
 }
 
-const NUMERIC =
-  /^(TINYINT|SMALLINT|INTEGER|BIGINT|HUGEINT|UTINYINT|USMALLINT|UINTEGER|UBIGINT|FLOAT|DOUBLE|DECIMAL.*)$/;
-
-function text(v: Value): string {
-  if (v && typeof v === "object" && "days" in (v as object)) {
-    const d = new Date(Number((v as { days: number }).days) * 86_400_000);
-    return d.toISOString().slice(0, 10);
-  }
-  return String(v);
-}
-
-/** Typed columns from DuckDB's result columns. */
-function tableOf(
+/** A query result as typed columns: DuckDB's number types numeric, the rest text. */
+function duckTable(
   source: string,
   header: string[],
-  names: string[],
-  types: string[],
-  columns: Value[][],
+  r: { columnNames(): string[]; columnTypes(): { toString(): string }[]; getColumns(): Value[][] },
   options: { factors?: string[] },
 ): Table {
-  const forced = new Set(options.factors ?? []);
-  const map = new Map<string, Column>();
-  const n = columns[0]?.length ?? 0;
-  names.forEach((name, j) => {
-    const values = columns[j];
-    if (NUMERIC.test(types[j]) && !forced.has(name)) {
-      const out = new Float64Array(n);
-      for (let i = 0; i < n; i++) {
-        const v = values[i];
-        out[i] = v === null || v === undefined ? Number.NaN : Number(typeof v === "object" ? String(v) : v);
-      }
-      map.set(name, { kind: "numeric", name, values: out });
-      return;
-    }
-    const levels: string[] = [];
-    const index = new Map<string, number>();
-    const codes = new Int32Array(n);
-    let first: { row: number; value: string } | null = null;
-    for (let i = 0; i < n; i++) {
-      const v = values[i];
-      if (v === null || v === undefined) {
-        codes[i] = -1;
-        continue;
-      }
-      const t = text(v);
-      first ??= { row: i + 2, value: t };
-      let code = index.get(t);
-      if (code === undefined) {
-        code = levels.length;
-        index.set(t, code);
-        levels.push(t);
-      }
-      codes[i] = code;
-    }
-    map.set(name, {
-      kind: "factor",
-      name,
-      codes,
-      levels,
-      reason: forced.has(name) || !first ? { forced: true } : { forced: false, ...first },
-    });
-  });
-  return { source, header, nRows: n, columns: map, delimiter: "," };
+  const numeric = r.columnTypes().map((t) => NUMERIC.test(t.toString()));
+  const columns = r.getColumns().map((values, j) => (numeric[j] ? values : values.map(duckValue)));
+  return typedTable(source, header, r.columnNames(), numeric, columns, options);
 }
+
+const NUMERIC =
+  /^(TINYINT|SMALLINT|INTEGER|BIGINT|HUGEINT|UTINYINT|USMALLINT|UINTEGER|UBIGINT|FLOAT|DOUBLE|DECIMAL.*)$/;
 
 /**
  * Every column name of the source, and the select list: the columns asked for
@@ -149,14 +107,7 @@ export async function loadParquet(
     const from = "read_parquet(?)";
     const cols = await selectList(c, from, [path], options.select);
     const r = await c.runAndReadAll(`SELECT ${cols.list} FROM ${from}`, [path]);
-    const table = tableOf(
-      path,
-      cols.header,
-      r.columnNames(),
-      r.columnTypes().map((t) => t.toString()),
-      r.getColumns(),
-      options,
-    );
+    const table = duckTable(path, cols.header, r, options);
     if (table.nRows === 0) throw new InputError(`${path}: the Parquet file has no rows.`);
     return { table, sha256: createHash("sha256").update(bytes).digest("hex") };
   } catch (e) {
@@ -185,25 +136,9 @@ export async function loadDuckDbQuery(
     const from = `(${sql.trim().replace(/;\s*$/, "")}) AS tallyfit_rows`;
     const cols = await selectList(c, from, [], options.select);
     const r = await c.runAndReadAll(`SELECT ${cols.list} FROM ${from}`);
-    const table = tableOf(
-      source,
-      cols.header,
-      r.columnNames(),
-      r.columnTypes().map((t) => t.toString()),
-      r.getColumns(),
-      options,
-    );
+    const table = duckTable(source, cols.header, r, options);
     if (table.nRows === 0) throw new InputError(`${source}: the query returned no rows.`);
-    // The digest of the rows read (not of a file): the same query on the same data gives the same digest.
-    const hash = createHash("sha256");
-    for (const name of table.header) hash.update(`${name}\u0000`);
-    for (const col of table.columns.values())
-      hash.update(
-        col.kind === "numeric"
-          ? new Uint8Array(col.values.buffer)
-          : `${col.levels.join("\u0000")}|${col.codes.join(",")}`,
-      );
-    return { table, sha256: hash.digest("hex") };
+    return { table, sha256: rowsDigest(table) };
   } catch (e) {
     if (e instanceof InputError) throw e;
     throw new InputError(`--sql: the query failed in DuckDB (${firstLine(e)}).`);
