@@ -9,7 +9,7 @@ import type { PredictionDesign } from "../design/predict-design.js";
 import type { ModelFile } from "../io/model-file.js";
 import { negbinSumPmf, negbinSumReach, negbinSumTerms } from "./negbin-sum.js";
 import { drawMeans, type GroupFlag, type PredictOptions, prepare, rowLinear } from "./predict.js";
-import { predictiveTable, tableQuantile } from "./predictive.js";
+import { predictiveTable, flagLimit, tableQuantile } from "./predictive.js";
 import { zeroGroupFlags } from "./zero-group-flags.js";
 
 export interface GroupFlags {
@@ -103,9 +103,7 @@ export function groupFlags(
         observed,
       );
     }
-    const limit = tableQuantile(table.pmf, o.flagLevel);
-    let below = 0;
-    for (let k = 0; k <= limit && k < table.pmf.length; k++) below += table.pmf[k];
+    const { limit, chance } = flagLimit(table.pmf, o.flagLevel);
     return {
       group: names[g],
       rows: rows.length,
@@ -114,7 +112,7 @@ export function groupFlags(
       prediction_interval: [tableQuantile(table.pmf, tail), tableQuantile(table.pmf, 1 - tail)] as [number, number],
       flag_limit: limit,
       upper_tail_p: table.upperTail,
-      flag_chance: Math.max(0, 1 - below),
+      flag_chance: chance,
       flagged: observed !== null && observed > limit,
     };
   });

@@ -9,7 +9,7 @@ import { cholesky } from "../math/linalg.js";
 import type { ModelFile } from "../io/model-file.js";
 import { normalQuantile } from "../math/distributions.js";
 import { normalGenerator } from "../math/random.js";
-import { predictiveTable, tableQuantile } from "./predictive.js";
+import { predictiveTable, flagLimit, tableQuantile } from "./predictive.js";
 
 export interface PredictOptions {
   level: number;
@@ -250,9 +250,7 @@ export function predictRange(
     const tail = (1 - o.level) / 2;
     const lo = tableQuantile(table.pmf, tail);
     const hi = tableQuantile(table.pmf, 1 - tail);
-    const limit = tableQuantile(table.pmf, o.flagLevel);
-    let below = 0;
-    for (let k = 0; k <= limit && k < table.pmf.length; k++) below += table.pmf[k];
+    const { limit, chance } = flagLimit(table.pmf, o.flagLevel);
     const upperTail = table.upperTail;
     const limitNote =
       atLimit === null
@@ -268,7 +266,7 @@ export function predictRange(
       upper_tail_p: upperTail,
       flag_limit: limit,
       flagged: obs !== null && obs > limit,
-      flag_chance: Math.max(0, 1 - below),
+      flag_chance: chance,
       note: limitNote,
     });
   }

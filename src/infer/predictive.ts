@@ -156,3 +156,11 @@ export function tableQuantile(pmf: Float64Array, level: number): number {
   }
   return pmf.length - 1;
 }
+
+/** The flag limit (the flag-level quantile) and the chance of a count beyond it, from the table. */
+export function flagLimit(pmf: Float64Array, flagLevel: number): { limit: number; chance: number } {
+  const limit = tableQuantile(pmf, flagLevel);
+  let below = 0;
+  for (let k = 0; k <= limit && k < pmf.length; k++) below += pmf[k];
+  return { limit, chance: Math.max(0, 1 - below) };
+}

@@ -7,7 +7,7 @@ import type { PredictionDesign } from "../design/predict-design.js";
 import type { ModelFile } from "../io/model-file.js";
 import type { GroupFlag, PredictOptions } from "./predict.js";
 import { prepare } from "./predict.js";
-import { tableQuantile } from "./predictive.js";
+import { flagLimit, tableQuantile } from "./predictive.js";
 import { zeroModifiedMean, zeroModifiedPmf, zeroRowDraws, type ZeroRowDraws } from "./zero-predict.js";
 
 /** Multiply-adds the convolutions may take across all draws before fewer draws are used. */
@@ -101,9 +101,7 @@ export function zeroGroupFlags(
       for (let k = observed; k < pmf.length; k++) upper += pmf[k];
       upper = observed === 0 ? 1 : Math.min(1, upper);
     }
-    const limit = tableQuantile(pmf, o.flagLevel);
-    let below = 0;
-    for (let k = 0; k <= limit && k < pmf.length; k++) below += pmf[k];
+    const { limit, chance } = flagLimit(pmf, o.flagLevel);
     return {
       group: names[g],
       rows: rows.length,
@@ -112,7 +110,7 @@ export function zeroGroupFlags(
       prediction_interval: [tableQuantile(pmf, tail), tableQuantile(pmf, 1 - tail)] as [number, number],
       flag_limit: limit,
       upper_tail_p: upper,
-      flag_chance: Math.max(0, 1 - below),
+      flag_chance: chance,
       flagged: observed !== null && observed > limit,
     };
   });

@@ -9,7 +9,7 @@
 import type { PredictionDesign } from "../design/predict-design.js";
 import type { ModelFile } from "../io/model-file.js";
 import { drawMeans, type PredictOptions, type PredictedRow, type Prepared, prepare, rowLinear } from "./predict.js";
-import { predictiveTable, tableQuantile } from "./predictive.js";
+import { predictiveTable, flagLimit, tableQuantile } from "./predictive.js";
 
 /** log f(0) of the count part: −λ (Poisson) or −log(1 + αλ)/α (NB2). */
 export function logZeroProbability(lambda: number, alpha: number): number {
@@ -141,9 +141,7 @@ export function predictZeroRange(
     }
     const sorted = Float64Array.from(means).sort();
     const at = (p: number) => sorted[Math.min(D - 1, Math.max(0, Math.round(p * (D - 1))))];
-    const limit = tableQuantile(pmf, o.flagLevel);
-    let below = 0;
-    for (let k = 0; k <= limit && k < pmf.length; k++) below += pmf[k];
+    const { limit, chance } = flagLimit(pmf, o.flagLevel);
     rows.push({
       row: pd.fileRows ? pd.fileRows[i] : i + 2,
       expected: zeroModifiedMean(r.lambda, prep.alpha, r.prob, hurdle),
@@ -153,7 +151,7 @@ export function predictZeroRange(
       upper_tail_p: obs === null ? null : obs === 0 ? 1 : Math.min(1, upperTail),
       flag_limit: limit,
       flagged: obs !== null && obs > limit,
-      flag_chance: Math.max(0, 1 - below),
+      flag_chance: chance,
       note: null,
     });
   }

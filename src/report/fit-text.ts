@@ -353,6 +353,24 @@ function geeBlock(s: FitSummary, k: ReportSink): void {
 function negbinBlock(s: FitSummary, lv: string, k: ReportSink): void {
   const nb = s.negbin!;
   k.heading("Extra-Poisson variation (NB2: variance = μ + α·μ²)");
+  alphaRow(nb, lv, k);
+  k.table(
+    [
+      ["", "log-likelihood", "AIC"],
+      ["NB2", fixed(s.log_likelihood, 2), fixed(s.aic, 2)],
+      ["Poisson (α = 0)", fixed(nb.poisson_log_likelihood, 2), fixed(nb.poisson_aic, 2)],
+    ],
+    ["l", "r", "r"],
+  );
+  k.para(
+    `Twice the log-likelihood gain of NB2 over the Poisson: ${fixed(nb.lr_stat, 2)}, ${pEquals(nb.lr_p_value)} (half the chi-square(1) tail, as α cannot fall below 0).`,
+  );
+  if (nb.boundary) k.para(k.style.good("α is 0 at the maximum: the negative binomial reduces to the Poisson here."));
+  k.blank();
+}
+
+/** α with its interval and how the interval is made (shared by the plain and the zero families' NB2 blocks). */
+export function alphaRow(nb: NonNullable<FitSummary["negbin"]>, lv: string, k: ReportSink): void {
   k.table(
     [
       [
@@ -367,19 +385,6 @@ function negbinBlock(s: FitSummary, lv: string, k: ReportSink): void {
     ["l", "r", "l", "l"],
     false,
   );
-  k.table(
-    [
-      ["", "log-likelihood", "AIC"],
-      ["NB2", fixed(s.log_likelihood, 2), fixed(s.aic, 2)],
-      ["Poisson (α = 0)", fixed(nb.poisson_log_likelihood, 2), fixed(nb.poisson_aic, 2)],
-    ],
-    ["l", "r", "r"],
-  );
-  k.para(
-    `Twice the log-likelihood gain of NB2 over the Poisson: ${fixed(nb.lr_stat, 2)}, ${pEquals(nb.lr_p_value)} (half the chi-square(1) tail, as α cannot fall below 0).`,
-  );
-  if (nb.boundary) k.para(k.style.good("α is 0 at the maximum: the negative binomial reduces to the Poisson here."));
-  k.blank();
 }
 
 /** Numbered warnings (when there are any), then the short caution that ends every report. */

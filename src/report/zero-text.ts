@@ -2,7 +2,7 @@
 // rate ratios, the zero part as odds ratios, alpha, zeros observed against
 // expected, the likelihood figures, warnings and the closing caution.
 import type { FitSummary } from "../infer/summary.js";
-import { closing, estimateRows, FAMILY_TITLE, familyChoice } from "./fit-text.js";
+import { alphaRow, closing, estimateRows, FAMILY_TITLE, familyChoice } from "./fit-text.js";
 import { fixed, interval, pEquals, sig } from "./format.js";
 import { type ReportSink, TextSink } from "./sink.js";
 import type { Style } from "./style.js";
@@ -62,20 +62,7 @@ export function writeZeroFit(s: FitSummary, k: ReportSink): void {
   if (s.negbin) {
     const nb = s.negbin;
     k.heading("Extra-Poisson variation in the count part (NB2: variance = μ + α·μ²)");
-    k.table(
-      [
-        [
-          "α",
-          sig(nb.alpha),
-          nb.alpha_ci ? `${lv} ${interval(nb.alpha_ci)}` : "",
-          nb.alpha_std_error !== null
-            ? `standard error ${sig(nb.alpha_std_error)}; limits exp(log α ± z·SE of log α)`
-            : "",
-        ],
-      ],
-      ["l", "r", "l", "l"],
-      false,
-    );
+    alphaRow(nb, lv, k);
     k.para(
       `Twice the log-likelihood gain over the Poisson form: ${fixed(nb.lr_stat, 2)}, ${pEquals(nb.lr_p_value)} (half the chi-square(1) tail, as α cannot fall below 0).`,
     );

@@ -26,26 +26,18 @@ function simulate(u: () => number, n: number): string {
   return csv;
 }
 
-test("zinb --save-model: the model file holds the fit's estimates for both parts and alpha, and passes its schema", () => {
+/** Fit a zero family to the rows with --save-model (zero part ~ small_unit); the run, the model file, the folder. */
+function fitSaved(csv: string, family: string, extra: string[]) {
   const dir = mkdtempSync(join(tmpdir(), "tallyfit-zpred-"));
-  writeFileSync(join(dir, "train.csv"), simulate(rng(71), 500));
+  writeFileSync(join(dir, "train.csv"), csv);
   const model = join(dir, "m.json");
-  const r = runCli([
-    "fit",
-    join(dir, "train.csv"),
-    "--model",
-    "falls ~ ward_type",
-    "--exposure",
-    "bed_days",
-    "--family",
-    "zinb",
-    "--zero-terms",
-    "small_unit",
-    "--format",
-    "json",
-    "--save-model",
-    model,
-  ]);
+  const args = ["--model", "falls ~ ward_type", "--exposure", "bed_days", "--zero-terms", "small_unit"];
+  const r = runCli(["fit", join(dir, "train.csv"), ...args, "--family", family, "--save-model", model, ...extra]);
+  return { r, model, dir };
+}
+
+test("zinb --save-model: the model file holds the fit's estimates for both parts and alpha, and passes its schema", () => {
+  const { r, model } = fitSaved(simulate(rng(71), 500), "zinb", ["--format", "json"]);
   assert.equal(r.code, 0, r.stderr);
   const fit = JSON.parse(r.stdout);
   const saved = JSON.parse(readFileSync(model, "utf8"));
@@ -71,26 +63,8 @@ test("zinb --save-model: the model file holds the fit's estimates for both parts
 });
 
 test("predict under a saved zinb fit on new rows from the true model: 90% prediction intervals cover at least 90% (they are conservative for counts) and the flags at 0.95 follow the model's chance (seeded)", () => {
-  const dir = mkdtempSync(join(tmpdir(), "tallyfit-zpred-"));
-  writeFileSync(join(dir, "train.csv"), simulate(rng(5), 800));
+  const { r: fit, model, dir } = fitSaved(simulate(rng(5), 800), "zinb", ["--intervals", "wald"]);
   writeFileSync(join(dir, "new.csv"), simulate(rng(6), 2000));
-  const model = join(dir, "m.json");
-  const fit = runCli([
-    "fit",
-    join(dir, "train.csv"),
-    "--model",
-    "falls ~ ward_type",
-    "--exposure",
-    "bed_days",
-    "--family",
-    "zinb",
-    "--zero-terms",
-    "small_unit",
-    "--intervals",
-    "wald",
-    "--save-model",
-    model,
-  ]);
   assert.equal(fit.code, 0, fit.stderr);
   const r = runCli([
     "predict",
@@ -130,11 +104,7 @@ test("predict under a saved zinb fit on new rows from the true model: 90% predic
 });
 
 test("predict --flag-by under a hurdle model groups the rows, and --summary-by is refused with the way to group (exit 2)", () => {
-  const dir = mkdtempSync(join(tmpdir(), "tallyfit-zpred-"));
-  writeFileSync(join(dir, "train.csv"), simulate(rng(9), 400));
-  const model = join(dir, "m.json");
-  const args = ["--model", "falls ~ ward_type", "--exposure", "bed_days", "--zero-terms", "small_unit"];
-  const fit = runCli(["fit", join(dir, "train.csv"), ...args, "--family", "hurdle-negbin", "--save-model", model]);
+  const { r: fit, model, dir } = fitSaved(simulate(rng(9), 400), "hurdle-negbin", []);
   assert.equal(fit.code, 0, fit.stderr);
   const r = runCli([
     "predict",
