@@ -9,6 +9,7 @@ export { EXIT, FitError, InputError } from "./errors.js";
 export { loadTable, parseTable, type LoadOptions } from "./io/csv.js";
 export { loadDuckDbQuery, loadParquet } from "./io/duckdb-table.js";
 export { loadPostgresQuery } from "./io/postgres-table.js";
+export { loadClickHouseQuery } from "./io/clickhouse-table.js";
 export { DEFAULT_NA } from "./io/dialect.js";
 export type { Column, FactorColumn, NumericColumn, Table } from "./io/table.js";
 export { loadModelFile, parseModelFile, MODEL_FILE_SCHEMA, type ModelFile } from "./io/model-file.js";

@@ -160,7 +160,7 @@ export function addModelOptions(cmd: Command, multiModel = false): Command {
   return addModelSpecOptions(cmd, multiModel)
     .option(
       "--db <url>",
-      "read the rows from a database instead of a file: duckdb: (in memory), duckdb:PATH or postgres://user@host:port/db",
+      "read the rows from a database instead of a file: duckdb: (in memory), duckdb:PATH, postgres://user@host:port/db or clickhouse://host:port/db",
     )
     .option("--sql <query>", "with --db: the query whose rows are the data (it becomes a subquery)");
 }
