@@ -61,5 +61,5 @@ export function writeCompare(r: CompareResult, k: ReportSink): void {
   const notes = r.notes.filter((n) => !n.startsWith("models that are not nested"));
   for (const n of notes) k.para(`Note: ${n}.`);
   if (notes.length || r.covariance) k.blank();
-  k.para(`Reading these results: ${CAUTION}`, 0, 0);
+  k.caution(`Reading these results: ${CAUTION}`);
 }

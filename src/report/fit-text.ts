@@ -394,7 +394,7 @@ export function closing(warns: string[], k: ReportSink): void {
     k.numbered(warns);
     k.blank();
   }
-  k.para(`Reading these results: ${CAUTION}`, 0, 0);
+  k.caution(`Reading these results: ${CAUTION}`);
 }
 
 function dispersionBlock(s: FitSummary, k: ReportSink): void {

@@ -123,9 +123,11 @@ export class HtmlSink implements ReportSink {
   }
   para(text: string): void {
     this.closeHeader();
-    const cls =
-      text.startsWith("Reading these results:") || text.startsWith("A flag is a signal") ? ' class="caution-note"' : "";
-    this.body.push(`<p${cls}>${inline(text)}</p>`);
+    this.body.push(`<p>${inline(text)}</p>`);
+  }
+  caution(text: string): void {
+    this.closeHeader();
+    this.body.push(`<p class="caution-note">${inline(text)}</p>`);
   }
   numbered(items: string[]): void {
     this.body.push(`<ol class="warnings">${items.map((w) => `<li>${inline(w)}</li>`).join("")}</ol>`);

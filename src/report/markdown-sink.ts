@@ -49,6 +49,9 @@ export class MarkdownSink implements ReportSink {
   para(text: string): void {
     this.block(inline(text));
   }
+  caution(text: string): void {
+    this.block(`> ${inline(text)}`);
+  }
   numbered(items: string[]): void {
     this.block(items.map((w, i) => `${i + 1}. ${inline(w)}`).join("\n"));
   }

@@ -153,7 +153,7 @@ export function writePredict(
     k.numbered(r.warnings);
     k.blank();
   }
-  k.para(FLAG_CAUTION, 0, 0);
+  k.caution(FLAG_CAUTION);
 }
 
 /** How many flags chance alone would give, beside the flags found. */

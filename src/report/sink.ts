@@ -20,6 +20,8 @@ export interface ReportSink {
   header(label: string, text: string, wrapped?: boolean): void;
   /** A paragraph: in text, wrapped at width − indent, continuation lines indented by hang more. */
   para(text: string, indent?: number, hang?: number): void;
+  /** The short caution on reading the results that ends a report (set apart on a page). */
+  caution(text: string): void;
   /** A numbered list (warnings). */
   numbered(items: string[]): void;
   /**
@@ -57,6 +59,9 @@ export class TextSink implements ReportSink {
   para(text: string, indent = 2, hang = 2): void {
     const pad = " ".repeat(indent);
     this.out.push(...wrap(text, this.width - indent, " ".repeat(hang)).map((l) => pad + l));
+  }
+  caution(text: string): void {
+    this.para(text, 0, 0);
   }
   numbered(items: string[]): void {
     items.forEach((w, i) => this.para(`${i + 1}. ${w}`, 2, 3));
