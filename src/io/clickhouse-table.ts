@@ -55,7 +55,8 @@ async function run(e: Endpoint, sql: string, password: string): Promise<string> 
   try {
     response = await fetch(`${e.http}?${e.params}`, { method: "POST", body: sql });
   } catch (err) {
-    const cause = (err as { cause?: { code?: string } }).cause?.code ?? (err as Error).message;
+    const c = (err as { cause?: { code?: string; message?: string } }).cause;
+    const cause = c?.code ?? c?.message ?? (err as Error).message;
     throw new InputError(`${e.where}: cannot connect to ClickHouse (${cause}).`);
   }
   const body = await response.text();
