@@ -1,7 +1,7 @@
 // Design stage: model terms + typed columns → a row-sparse design matrix with
 // treatment (reference-level) coding, an offset, weights and the rows used.
 import { InputError } from "../errors.js";
-import type { Column, Table } from "../io/table.js";
+import type { Column, SourceOrigin, Table } from "../io/table.js";
 import { fileRow } from "../io/table.js";
 import type { Formula } from "../formula/formula.js";
 import { termVariables } from "../formula/formula.js";
@@ -67,6 +67,8 @@ export interface DesignMatrix {
 
 export interface Design {
   source: string;
+  /** The engine the rows came from when not a plain CSV (the JSON's source block). */
+  origin?: SourceOrigin;
   model: Formula;
   /** Data rows in the file. */
   nRows: number;
@@ -320,6 +322,7 @@ export function buildDesign(table: Table, model: Formula, options: DesignOptions
   }
   return {
     source: table.source,
+    ...(table.origin ? { origin: table.origin } : {}),
     model,
     nRows: N,
     n,

@@ -6,6 +6,7 @@ import type { CountFit } from "../fit/count-fit.js";
 import { chiSquareUpperTail, normalUpperTail } from "../math/distributions.js";
 import type { DependenceReading } from "./dependence.js";
 import { boundaryLrTest, fitStatistics } from "./fit-statistics.js";
+import { type Source, sourceOf } from "./source.js";
 
 export interface CheckTest {
   /** Short label for lists. */
@@ -39,7 +40,7 @@ export interface CheckResult {
   family_checked?: "poisson" | "negbin" | "quasipoisson" | "zip" | "zinb" | "hurdle-poisson" | "hurdle-negbin";
   /** Quasi-Poisson: the dispersion phi of the model checked. */
   phi?: number;
-  source: string;
+  source: Source;
   model: string;
   exposure: string | null;
   n_used: number;
@@ -316,7 +317,7 @@ export function runChecks(design: Design, pois: CountFit, nb: CountFit, testLeve
     );
   return {
     schema: "tallyfit.check/1",
-    source: design.source,
+    source: sourceOf(design),
     model: design.model.text,
     exposure: design.exposureName,
     n_used: n,

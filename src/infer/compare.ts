@@ -6,6 +6,7 @@ import { chiSquareUpperTail, fUpperTail } from "../math/distributions.js";
 import type { ClusterCovariance } from "./cluster.js";
 import { fitStatistics } from "./fit-statistics.js";
 import { waldStatistic } from "./wald-terms.js";
+import { type Source, sourceOf } from "./source.js";
 
 export interface CompareEntry {
   design: Design;
@@ -37,7 +38,7 @@ export interface ComparePair {
 
 export interface CompareResult {
   schema: "tallyfit.compare/1";
-  source: string;
+  source: Source;
   n_rows: number;
   n_used: number;
   n_dropped: number;
@@ -247,7 +248,7 @@ export function compareModels(entries: CompareEntry[], clustered?: ClusterCovari
     notes.push("quasi-Poisson has no likelihood, so no AIC or BIC; nested quasi-Poisson models get F tests");
   return {
     schema: "tallyfit.compare/1",
-    source: d0.source,
+    source: sourceOf(d0),
     n_rows: d0.nRows,
     n_used: d0.n,
     n_dropped: d0.nRows - d0.n,

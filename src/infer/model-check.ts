@@ -14,6 +14,7 @@ import type { CountFit } from "../fit/count-fit.js";
 import { chiSquareUpperTail, normalTwoSidedP, normalUpperTail } from "../math/distributions.js";
 import type { CheckResult, CheckTest } from "./check.js";
 import { fitStatistics, quasiPhi } from "./fit-statistics.js";
+import { sourceOf } from "./source.js";
 
 /** P(Y = 0) under the fitted family at mean mu: NB2, or the negative binomial with variance phi·mu (quasi). */
 function zeroProbability(mu: number, alpha: number, phi: number | null): number {
@@ -223,7 +224,7 @@ export function momentChecks(
   return {
     schema: "tallyfit.check/1",
     family_checked: mm.family,
-    source: design.source,
+    source: sourceOf(design),
     model: design.model.text,
     exposure: design.exposureName,
     n_used: n,

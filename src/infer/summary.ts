@@ -31,6 +31,7 @@ export interface ZeroPartSummary {
 }
 import { type Seasonality, seasonalityOf } from "./seasonality.js";
 import { type Baseline, baselineOf } from "./baseline.js";
+import { type Source, sourceOf } from "./source.js";
 
 export type { FamilyName } from "../fit/count-fit.js";
 
@@ -94,7 +95,7 @@ export interface FitSummary {
   family_choice: { requested: string; used: FamilyName | ZeroFamily; reason: string } | null;
   link: "log";
   level: number;
-  source: string;
+  source: Source;
   model: string;
   response: string;
   exposure: string | null;
@@ -335,7 +336,7 @@ export function summarizeFit(design: Design, mf: CountFit, options: SummaryOptio
       : null,
     link: "log",
     level: options.level,
-    source: design.source,
+    source: sourceOf(design),
     model: design.model.text,
     response: design.model.response,
     exposure: design.exposureName,

@@ -18,6 +18,7 @@ import {
 } from "../math/distributions.js";
 import { boundaryLrTest } from "./fit-statistics.js";
 import type { CoefficientRow, FitSummary, NegbinSummary } from "./summary.js";
+import { sourceOf } from "./source.js";
 
 export interface ZeroSummaryOptions {
   level: number;
@@ -203,7 +204,7 @@ export function summarizeZeroFit(count: Design, zero: Design, z: ZeroFit, o: Zer
       : null,
     link: "log",
     level: o.level,
-    source: count.source,
+    source: sourceOf(count),
     model: count.model.text,
     response: count.model.response,
     exposure: count.exposureName,

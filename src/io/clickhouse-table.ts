@@ -102,5 +102,6 @@ export async function loadClickHouseQuery(
     options,
   );
   if (table.nRows === 0) throw new InputError(`${e.where}: the query returned no rows.`);
+  table.origin = { engine: "clickhouse", queries: 2, rows_transferred: table.nRows };
   return { table, sha256: rowsDigest(table) };
 }

@@ -90,7 +90,8 @@ export async function loadTableStream(
   const reader = makeReader({ ...options, source: name });
   const hash = createHash("sha256");
   let any = false,
-    nonBlank = false;
+    nonBlank = false,
+    gzip = false;
   const consume = (chunk: Uint8Array) => {
     hash.update(chunk);
     if (!nonBlank && !isBlank(chunk) && !(chunk.length <= 3 && chunk[0] === 0xef)) nonBlank = true;
@@ -99,8 +100,9 @@ export async function loadTableStream(
     progress?.(reader.bytesRead, reader.rows);
   };
   try {
+    gzip = path !== "-" && (await isGzip(path));
     if (path === "-") for await (const chunk of process.stdin) consume(chunk as Uint8Array);
-    else if (await isGzip(path)) {
+    else if (gzip) {
       // A gzip-compressed CSV (FILE.csv.gz) is read through the decompressor; the digest is of the CSV itself.
       for await (const chunk of createReadStream(path).pipe(createGunzip())) consume(chunk as Uint8Array);
     } else {
@@ -127,7 +129,9 @@ export async function loadTableStream(
   }
   if (!any || !nonBlank)
     throw new InputError(`${name}: the file is empty; expected a header row and at least one data row.`);
-  return { table: reader.finish(), sha256: hash.digest("hex") };
+  const table = reader.finish();
+  if (gzip) table.origin = { engine: "csv.gz", queries: 0, rows_transferred: table.nRows };
+  return { table, sha256: hash.digest("hex") };
 }
 
 /** Whether a file starts with the gzip magic bytes 1f 8b (whatever its name). */

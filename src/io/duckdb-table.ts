@@ -109,6 +109,7 @@ export async function loadParquet(
     const r = await c.runAndReadAll(`SELECT ${cols.list} FROM ${from}`, [path]);
     const table = duckTable(path, cols.header, r, options);
     if (table.nRows === 0) throw new InputError(`${path}: the Parquet file has no rows.`);
+    table.origin = { engine: "parquet", queries: 2, rows_transferred: table.nRows };
     return { table, sha256: createHash("sha256").update(bytes).digest("hex") };
   } catch (e) {
     if (e instanceof InputError) throw e;
@@ -138,6 +139,7 @@ export async function loadDuckDbQuery(
     const r = await c.runAndReadAll(`SELECT ${cols.list} FROM ${from}`);
     const table = duckTable(source, cols.header, r, options);
     if (table.nRows === 0) throw new InputError(`${source}: the query returned no rows.`);
+    table.origin = { engine: "duckdb", queries: 2, rows_transferred: table.nRows };
     return { table, sha256: rowsDigest(table) };
   } catch (e) {
     if (e instanceof InputError) throw e;

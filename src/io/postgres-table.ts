@@ -60,6 +60,7 @@ export async function loadPostgresQuery(
       options,
     );
     if (table.nRows === 0) throw new InputError(`${where}: the query returned no rows.`);
+    table.origin = { engine: "postgres", queries: 2, rows_transferred: table.nRows };
     return { table, sha256: rowsDigest(table) };
   } catch (e) {
     if (e instanceof InputError) throw e;

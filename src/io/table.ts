@@ -19,6 +19,15 @@ export interface FactorColumn {
 
 export type Column = NumericColumn | FactorColumn;
 
+/** The engine that read a table's rows (a gzip CSV, Parquet, a database), as the JSON's source block reports it. */
+export interface SourceOrigin {
+  engine: "csv.gz" | "parquet" | "duckdb" | "postgres" | "clickhouse";
+  /** Queries run against the engine (0 for a file read without one). */
+  queries: number;
+  /** Rows the engine sent to tallyfit. */
+  rows_transferred: number;
+}
+
 export interface Table {
   /** Display name of the source: the path, or "<stdin>". */
   source: string;
@@ -29,6 +38,8 @@ export interface Table {
   /** The selected columns (all columns when no selection was given). */
   columns: Map<string, Column>;
   delimiter: string;
+  /** Where the rows came from when not a plain CSV: the engine that read them, its queries and the rows it sent. */
+  origin?: SourceOrigin;
   /** Every data row's fields as read (only when the reader was asked to keep them). */
   records?: string[][];
 }

@@ -1,7 +1,7 @@
 // The report of `tallyfit check`, written to any sink (text, Markdown, HTML).
 import type { CheckResult } from "../infer/check.js";
 import { closing } from "./fit-text.js";
-import { fixed, pValue } from "./format.js";
+import { fixed, pValue, sourceText } from "./format.js";
 import { type ReportSink, TextSink } from "./sink.js";
 import type { Style } from "./style.js";
 
@@ -18,7 +18,7 @@ export function writeCheck(r: CheckResult, k: ReportSink, picture?: { svg: strin
       ? `Adequacy check of the ${r.family_checked === "negbin" ? "negative-binomial" : "quasi-Poisson"} model${r.dependence ? ", with dependence" : ""}`
       : `Dispersion${r.dependence ? ", zero-count and dependence" : " and zero-count"} check of the Poisson model`,
   );
-  k.header("data", `${r.source}: ${fixed(r.n_used, 0)} rows used`);
+  k.header("data", `${sourceText(r.source)}: ${fixed(r.n_used, 0)} rows used`);
   k.header("model", `${r.model}${r.exposure ? `, exposure ${r.exposure}` : ""}`);
   k.header("level", `each test flags at p < ${r.test_level}`);
   k.blank();

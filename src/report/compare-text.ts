@@ -1,7 +1,7 @@
 // The text report of `tallyfit compare`.
 import type { CompareResult } from "../infer/compare.js";
 import { CAUTION } from "./fit-text.js";
-import { fixed, pValue } from "./format.js";
+import { fixed, pValue, sourceText } from "./format.js";
 import { type ReportSink, TextSink } from "./sink.js";
 import type { Style } from "./style.js";
 
@@ -16,7 +16,7 @@ export function writeCompare(r: CompareResult, k: ReportSink): void {
   k.heading("Model comparison on the same rows");
   k.header(
     "data",
-    `${r.source}: ${fixed(r.n_rows, 0)} rows, ${fixed(r.n_used, 0)} used by every model${r.n_dropped ? `, ${r.n_dropped} left out (${[r.dropped.missing ? `${r.dropped.missing} with a missing value in a column some model uses` : "", r.dropped.zero_exposure_zero_count ? `${r.dropped.zero_exposure_zero_count} with zero exposure and zero count` : "", r.dropped.zero_weight ? `${r.dropped.zero_weight} with weight 0` : ""].filter(Boolean).join("; ")})` : ""}`,
+    `${sourceText(r.source)}: ${fixed(r.n_rows, 0)} rows, ${fixed(r.n_used, 0)} used by every model${r.n_dropped ? `, ${r.n_dropped} left out (${[r.dropped.missing ? `${r.dropped.missing} with a missing value in a column some model uses` : "", r.dropped.zero_exposure_zero_count ? `${r.dropped.zero_exposure_zero_count} with zero exposure and zero count` : "", r.dropped.zero_weight ? `${r.dropped.zero_weight} with weight 0` : ""].filter(Boolean).join("; ")})` : ""}`,
   );
   k.blank();
   const rows: string[][] = [["#", "model", "family", "parameters", "log-likelihood", "AIC", "BIC", "preferred by"]];

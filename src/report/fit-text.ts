@@ -1,7 +1,7 @@
 // The text report of one fitted model, in tallyfit's own layout:
 // rate ratios first, then the coefficients, fit figures, dispersion, warnings.
 import type { CoefficientRow, FitSummary } from "../infer/summary.js";
-import { fixed, groupRows, interval, pEquals, pValue, profileInterval, sig } from "./format.js";
+import { fixed, groupRows, interval, pEquals, pValue, profileInterval, sig, sourceText } from "./format.js";
 import { type Align, type ReportSink, TextSink } from "./sink.js";
 import type { Style } from "./style.js";
 import type { Rootogram } from "../infer/diagnostics.js";
@@ -133,7 +133,7 @@ export function writeFit(
   const lv = pct(s.level);
   const exposureText = s.exposure ? `, exposure ${s.exposure} (log offset)` : s.offset ? `, offset ${s.offset}` : "";
   k.heading(`${FAMILY_TITLE[s.family]} rate model for ${s.response}, log link${exposureText}`);
-  k.header("data", `${s.source}: ${fixed(s.n_rows, 0)} rows, ${fixed(s.n_used, 0)} used${droppedText(s)}`);
+  k.header("data", `${sourceText(s.source)}: ${fixed(s.n_rows, 0)} rows, ${fixed(s.n_used, 0)} used${droppedText(s)}`);
   k.header("model", `${s.model}${s.weights ? `   (frequency weights: ${s.weights})` : ""}`);
   k.header(
     "fit",

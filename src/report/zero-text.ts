@@ -3,7 +3,7 @@
 // expected, the likelihood figures, warnings and the closing caution.
 import type { FitSummary } from "../infer/summary.js";
 import { alphaRow, closing, estimateRows, FAMILY_TITLE, familyChoice } from "./fit-text.js";
-import { fixed, interval, pEquals, sig } from "./format.js";
+import { fixed, interval, pEquals, sig, sourceText } from "./format.js";
 import { type ReportSink, TextSink } from "./sink.js";
 import type { Style } from "./style.js";
 
@@ -21,7 +21,7 @@ export function writeZeroFit(s: FitSummary, k: ReportSink): void {
   k.heading(
     `${FAMILY_TITLE[s.family]} model for ${s.response}, log link${s.exposure ? `, exposure ${s.exposure} (log offset)` : ""}`,
   );
-  k.header("data", `${s.source}: ${fixed(s.n_rows, 0)} rows, ${fixed(s.n_used, 0)} used`);
+  k.header("data", `${sourceText(s.source)}: ${fixed(s.n_rows, 0)} rows, ${fixed(s.n_used, 0)} used`);
   k.header("model", `count part ${s.model}; zero part ~ ${zp.terms}`);
   k.header(
     "fit",

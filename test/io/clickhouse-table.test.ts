@@ -59,6 +59,11 @@ test("through the two-shard Distributed table the fits equal the CSV's (1e-9): e
     const j = fit(["--db", cluster.url, "--sql", "SELECT * FROM visits_all"], model);
     const what = model.join(" ");
     assert.equal(j.n_used, ref.n_used, `${what}: rows used`);
+    assert.deepEqual(
+      [j.source.engine, j.source.pushed_down, j.source.rows_transferred],
+      ["clickhouse", false, ref.n_rows],
+      `${what}: the source block`,
+    );
     assertRel(j.deviance, ref.deviance, 1e-9, `${what}: deviance`);
     j.coefficients.forEach((c: { term: string; estimate: number; std_error: number; profile: number[] }, k: number) => {
       const e = ref.coefficients[k];

@@ -10,7 +10,7 @@ import { tmpdir } from "node:os";
 import { join } from "node:path";
 import { gzipSync } from "node:zlib";
 import { DuckDBInstance } from "@duckdb/node-api";
-import { ROOT, assertRel, runCli } from "../helpers.js";
+import { ROOT, assertRel, runCli, schemaValidator } from "../helpers.js";
 
 const CSV = join(ROOT, "examples", "clinic_visits.csv");
 const dir = mkdtempSync(join(tmpdir(), "tallyfit-sources-"));
@@ -33,6 +33,9 @@ async function prepare(): Promise<void> {
   // The database file is closed, so tallyfit can open it (DuckDB locks a file per process).
   file.closeSync();
 }
+
+const validate = schemaValidator("fit");
+const ENGINES: Record<string, string> = { "csv.gz": "csv.gz", parquet: "parquet", "duckdb query": "duckdb" };
 
 const MODELS: [string, string[]][] = [
   ["factor-only Poisson", ["--model", "visits ~ clinic + weekday"]],
@@ -58,6 +61,11 @@ test("CSV.gz, Parquet and a DuckDB query fit as the CSV does (1e-9): estimates, 
     for (const [label, source] of sources) {
       const j = fit(source, model);
       const what = `${name} from ${label}`;
+      // The JSON's source block: the engine, nothing pushed down yet, every row of the source sent.
+      assert.ok(validate(j), JSON.stringify((validate as { errors?: unknown }).errors));
+      assert.equal(j.source.engine, ENGINES[label]);
+      assert.equal(j.source.pushed_down, false);
+      assert.equal(j.source.rows_transferred, ref.n_rows, `${what}: rows sent`);
       assert.equal(j.n_used, ref.n_used, `${what}: rows used`);
       assertRel(j.deviance, ref.deviance, 1e-9, `${what}: deviance`);
       j.coefficients.forEach(
@@ -74,6 +82,7 @@ test("CSV.gz, Parquet and a DuckDB query fit as the CSV does (1e-9): estimates, 
       );
       if (ref.negbin) assertRel(j.negbin.alpha, ref.negbin.alpha, 1e-9, `${what}: alpha`);
     }
+    assert.equal(ref.source, CSV, "a plain CSV's source stays its name");
   }
 });
 

@@ -50,6 +50,11 @@ test("PostgreSQL query fits as the CSV does (1e-9): estimates, standard errors, 
     const j = fit(["--db", server.url, "--sql", "SELECT * FROM visits ORDER BY date, clinic"], model);
     const what = model.join(" ");
     assert.equal(j.n_used, ref.n_used, `${what}: rows used`);
+    assert.deepEqual(
+      [j.source.engine, j.source.pushed_down, j.source.rows_transferred],
+      ["postgres", false, ref.n_rows],
+      `${what}: the source block`,
+    );
     assertRel(j.deviance, ref.deviance, 1e-9, `${what}: deviance`);
     j.coefficients.forEach((c: { term: string; estimate: number; std_error: number; profile: number[] }, k: number) => {
       const e = ref.coefficients[k];
