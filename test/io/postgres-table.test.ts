@@ -5,12 +5,12 @@
 import { after, before, test } from "node:test";
 import assert from "node:assert/strict";
 import { readFileSync } from "node:fs";
-import { join } from "node:path";
 import pg from "pg";
-import { ROOT, assertRel, runCli } from "../helpers.js";
+import { runCli } from "../helpers.js";
+import { assertSameFits, CLINIC_CSV } from "./same-fit.js";
 import { freePort, type Server, startPostgres } from "../servers.js";
 
-const CSV = join(ROOT, "examples", "clinic_visits.csv");
+const CSV = CLINIC_CSV;
 let server: Server;
 
 before(async () => {
@@ -32,39 +32,8 @@ before(async () => {
 
 after(() => server?.stop());
 
-function fit(source: string[], model: string[]) {
-  const r = runCli(["fit", ...source, ...model, "--exposure", "open_hours", "--format", "json", "--quiet"]);
-  assert.equal(r.code, 0, r.stderr);
-  return JSON.parse(r.stdout);
-}
-
 test("PostgreSQL query fits as the CSV does (1e-9): estimates, standard errors, deviance, profile limits, alpha", () => {
-  const models: string[][] = [
-    ["--model", "visits ~ clinic + weekday"],
-    ["--model", "visits ~ clinic + staff_on_duty + flu_season"],
-    ["--model", "visits ~ clinic + weekday + staff_on_duty", "--family", "negbin"],
-    ["--model", "visits ~ clinic", "--date", "date", "--trend"],
-  ];
-  for (const model of models) {
-    const ref = fit([CSV], model);
-    const j = fit(["--db", server.url, "--sql", "SELECT * FROM visits ORDER BY date, clinic"], model);
-    const what = model.join(" ");
-    assert.equal(j.n_used, ref.n_used, `${what}: rows used`);
-    assert.deepEqual(
-      [j.source.engine, j.source.pushed_down, j.source.rows_transferred],
-      ["postgres", false, ref.n_rows],
-      `${what}: the source block`,
-    );
-    assertRel(j.deviance, ref.deviance, 1e-9, `${what}: deviance`);
-    j.coefficients.forEach((c: { term: string; estimate: number; std_error: number; profile: number[] }, k: number) => {
-      const e = ref.coefficients[k];
-      assert.equal(c.term, e.term);
-      assertRel(c.estimate, e.estimate, 1e-9, `${what}: ${c.term}`);
-      assertRel(c.std_error, e.std_error, 1e-9, `${what}: SE ${c.term}`);
-      if (e.profile) assertRel(c.profile[1], e.profile[1], 1e-9, `${what}: upper profile ${c.term}`);
-    });
-    if (ref.negbin) assertRel(j.negbin.alpha, ref.negbin.alpha, 1e-9, `${what}: alpha`);
-  }
+  assertSameFits(["--db", server.url, "--sql", "SELECT * FROM visits ORDER BY date, clinic"], "postgres");
 });
 
 test("PostgreSQL faults: refused connection, a failed query, missing columns: located, exit 2, no password", async () => {
