@@ -8,8 +8,8 @@
 import type { PredictionDesign } from "../design/predict-design.js";
 import type { ModelFile } from "../io/model-file.js";
 import { negbinSumPmf, negbinSumReach, negbinSumTerms } from "./negbin-sum.js";
-import { drawMeans, type GroupFlag, type PredictOptions, prepare, rowLinear } from "./predict.js";
-import { predictiveTable, flagLimit, tableQuantile } from "./predictive.js";
+import { drawMeans, type GroupFlag, groupMembers, type PredictOptions, prepare, rowLinear } from "./predict.js";
+import { addDraw, flagLimit, predictiveTable, tableQuantile } from "./predictive.js";
 import { zeroGroupFlags } from "./zero-group-flags.js";
 
 export interface GroupFlags {
@@ -31,19 +31,14 @@ function mixNegbinSums(
   D: number,
   observed: number | null,
 ): { pmf: Float64Array; upperTail: number | null } {
-  let pmf = new Float64Array(0);
+  let pmf: Float64Array = new Float64Array(0);
   let tail = 0;
   const row = new Float64Array(mus.length);
   for (let d = 0; d < D; d++) {
     for (let i = 0; i < mus.length; i++) row[i] = mus[i][d];
     const reach = negbinSumReach(row, alphas[d], observed ?? 0);
     const p = negbinSumPmf(row, alphas[d], reach, observed ?? 0);
-    if (p.length > pmf.length) {
-      const grown = new Float64Array(p.length);
-      grown.set(pmf);
-      pmf = grown;
-    }
-    for (let k = 0; k < p.length; k++) pmf[k] += p[k] / D;
+    pmf = addDraw(pmf, p, D);
     if (observed !== null) for (let k = observed; k < p.length; k++) tail += p[k] / D;
   }
   return { pmf, upperTail: observed === null ? null : observed === 0 ? 1 : Math.min(1, tail) };
@@ -61,8 +56,7 @@ export function groupFlags(
   if (saved.zero_part) return zeroGroupFlags(pd, saved, o, by, ids, names);
   const prep = prepare(pd, saved, o);
   const D = o.draws;
-  const members: number[][] = names.map(() => []);
-  for (let i = 0; i < pd.n; i++) members[ids[i]].push(i);
+  const { members, observed: totals } = groupMembers(pd, ids, names.length);
   const idx: number[] = [];
   const val: number[] = [];
   // Per group: the rows' means under every draw, and the expected total at the estimates.
@@ -87,9 +81,7 @@ export function groupFlags(
   }
   const tail = (1 - o.level) / 2;
   const groups = members.map((rows, g) => {
-    let observed: number | null = 0;
-    for (const i of rows)
-      observed = Number.isNaN(pd.observed[i]) || observed === null ? null : observed + pd.observed[i];
+    const observed = totals[g];
     const rowMeans = means[g].map((r) => r.mus);
     let table: { pmf: Float64Array; upperTail: number | null };
     if (negbin) table = mixNegbinSums(rowMeans, prep.alphas, dNb, observed);

@@ -193,6 +193,22 @@ export function rowLinear(
   return { eta, zero, atLimit };
 }
 
+/** The rows of each group (ids 0 … count − 1), and each group's observed total (null when a row has no count). */
+export function groupMembers(
+  pd: PredictionDesign,
+  ids: Int32Array,
+  count: number,
+): { members: number[][]; observed: (number | null)[] } {
+  const members: number[][] = Array.from({ length: count }, () => []);
+  for (let i = 0; i < pd.n; i++) members[ids[i]].push(i);
+  const observed = members.map((rows) => {
+    let total: number | null = 0;
+    for (const i of rows) total = Number.isNaN(pd.observed[i]) || total === null ? null : total + pd.observed[i];
+    return total;
+  });
+  return { members, observed };
+}
+
 /** The row's mean under each draw of the estimates (into mus). */
 export function drawMeans(prep: Prepared, eta: number, idx: number[], val: number[], mus: Float64Array): void {
   const { dev, q } = prep;

@@ -147,6 +147,18 @@ function grow(a: Float64Array, need: number): Float64Array {
   return b;
 }
 
+/** One draw's table added to a mixture of `draws` draws (p/draws term by term), grown when the table is longer. */
+export function addDraw(mixture: Float64Array, p: Float64Array, draws: number): Float64Array {
+  let out = mixture;
+  if (p.length > mixture.length) {
+    // Exactly as long as the longest table, so that the mixture's end is where its tables end.
+    out = new Float64Array(p.length);
+    out.set(mixture);
+  }
+  for (let k = 0; k < p.length; k++) out[k] += p[k] / draws;
+  return out;
+}
+
 /** The smallest k with P(Y ≤ k) ≥ level, from the table (the table's end when the rest is negligible). */
 export function tableQuantile(pmf: Float64Array, level: number): number {
   let s = 0;

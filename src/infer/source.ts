@@ -26,8 +26,3 @@ export function sourceOf(design: Design): Source {
     queries: o.queries,
   };
 }
-
-/** The source's display name. */
-export function sourceName(s: Source): string {
-  return typeof s === "string" ? s : s.name;
-}

@@ -5,9 +5,8 @@
 // The convolutions' work is bounded: past a budget, fewer draws are mixed.
 import type { PredictionDesign } from "../design/predict-design.js";
 import type { ModelFile } from "../io/model-file.js";
-import type { GroupFlag, PredictOptions } from "./predict.js";
-import { prepare } from "./predict.js";
-import { flagLimit, tableQuantile } from "./predictive.js";
+import { type GroupFlag, groupMembers, type PredictOptions, prepare } from "./predict.js";
+import { addDraw, flagLimit, tableQuantile } from "./predictive.js";
 import { zeroModifiedMean, zeroModifiedPmf, zeroRowDraws, type ZeroRowDraws } from "./zero-predict.js";
 
 /** Multiply-adds the convolutions may take across all draws before fewer draws are used. */
@@ -55,8 +54,7 @@ export function zeroGroupFlags(
   const prep = prepare(pd, saved, o);
   const hurdle = saved.zero_part!.probability_of === "non_zero_count";
   const D = o.draws;
-  const members: number[][] = names.map(() => []);
-  for (let i = 0; i < pd.n; i++) members[ids[i]].push(i);
+  const { members, observed: totals } = groupMembers(pd, ids, names.length);
   // At the estimates first (no draws), for the expected totals and the work; each group's draws when it comes.
   const atEstimates = members.map((rows) => rows.map((i) => zeroRowDraws(pd, prep, i, 0)));
   let work = 0;
@@ -79,21 +77,14 @@ export function zeroGroupFlags(
   const used = Math.min(D, Math.max(MIN_DRAWS, Math.floor(WORK / Math.max(work, 1))));
   const tail = (1 - o.level) / 2;
   const groups = members.map((rows, g) => {
-    let observed: number | null = 0;
-    for (const i of rows)
-      observed = Number.isNaN(pd.observed[i]) || observed === null ? null : observed + pd.observed[i];
+    const observed = totals[g];
     const rowDraws = rows.map((i) => zeroRowDraws(pd, prep, i, used));
-    let pmf = new Float64Array(1);
+    let pmf: Float64Array = new Float64Array(1);
     for (let d = 0; d < used; d++) {
       let total: Float64Array = Float64Array.of(1);
       for (const r of rowDraws)
         total = trimTail(convolve(total, zeroModifiedPmf(r.lambdas[d], prep.alphas[d], r.probs[d], hurdle, null).pmf));
-      if (total.length > pmf.length) {
-        const grown = new Float64Array(total.length);
-        grown.set(pmf);
-        pmf = grown;
-      }
-      for (let k = 0; k < total.length; k++) pmf[k] += total[k] / used;
+      pmf = addDraw(pmf, total, used);
     }
     let upper: number | null = null;
     if (observed !== null) {

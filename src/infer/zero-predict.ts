@@ -9,7 +9,7 @@
 import type { PredictionDesign } from "../design/predict-design.js";
 import type { ModelFile } from "../io/model-file.js";
 import { drawMeans, type PredictOptions, type PredictedRow, type Prepared, prepare, rowLinear } from "./predict.js";
-import { predictiveTable, flagLimit, tableQuantile } from "./predictive.js";
+import { addDraw, flagLimit, predictiveTable, tableQuantile } from "./predictive.js";
 
 /** log f(0) of the count part: −λ (Poisson) or −log(1 + αλ)/α (NB2). */
 export function logZeroProbability(lambda: number, alpha: number): number {
@@ -126,16 +126,11 @@ export function predictZeroRange(
   for (let i = from; i < to; i++) {
     const obs = Number.isNaN(pd.observed[i]) ? null : pd.observed[i];
     const r = zeroRowDraws(pd, prep, i, D);
-    let pmf = new Float64Array(1);
+    let pmf: Float64Array = new Float64Array(1);
     let upperTail = 0;
     for (let d = 0; d < D; d++) {
       const one = zeroModifiedPmf(r.lambdas[d], prep.alphas[d], r.probs[d], hurdle, obs);
-      if (one.pmf.length > pmf.length) {
-        const grown = new Float64Array(one.pmf.length);
-        grown.set(pmf);
-        pmf = grown;
-      }
-      for (let k = 0; k < one.pmf.length; k++) pmf[k] += one.pmf[k] / D;
+      pmf = addDraw(pmf, one.pmf, D);
       upperTail += (one.upperTail ?? 0) / D;
       means[d] = zeroModifiedMean(r.lambdas[d], prep.alphas[d], r.probs[d], hurdle);
     }

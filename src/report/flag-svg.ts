@@ -2,26 +2,14 @@
 // prediction interval of its total as a band, the expected total as a tick,
 // the flag limit as a bar end, and the observed total as a dot: hollow inside
 // the limit, filled and labelled "flagged" beyond it (so a flag reads without
-// colour). Same palette as svg.ts.
+// colour). The palette and ticks are svg.ts's.
 import type { PredictResult } from "../infer/predict.js";
 import { escapeHtml } from "./html-sink.js";
+import { niceTicks, PALETTE } from "./svg.js";
 
-const INK = "#22313f";
-const DATA = "#3f6e8c";
-const BAND = "#bcd0dd";
-const MODEL = "#c0591e";
-const GRID = "#e3e6e8";
-const FONT = "DejaVu Sans, Verdana, sans-serif";
+const { ink: INK, data: DATA, dataLight: BAND, model: MODEL, grid: GRID, font: FONT } = PALETTE;
 /** Groups drawn at most (the flagged ones first, then by their order in the table). */
 export const MAX_GROUPS = 60;
-
-function ticks(hi: number): number[] {
-  const step0 = 10 ** Math.floor(Math.log10(Math.max(hi, 1) / 5));
-  const step = [1, 2, 5, 10].map((m) => m * step0).find((s) => hi / s <= 6) ?? step0 * 10;
-  const out: number[] = [];
-  for (let t = 0; t <= hi; t += step) out.push(+t.toPrecision(12));
-  return out;
-}
 
 export function renderGroupFlagsSvg(r: PredictResult, title: string): string | null {
   if (!r.groups?.length) return null;
@@ -38,7 +26,7 @@ export function renderGroupFlagsSvg(r: PredictResult, title: string): string | n
   const hi = Math.max(1, ...shown.map((g) => Math.max(g.prediction_interval[1], g.flag_limit, g.observed ?? 0))) * 1.05;
   const x = (v: number) => left + (v / hi) * plotW;
   const parts: string[] = [];
-  for (const t of ticks(hi)) {
+  for (const t of niceTicks(0, hi, 6)) {
     parts.push(
       `<line x1="${x(t)}" y1="${top - 6}" x2="${x(t)}" y2="${top + shown.length * rowH}" stroke="${GRID}"/>`,
       `<text x="${x(t)}" y="${top + shown.length * rowH + 16}" font-size="11" text-anchor="middle" fill="${INK}">${t}</text>`,

@@ -1,6 +1,6 @@
 // Deterministic number formatting (no locale data) shared by the reporters.
 import type { GroupSummary } from "../infer/groups.js";
-import { type Source, sourceName } from "../infer/source.js";
+import type { Source } from "../infer/source.js";
 
 /** Group the integer part with commas: 12345.6 → "12,345.6". */
 export function group(s: string): string {
@@ -124,5 +124,5 @@ export function groupRows(g: GroupSummary): [string[][], ("l" | "r")[]] {
 /** The source in a report's data line: the file name, and for rows read through an engine, which one. */
 export function sourceText(s: Source): string {
   if (typeof s === "string") return s;
-  return `${sourceName(s)} (${s.engine}${s.queries ? `, ${s.queries} queries, ${group(String(s.rows_transferred))} rows sent` : ""})`;
+  return `${s.name} (${s.engine}${s.queries ? `, ${s.queries} queries, ${group(String(s.rows_transferred))} rows sent` : ""})`;
 }

@@ -10,12 +10,16 @@ import type { CoefficientRow, FitSummary } from "../infer/summary.js";
 import type { Rootogram } from "../infer/diagnostics.js";
 import { normalQuantile } from "../math/distributions.js";
 
-const INK = "#22313f";
-const DATA = "#3f6e8c";
-const DATA_LIGHT = "#bcd0dd";
-const MODEL = "#c0591e";
-const GRID = "#e3e6e8";
-const FONT = "DejaVu Sans, Verdana, sans-serif";
+/** The pictures' palette and font (shared with flag-svg.ts). */
+export const PALETTE = {
+  ink: "#22313f",
+  data: "#3f6e8c",
+  dataLight: "#bcd0dd",
+  model: "#c0591e",
+  grid: "#e3e6e8",
+  font: "DejaVu Sans, Verdana, sans-serif",
+} as const;
+const { ink: INK, data: DATA, dataLight: DATA_LIGHT, model: MODEL, grid: GRID, font: FONT } = PALETTE;
 
 export interface PlotInput {
   title: string;
@@ -38,7 +42,8 @@ interface Box {
   h: number;
 }
 
-function niceTicks(lo: number, hi: number, n = 5): number[] {
+/** Round tick values from lo to hi, about n of them. */
+export function niceTicks(lo: number, hi: number, n = 5): number[] {
   if (!Number.isFinite(lo) || !Number.isFinite(hi)) return [];
   const span = hi - lo || 1;
   const step0 = 10 ** Math.floor(Math.log10(span / n));
