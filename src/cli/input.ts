@@ -8,6 +8,9 @@ import { loadDuckDbQuery, loadParquet } from "../io/duckdb-table.js";
 import { loadPostgresQuery, shownUrl } from "../io/postgres-table.js";
 import { loadClickHouseQuery } from "../io/clickhouse-table.js";
 import { columnLabels, type Table } from "../io/table.js";
+import type { PushDownKey } from "../io/push-down.js";
+import { collapsedDesign } from "../design/collapsed.js";
+import { readPatterns, readThroughEngine } from "./engine-input.js";
 import {
   type Calendar,
   type CalendarOptions,
@@ -48,6 +51,12 @@ export async function loadDesigns(
   modelTexts: string[],
   /** Further columns to read, each with the option that names it (for messages). */
   alsoRead: { column: string; option: string }[] = [],
+  /**
+   * How rows may be merged inside an engine that holds them (a Parquet file,
+   * --db): by covariate pattern (Poisson sums) or with the count and exposure
+   * in the key (exact for every family). Null: read the rows.
+   */
+  pushDownKey: PushDownKey | null = null,
 ): Promise<LoadedDesigns> {
   const control = {
     maxIter: parsePositiveInt("--max-iter", opts.maxIter),
@@ -82,7 +91,22 @@ export async function loadDesigns(
   ];
   const name = path === "-" ? "<stdin>" : path;
   const progress = opts.quiet || !process.stderr.isTTY ? undefined : readingProgress();
-  const { table: read, sha256 } = await readRows(path, opts, { factors, select }, progress);
+  const responses = new Set(specs.map((s) => s.response));
+  const pushed =
+    pushDownKey &&
+    !calendar &&
+    alsoRead.length === 0 &&
+    responses.size === 1 &&
+    opts.mergePatterns !== "never" &&
+    readThroughEngine(path, opts)
+      ? await readPatterns(
+          path,
+          opts,
+          { response: specs[0].response, keys: vars.filter((v) => !responses.has(v)), factors },
+          pushDownKey,
+        )
+      : null;
+  const { table: read, sha256 } = pushed ?? (await readRows(path, opts, { factors, select }, progress));
   if (progress) clearProgressLine();
   for (const f of factors)
     if (!read.header.includes(f))
@@ -111,15 +135,23 @@ export async function loadDesigns(
         ),
       );
       return buildDesign(table, spec, {
-        exposure: opts.exposure,
-        offset: opts.offset,
-        weights: opts.weights,
+        exposure: pushed ? pushed.exposureColumn : opts.exposure,
+        offset: pushed ? undefined : opts.offset,
+        weights: pushed ? pushed.weightsColumn : opts.weights,
         refs: ownRefs,
         order,
         complete: specs.length > 1 ? vars : undefined,
       });
     });
   let designs = build();
+  if (pushed)
+    designs = designs.map((d) =>
+      collapsedDesign(d, read, pushed.census, pushed.by, {
+        exposure: opts.exposure,
+        offset: opts.offset,
+        weights: opts.weights,
+      }),
+    );
   if (calendar && days) {
     const [used] = dayRange(days.days, designs[0].rowIndex);
     if (used !== firstDay) {

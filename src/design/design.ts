@@ -10,6 +10,7 @@ import { lookupColumn, numericColumn } from "./columns.js";
 import { codeFactor, datesAmong, type FactorCoding } from "./factor-coding.js";
 import { exposureError, exposureRule, logOffset } from "./offset.js";
 import type { Calendar } from "./calendar.js";
+import type { PushDownKey } from "../io/push-down.js";
 
 export interface DesignOptions {
   exposure?: string;
@@ -95,7 +96,28 @@ export interface Design {
   notices: string[];
   /** The calendar terms made from a date column (--date), when there are any. */
   calendar?: Calendar;
+  /** Rows merged into patterns inside the engine (push-down): see collapsed.ts. */
+  collapsed?: Collapsed;
 }
+
+/** Engine-merged patterns standing for the rows (see collapsed.ts). */
+export interface Collapsed {
+  by: PushDownKey;
+  /** The rows the patterns stand for. */
+  rows: number;
+  /** Their frequency weights' sum (the rows, without --weights). */
+  observations: number;
+  /** Each pattern's sum of frequency weights (covariate patterns; count patterns carry it as the design's weights). */
+  weights: Float64Array | null;
+  /** Row-level deviance = the patterns' deviance + this (covariate patterns; 0 for count patterns). */
+  devianceShift: number;
+  /** Row-level log-likelihood = the patterns' + this (covariate patterns; 0 for count patterns). */
+  logLikShift: number;
+  /** Σ w·y²/e over each pattern's rows (covariate patterns only). */
+  y2e: Float64Array | null;
+}
+
+
 
 function firstRows(rows: number[]): string {
   const shown = rows.slice(0, 3).join(", ");

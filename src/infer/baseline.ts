@@ -18,13 +18,15 @@ export interface Baseline {
 /** Means over the rows used of the numeric main-effect columns (frequency-weighted). */
 function numericMeans(design: Design): Map<string, number> {
   const out = new Map<string, number>();
+  // Engine-merged covariate patterns weigh by the rows (or weights) each stands for.
+  const weights = design.weights ?? design.collapsed?.weights ?? null;
   design.columns.forEach((col, c) => {
     if (col.kind !== "numeric" || col.name.includes(":")) return;
     const v = columnValues(design.matrix, c);
     let s = 0,
       w = 0;
     for (let i = 0; i < design.n; i++) {
-      const wi = design.weights ? design.weights[i] : 1;
+      const wi = weights ? weights[i] : 1;
       s += wi * v[i];
       w += wi;
     }

@@ -1,5 +1,6 @@
 // Dispersion and zero-count diagnostics for a Poisson fit, each with its
 // statistic, degrees of freedom, p-value and a one-line reading, and a verdict.
+import { rowsUsed } from "../design/collapsed.js";
 import type { Design } from "../design/design.js";
 import { informationOf } from "../fit/kernel/information.js";
 import type { CountFit } from "../fit/count-fit.js";
@@ -320,7 +321,7 @@ export function runChecks(design: Design, pois: CountFit, nb: CountFit, testLeve
     source: sourceOf(design),
     model: design.model.text,
     exposure: design.exposureName,
-    n_used: n,
+    n_used: rowsUsed(design),
     test_level: testLevel,
     pearson_ratio: st.pearson / df,
     deviance_ratio: fit.deviance / df,

@@ -1,5 +1,6 @@
 // Comparing several models fitted on the same rows: likelihood-ratio (or F)
 // tests for nested pairs and information criteria for all.
+import { rowsUsed } from "../design/collapsed.js";
 import type { Design } from "../design/design.js";
 import type { CountFit } from "../fit/count-fit.js";
 import { chiSquareUpperTail, fUpperTail } from "../math/distributions.js";
@@ -250,8 +251,8 @@ export function compareModels(entries: CompareEntry[], clustered?: ClusterCovari
     schema: "tallyfit.compare/1",
     source: sourceOf(d0),
     n_rows: d0.nRows,
-    n_used: d0.n,
-    n_dropped: d0.nRows - d0.n,
+    n_used: rowsUsed(d0),
+    n_dropped: d0.nRows - rowsUsed(d0),
     dropped: {
       missing: d0.dropped.missing,
       zero_exposure_zero_count: d0.dropped.zeroExposureZeroCount,

@@ -22,6 +22,17 @@ export function fitStatistics(design: Design, fit: GlmFit, negbin = fit.alpha > 
     if (mu > 0) pearson += (w * (y[i] - mu) ** 2) / variance(mu, fit.alpha);
     ll += w * logDensity(y[i], mu, fit.alpha);
   }
+  const c = design.collapsed;
+  if (c?.y2e) {
+    // Covariate patterns merged in the engine: the row-level figures from their sums (design/collapsed.ts).
+    pearson = 0;
+    for (let p = 0; p < y.length; p++) {
+      const mu = fit.mu[p];
+      if (mu > 0) pearson += (c.y2e[p] * Math.exp(design.offset[p])) / mu - 2 * y[p] + mu;
+    }
+    ll += c.logLikShift;
+    nEff = c.observations;
+  }
   let k = 0;
   for (const s of fit.status) if (s === "estimated" || s === "no_events") k++;
   const nPar = k + (negbin ? 1 : 0);
@@ -40,7 +51,7 @@ export function fitStatistics(design: Design, fit: GlmFit, negbin = fit.alpha > 
 
 /** Residual degrees of freedom: rows (summed weights) less the coefficients estimated or at −∞. */
 export function residualDf(design: Design, fit: GlmFit): number {
-  let nEff = design.n;
+  let nEff = design.collapsed?.y2e ? design.collapsed.observations : design.n;
   if (design.weights) {
     nEff = 0;
     for (let i = 0; i < design.n; i++) nEff += design.weights[i];

@@ -1,14 +1,17 @@
 // The JSON's source: the file name for a plain CSV (as since the first
 // version), or, for rows read through an engine (a gzip CSV, Parquet, a
-// database query), a block naming the engine, whether work was pushed down
-// into it, the rows it sent and the queries run.
+// database query), a block naming the engine, whether and how the rows were
+// merged inside it (push-down), the rows it sent and the queries run.
 import type { Design } from "../design/design.js";
+import type { SourceOrigin } from "../io/table.js";
 
 export interface SourceBlock {
   name: string;
-  engine: "csv.gz" | "parquet" | "duckdb" | "postgres" | "clickhouse";
-  /** Whether aggregation ran inside the engine (not yet: every row the model uses is fetched). */
-  pushed_down: false;
+  engine: SourceOrigin["engine"];
+  /** Whether aggregation ran inside the engine. */
+  pushed_down: boolean;
+  /** How: covariate patterns, count patterns or per-iteration sums (null: the rows were read). */
+  aggregation: NonNullable<SourceOrigin["aggregation"]> | null;
   rows_transferred: number;
   queries: number;
 }
@@ -21,7 +24,8 @@ export function sourceOf(design: Design): Source {
   return {
     name: design.source,
     engine: o.engine,
-    pushed_down: false,
+    pushed_down: !!o.aggregation,
+    aggregation: o.aggregation ?? null,
     rows_transferred: o.rows_transferred,
     queries: o.queries,
   };

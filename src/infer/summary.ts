@@ -2,6 +2,7 @@
 // Standard errors are the square roots of the diagonal of the inverse
 // expected (Fisher) information X'WX at the estimate (GlmFit.covariance),
 // times sqrt(phi) for quasi-Poisson, or the sandwich estimate with --robust.
+import { rowDeviance, rowsUsed } from "../design/collapsed.js";
 import { isoDate } from "../design/calendar.js";
 import type { Design } from "../design/design.js";
 import type { FamilyName, CountFit } from "../fit/count-fit.js";
@@ -173,7 +174,9 @@ export function summarizeFit(design: Design, mf: CountFit, options: SummaryOptio
   const stats = fitStatistics(design, fit, mf.family === "negbin");
   const df = stats.df;
   const pearsonRatio = df > 0 ? stats.pearson / df : NaN;
-  const devRatio = df > 0 ? fit.deviance / df : NaN;
+  // The deviance of the rows (with engine-merged covariate patterns, restored from their sums).
+  const deviance = rowDeviance(design, fit.deviance);
+  const devRatio = df > 0 ? deviance / df : NaN;
   const quasi = mf.family === "quasipoisson";
   const phi = quasi ? pearsonRatio : 1;
   const cl = options.cluster;
@@ -343,8 +346,8 @@ export function summarizeFit(design: Design, mf: CountFit, options: SummaryOptio
     offset: design.offsetName,
     weights: design.weightsName,
     n_rows: design.nRows,
-    n_used: design.n,
-    n_dropped: design.nRows - design.n,
+    n_used: rowsUsed(design),
+    n_dropped: design.nRows - rowsUsed(design),
     dropped: {
       missing: design.dropped.missing,
       zero_exposure_zero_count: design.dropped.zeroExposureZeroCount,
@@ -357,8 +360,8 @@ export function summarizeFit(design: Design, mf: CountFit, options: SummaryOptio
     merged_patterns: mf.patterns
       ? { rows: mf.patterns.merge.rows, patterns: mf.patterns.merge.patterns, by: mf.patterns.merge.by }
       : null,
-    deviance: fit.deviance,
-    null_deviance: mf.nullDeviance,
+    deviance,
+    null_deviance: rowDeviance(design, mf.nullDeviance),
     df_null: stats.nEff - (design.matrix.interceptCol >= 0 ? 1 : 0),
     pearson_chi2: stats.pearson,
     log_likelihood: stats.logLik,
@@ -368,7 +371,7 @@ export function summarizeFit(design: Design, mf: CountFit, options: SummaryOptio
       pearson: pearsonRatio,
       deviance: devRatio,
       pearson_p_value: df > 0 ? chiSquareUpperTail(stats.pearson, df) : NaN,
-      deviance_p_value: df > 0 ? chiSquareUpperTail(fit.deviance, df) : NaN,
+      deviance_p_value: df > 0 ? chiSquareUpperTail(deviance, df) : NaN,
       phi_used: phi,
     },
     references: design.factors.map((f) => ({ factor: f.name, level: f.reference })),

@@ -8,8 +8,10 @@
 // a request parameter and never shown in a message.
 import { InputError } from "../errors.js";
 import { shownUrl } from "./postgres-table.js";
+import { type Engine, type EngineRows, subquery } from "./engine.js";
+import { loadEngineRows } from "./engine-rows.js";
 import type { Table } from "./table.js";
-import { rowsDigest, typedTable } from "./typed-columns.js";
+import { rowsDigest } from "./typed-columns.js";
 
 /** ClickHouse's number types, also inside Nullable(…). */
 const NUMBER = /^(Nullable\()?(U?Int(8|16|32|64|128|256)|Float(32|64)|Decimal.*)\)?$/;
@@ -68,22 +70,8 @@ async function run(e: Endpoint, sql: string, password: string): Promise<string> 
   return body;
 }
 
-export async function loadClickHouseQuery(
-  url: string,
-  sql: string,
-  options: { factors?: string[]; select?: string[] },
-): Promise<{ table: Table; sha256: string }> {
-  const e = endpointOf(url);
-  const password = e.params.get("password") ?? "";
-  const from = `(${sql.trim().replace(/;\s*$/, "")})`;
-  const described = (await run(e, `SELECT * FROM ${from} LIMIT 0 FORMAT TabSeparatedWithNamesAndTypes`, password))
-    .split("\n")[0]
-    .split("\t")
-    .map((n) => field(n) ?? "");
-  const have = new Set(described);
-  const wanted = [...new Set(options.select ?? [])].filter((s) => have.has(s));
-  const list = wanted.length ? wanted.map(quoteClickHouseIdentifier).join(", ") : "*";
-  const text = await run(e, `SELECT ${list} FROM ${from} FORMAT TabSeparatedWithNamesAndTypes`, password);
+/** Rows of a TabSeparatedWithNamesAndTypes body, by column. */
+function parseResult(text: string): EngineRows {
   const lines = text.split("\n");
   if (lines[lines.length - 1] === "") lines.pop();
   const names = lines[0].split("\t").map((n) => field(n) ?? "");
@@ -93,15 +81,47 @@ export async function loadClickHouseQuery(
     const cells = lines[i].split("\t");
     for (let j = 0; j < names.length; j++) columns[j].push(field(cells[j] ?? "\\N"));
   }
-  const table = typedTable(
-    `${shownUrl(url)} query`,
-    described,
-    names,
-    types.map((t) => NUMBER.test(t)),
-    columns,
-    options,
-  );
-  if (table.nRows === 0) throw new InputError(`${e.where}: the query returned no rows.`);
-  table.origin = { engine: "clickhouse", queries: 2, rows_transferred: table.nRows };
+  return { names, numeric: types.map((t) => NUMBER.test(t)), columns };
+}
+
+/**
+ * A ClickHouse server (or a cluster's initiator) and a user's query as an
+ * engine. The server versions Debian ships predate bound query parameters,
+ * so a number reaches the SQL as the literal JavaScript writes for it (digits,
+ * a sign, a point and an exponent: nothing else can appear).
+ */
+export async function openClickHouse(url: string, sql: string): Promise<Engine> {
+  const e = endpointOf(url);
+  const password = e.params.get("password") ?? "";
+  const self: Engine = {
+    engine: "clickhouse",
+    source: `${shownUrl(url)} query`,
+    from: subquery(sql),
+    quote: quoteClickHouseIdentifier,
+    param: (_k, value) => {
+      if (!Number.isFinite(value)) throw new Error(`a non-finite number (${value}) cannot be sent to ClickHouse`);
+      return `toFloat64(${String(value)})`;
+    },
+    double: (x) => `toFloat64(${x})`,
+    lnFactorial: (x) => `lgamma(${x} + 1.0)`,
+    queries: 0,
+    async run(text: string): Promise<EngineRows> {
+      self.queries++;
+      // Header lines name and type each column even when no row comes back.
+      return parseResult(await run(e, `${text} FORMAT TabSeparatedWithNamesAndTypes`, password));
+    },
+    async close() {},
+  };
+  return self;
+}
+
+/** The rows of a query against ClickHouse. */
+export async function loadClickHouseQuery(
+  url: string,
+  sql: string,
+  options: { factors?: string[]; select?: string[] },
+): Promise<{ table: Table; sha256: string }> {
+  const engine = await openClickHouse(url, sql);
+  const table = await loadEngineRows(engine, options, `--db ${shownUrl(url)}: the query returned no rows.`);
   return { table, sha256: rowsDigest(table) };
 }

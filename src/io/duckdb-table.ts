@@ -1,16 +1,16 @@
-// Tables from embedded DuckDB (@duckdb/node-api): a Parquet file read with
-// read_parquet, or the rows of a user's query against a DuckDB database
-// (--db duckdb:[PATH] --sql QUERY), into the same typed columns as a CSV.
-// Numbers (integers, decimals, floating point) become numeric columns, text,
-// booleans and dates (as YYYY-MM-DD) factors, NULL a missing value. Nothing
-// from the command line is pasted into SQL except the user's own query and
-// quoted column names; a file path is a bound parameter.
+// Embedded DuckDB (@duckdb/node-api) as an engine: a Parquet file read with
+// read_parquet (the path a bound parameter), or the rows of a user's query
+// against a DuckDB database (--db duckdb:[PATH] --sql QUERY; a file opened
+// read-only). Numbers (integers, decimals, floating point) are numeric
+// columns; text, booleans and dates (as YYYY-MM-DD) are factors.
 import { readFile } from "node:fs/promises";
 import { createHash } from "node:crypto";
 import { InputError } from "../errors.js";
+import { type Engine, type EngineRows, firstLine, subquery } from "./engine.js";
+import { loadEngineRows } from "./engine-rows.js";
 import { unreadable } from "./source-bytes.js";
 import type { Table } from "./table.js";
-import { rowsDigest, typedTable } from "./typed-columns.js";
+import { rowsDigest } from "./typed-columns.js";
 
 type Value = unknown;
 
@@ -58,44 +58,47 @@ async function connect(path: string): Promise<Connection & { close(): void }> {
   });
 }
 
-/** A query result as typed columns: DuckDB's number types numeric, the rest text. */
-function duckTable(
-  source: string,
-  header: string[],
-  r: { columnNames(): string[]; columnTypes(): { toString(): string }[]; getColumns(): Value[][] },
-  options: { factors?: string[] },
-): Table {
-  const numeric = r.columnTypes().map((t) => NUMERIC.test(t.toString()));
-  const columns = r.getColumns().map((values, j) => (numeric[j] ? values : values.map(duckValue)));
-  return typedTable(source, header, r.columnNames(), numeric, columns, options);
-}
-
 const NUMERIC =
   /^(TINYINT|SMALLINT|INTEGER|BIGINT|HUGEINT|UTINYINT|USMALLINT|UINTEGER|UBIGINT|FLOAT|DOUBLE|DECIMAL.*)$/;
 
-/**
- * Every column name of the source, and the select list: the columns asked for
- * that exist (the design names any that are missing, listing every column).
- */
-async function selectList(
-  c: Connection,
+/** A DuckDB engine over a connection; `fromParams` are bound ahead of each query's own numbers. */
+function duckEngine(
+  c: Connection & { close(): void },
+  engine: "parquet" | "duckdb",
+  source: string,
   from: string,
-  params: unknown[],
-  select?: string[],
-): Promise<{ header: string[]; list: string }> {
-  const described = await c.runAndReadAll(`SELECT * FROM ${from} LIMIT 0`, params);
-  const header = described.columnNames();
-  if (!select?.length) return { header, list: "*" };
-  const have = new Set(header);
-  const wanted = [...new Set(select)].filter((s) => have.has(s));
-  return { header, list: wanted.length ? wanted.map(quoteIdentifier).join(", ") : "*" };
+  fromParams: unknown[],
+  failure: (e: unknown) => InputError,
+): Engine {
+  const self: Engine = {
+    engine,
+    source,
+    from,
+    quote: quoteIdentifier,
+    param: (k) => `$${k + 1 + fromParams.length}`,
+    double: (x) => `CAST(${x} AS DOUBLE)`,
+    lnFactorial: (x) => `LGAMMA(${x} + 1.0)`,
+    queries: 0,
+    async run(sql: string, params: number[] = []): Promise<EngineRows> {
+      self.queries++;
+      try {
+        const r = await c.runAndReadAll(sql, [...fromParams, ...params]);
+        const numeric = r.columnTypes().map((t) => NUMERIC.test(t.toString()));
+        const columns = r.getColumns().map((values, j) => (numeric[j] ? values : values.map(duckValue)));
+        return { names: r.columnNames(), numeric, columns };
+      } catch (e) {
+        throw failure(e);
+      }
+    },
+    async close() {
+      c.close();
+    },
+  };
+  return self;
 }
 
-/** A Parquet file into typed columns, with the SHA-256 of its bytes. */
-export async function loadParquet(
-  path: string,
-  options: { factors?: string[]; select?: string[] },
-): Promise<{ table: Table; sha256: string }> {
+/** A Parquet file as an engine, with the SHA-256 of its bytes. */
+export async function openParquet(path: string): Promise<{ engine: Engine; sha256: string }> {
   let bytes: Buffer;
   try {
     bytes = await readFile(path);
@@ -103,28 +106,19 @@ export async function loadParquet(
     throw unreadable(path, e);
   }
   const c = await connect(":memory:");
-  try {
-    const from = "read_parquet(?)";
-    const cols = await selectList(c, from, [path], options.select);
-    const r = await c.runAndReadAll(`SELECT ${cols.list} FROM ${from}`, [path]);
-    const table = duckTable(path, cols.header, r, options);
-    if (table.nRows === 0) throw new InputError(`${path}: the Parquet file has no rows.`);
-    table.origin = { engine: "parquet", queries: 2, rows_transferred: table.nRows };
-    return { table, sha256: createHash("sha256").update(bytes).digest("hex") };
-  } catch (e) {
-    if (e instanceof InputError) throw e;
-    throw new InputError(`${path}: not a readable Parquet file (${firstLine(e)}).`);
-  } finally {
-    c.close();
-  }
+  const engine = duckEngine(
+    c,
+    "parquet",
+    path,
+    "read_parquet($1)",
+    [path],
+    (e) => new InputError(`${path}: not a readable Parquet file (${firstLine(e)}).`),
+  );
+  return { engine, sha256: createHash("sha256").update(bytes).digest("hex") };
 }
 
-/** The rows of a query against a DuckDB database (duckdb: in memory, duckdb:PATH a file opened read-only). */
-export async function loadDuckDbQuery(
-  url: string,
-  sql: string,
-  options: { factors?: string[]; select?: string[] },
-): Promise<{ table: Table; sha256: string }> {
+/** A DuckDB database (duckdb: in memory, duckdb:PATH a file opened read-only) and a user's query as an engine. */
+export async function openDuckDb(url: string, sql: string): Promise<Engine> {
   const path = url.slice("duckdb:".length) || ":memory:";
   let c: Connection & { close(): void };
   try {
@@ -132,25 +126,40 @@ export async function loadDuckDbQuery(
   } catch (e) {
     throw new InputError(`--db ${url}: cannot open the DuckDB database (${firstLine(e)}).`);
   }
-  const source = `${url} query`;
+  return duckEngine(
+    c,
+    "duckdb",
+    `${url} query`,
+    `${subquery(sql)} AS tallyfit_rows`,
+    [],
+    (e) => new InputError(`--sql: the query failed in DuckDB (${firstLine(e)}).`),
+  );
+}
+
+/** A Parquet file into typed columns, with the SHA-256 of its bytes. */
+export async function loadParquet(
+  path: string,
+  options: { factors?: string[]; select?: string[] },
+): Promise<{ table: Table; sha256: string }> {
+  const { engine, sha256 } = await openParquet(path);
   try {
-    const from = `(${sql.trim().replace(/;\s*$/, "")}) AS tallyfit_rows`;
-    const cols = await selectList(c, from, [], options.select);
-    const r = await c.runAndReadAll(`SELECT ${cols.list} FROM ${from}`);
-    const table = duckTable(source, cols.header, r, options);
-    if (table.nRows === 0) throw new InputError(`${source}: the query returned no rows.`);
-    table.origin = { engine: "duckdb", queries: 2, rows_transferred: table.nRows };
-    return { table, sha256: rowsDigest(table) };
-  } catch (e) {
-    if (e instanceof InputError) throw e;
-    throw new InputError(`--sql: the query failed in DuckDB (${firstLine(e)}).`);
+    return { table: await loadEngineRows(engine, options, `${path}: the Parquet file has no rows.`), sha256 };
   } finally {
-    c.close();
+    await engine.close();
   }
 }
 
-function firstLine(e: unknown): string {
-  return String((e as Error)?.message ?? e)
-    .split("\n")[0]
-    .slice(0, 300);
+/** The rows of a query against a DuckDB database. */
+export async function loadDuckDbQuery(
+  url: string,
+  sql: string,
+  options: { factors?: string[]; select?: string[] },
+): Promise<{ table: Table; sha256: string }> {
+  const engine = await openDuckDb(url, sql);
+  try {
+    const table = await loadEngineRows(engine, options, `${engine.source}: the query returned no rows.`);
+    return { table, sha256: rowsDigest(table) };
+  } finally {
+    await engine.close();
+  }
 }

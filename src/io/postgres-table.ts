@@ -5,8 +5,10 @@
 // Dates arrive as their text (YYYY-MM-DD), so --date reads them as in a CSV.
 // A password in the URL is never shown in a message.
 import { InputError } from "../errors.js";
+import { type Engine, type EngineRows, lnFactorialSql, subquery } from "./engine.js";
+import { loadEngineRows } from "./engine-rows.js";
 import type { Table } from "./table.js";
-import { rowsDigest, typedTable } from "./typed-columns.js";
+import { rowsDigest } from "./typed-columns.js";
 
 /** PostgreSQL's number types by type OID: int2, int4, int8, oid, float4, float8, numeric. */
 const NUMBER_TYPES = new Set([21, 23, 20, 26, 700, 701, 1700]);
@@ -26,47 +28,60 @@ interface PgResult {
   rows: unknown[][];
 }
 
+/** A PostgreSQL database and a user's query as an engine (the client connected). */
+export async function openPostgres(url: string, sql: string): Promise<Engine> {
+  const pg = (await import("pg")).default;
+  // Every value as the server's text (dates stay YYYY-MM-DD, wide numbers keep their digits).
+  const types = { getTypeParser: () => (v: string) => v };
+  const client = new pg.Client({ connectionString: url, types, connectionTimeoutMillis: 10_000 });
+  try {
+    await client.connect();
+  } catch (e) {
+    throw new InputError(`--db ${shownUrl(url)}: cannot connect to PostgreSQL (${message(e, url)}).`);
+  }
+  const self: Engine = {
+    engine: "postgres",
+    source: `${shownUrl(url)} query`,
+    from: `${subquery(sql)} AS tallyfit_rows`,
+    quote: quotePgIdentifier,
+    param: (k) => `$${k + 1}::double precision`,
+    double: (x) => `CAST(${x} AS DOUBLE PRECISION)`,
+    lnFactorial: lnFactorialSql,
+    queries: 0,
+    async run(text: string, params: number[] = []): Promise<EngineRows> {
+      self.queries++;
+      let r: PgResult;
+      try {
+        r = (await client.query({ text, values: params.map(String), rowMode: "array" })) as PgResult;
+      } catch (e) {
+        throw new InputError(`--sql: the query failed in PostgreSQL (${message(e, url)}).`);
+      }
+      const names = r.fields.map((f) => f.name);
+      return {
+        names,
+        numeric: r.fields.map((f) => NUMBER_TYPES.has(f.dataTypeID)),
+        columns: names.map((_, j) => r.rows.map((row) => row[j])),
+      };
+    },
+    async close() {
+      await client.end().catch(() => {});
+    },
+  };
+  return self;
+}
+
+/** The rows of a query against PostgreSQL. */
 export async function loadPostgresQuery(
   url: string,
   sql: string,
   options: { factors?: string[]; select?: string[] },
 ): Promise<{ table: Table; sha256: string }> {
-  const pg = (await import("pg")).default;
-  // Every value as the server's text (dates stay YYYY-MM-DD, wide numbers keep their digits).
-  const types = { getTypeParser: () => (v: string) => v };
-  const client = new pg.Client({ connectionString: url, types, connectionTimeoutMillis: 10_000 });
-  const where = `--db ${shownUrl(url)}`;
+  const engine = await openPostgres(url, sql);
   try {
-    await client.connect();
-  } catch (e) {
-    throw new InputError(`${where}: cannot connect to PostgreSQL (${message(e, url)}).`);
-  }
-  try {
-    const from = `(${sql.trim().replace(/;\s*$/, "")}) AS tallyfit_rows`;
-    const described = (await client.query({ text: `SELECT * FROM ${from} LIMIT 0`, rowMode: "array" })) as PgResult;
-    const header = described.fields.map((f) => f.name);
-    const have = new Set(header);
-    const wanted = [...new Set(options.select ?? [])].filter((s) => have.has(s));
-    const list = wanted.length ? wanted.map(quotePgIdentifier).join(", ") : "*";
-    const r = (await client.query({ text: `SELECT ${list} FROM ${from}`, rowMode: "array" })) as PgResult;
-    const names = r.fields.map((f) => f.name);
-    const columns = names.map((_, j) => r.rows.map((row) => row[j]));
-    const table = typedTable(
-      `${shownUrl(url)} query`,
-      header,
-      names,
-      r.fields.map((f) => NUMBER_TYPES.has(f.dataTypeID)),
-      columns,
-      options,
-    );
-    if (table.nRows === 0) throw new InputError(`${where}: the query returned no rows.`);
-    table.origin = { engine: "postgres", queries: 2, rows_transferred: table.nRows };
+    const table = await loadEngineRows(engine, options, `--db ${shownUrl(url)}: the query returned no rows.`);
     return { table, sha256: rowsDigest(table) };
-  } catch (e) {
-    if (e instanceof InputError) throw e;
-    throw new InputError(`--sql: the query failed in PostgreSQL (${message(e, url)}).`);
   } finally {
-    await client.end().catch(() => {});
+    await engine.close();
   }
 }
 

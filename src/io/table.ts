@@ -26,6 +26,8 @@ export interface SourceOrigin {
   queries: number;
   /** Rows the engine sent to tallyfit. */
   rows_transferred: number;
+  /** How the rows were merged inside the engine (push-down), when they were. */
+  aggregation?: "covariate patterns" | "count patterns" | "per-iteration sums";
 }
 
 export interface Table {

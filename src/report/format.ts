@@ -124,5 +124,6 @@ export function groupRows(g: GroupSummary): [string[][], ("l" | "r")[]] {
 /** The source in a report's data line: the file name, and for rows read through an engine, which one. */
 export function sourceText(s: Source): string {
   if (typeof s === "string") return s;
-  return `${s.name} (${s.engine}${s.queries ? `, ${s.queries} queries, ${group(String(s.rows_transferred))} rows sent` : ""})`;
+  const merged = s.aggregation ? `, merged in the engine by ${s.aggregation}` : "";
+  return `${s.name} (${s.engine}${merged}${s.queries ? `, ${s.queries} queries, ${group(String(s.rows_transferred))} rows sent` : ""})`;
 }

@@ -1,4 +1,5 @@
 // Writing the saved-model record from a fit.
+import { rowsUsed } from "../design/collapsed.js";
 import { isoDate } from "../design/calendar.js";
 import type { Design } from "../design/design.js";
 import type { CountFit } from "../fit/count-fit.js";
@@ -90,7 +91,7 @@ export function modelHeadOf(
   return {
     schema: MODEL_FILE_SCHEMA,
     tool: { name: "tallyfit", version: meta.version },
-    data: { source: design.source, sha256: meta.sha256, n_rows: design.nRows, n_used: design.n },
+    data: { source: design.source, sha256: meta.sha256, n_rows: design.nRows, n_used: rowsUsed(design) },
     family,
     link: "log",
     model: design.model.text,

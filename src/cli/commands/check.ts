@@ -57,6 +57,7 @@ export async function runCheck(file: string | undefined, opts: CheckCliOptions):
     opts,
     zeroFamily ? [opts.model[0], zeroModel] : [opts.model[0]],
     alsoRead,
+    zeroFamily ? null : "count",
   );
   const design = designs[0];
   const cluster = opts.cluster.length ? clusteringOf(opts.cluster[0], labels.get(opts.cluster[0])!) : undefined;

@@ -49,6 +49,7 @@ export async function runCompare(file: string | undefined, opts: CompareCliOptio
     opts,
     anyZero ? [...opts.model, zeroModel] : opts.model,
     opts.cluster.map((column) => ({ column, option: "--cluster" })),
+    anyZero ? null : "count",
   );
   const { control, labels } = loaded;
   const designs = anyZero ? loaded.designs.slice(0, -1) : loaded.designs;

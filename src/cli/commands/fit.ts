@@ -112,11 +112,20 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
   // With --family auto the zero part's design is built with the model's, on the same rows, in case the check
   // finds excess zeros and the zero families are tried (their AIC is then comparable with the plain fit's).
   const zeroModel = family === "auto" && !unsupportedOption(opts) ? zeroModelOf(opts, zeroTermsOf(opts)) : null;
+  // Rows held by an engine are merged inside it: by covariate pattern for the Poisson fits (whose row-level
+  // figures come back as sums), with the count and exposure in the key where row-level figures are needed.
+  const pushDownKey =
+    zeroModel || gee || opts.robust || alsoRead.length
+      ? null
+      : (family === "poisson" || family === "quasipoisson") && !opts.plot
+        ? "covariates"
+        : "count";
   const { designs, control, labels, sha256 } = await loadDesigns(
     file,
     opts,
     zeroModel ? [opts.model[0], zeroModel] : [opts.model[0]],
     alsoRead,
+    pushDownKey,
   );
   const design = designs[0];
   if (opts.plot) plotKind(opts.plot);
