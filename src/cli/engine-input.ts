@@ -7,7 +7,20 @@ import { openClickHouse } from "../io/clickhouse-table.js";
 import { openDuckDb, openParquet } from "../io/duckdb-table.js";
 import type { Engine } from "../io/engine.js";
 import { openPostgres } from "../io/postgres-table.js";
-import { type Census, type PushDownKey, PATTERN_COLUMNS, pushDown } from "../io/push-down.js";
+import { createHash } from "node:crypto";
+import { DESIGN_LIMITS } from "../design/design.js";
+import { type LevelEvents, skeletonTable } from "../design/skeleton.js";
+import {
+  type Census,
+  innerRows,
+  PATTERN_COLUMNS,
+  pieces,
+  type PushDownKey,
+  type PushDownRequest,
+  pushDown,
+} from "../io/push-down.js";
+import type { EngineTarget } from "../io/sync-engine.js";
+import type { SumsSource } from "../io/engine-sums.js";
 import type { Table } from "../io/table.js";
 import { rowsDigest } from "../io/typed-columns.js";
 import type { ModelOptions } from "./options.js";
@@ -32,7 +45,9 @@ async function openEngine(path: string, opts: ModelOptions): Promise<{ engine: E
 export interface PatternRead {
   table: Table;
   census: Census;
-  by: PushDownKey;
+  by: PushDownKey | "per-iteration";
+  /** With per-iteration sums: the table is only the levels' skeleton (design/skeleton.ts). */
+  sums?: SumsSource;
   /** The column the pattern table's exposure sums sit in, and its frequency weights (count patterns). */
   exposureColumn: string;
   weightsColumn: string | undefined;
@@ -47,7 +62,7 @@ export async function readPatterns(
 ): Promise<PatternRead | null> {
   const { engine, sha256 } = await openEngine(path, opts);
   try {
-    const r = await pushDown(engine, {
+    const request: PushDownRequest = {
       ...model,
       exposure: opts.exposure,
       offset: opts.offset,
@@ -57,7 +72,12 @@ export async function readPatterns(
       // beyond half the rows are better fitted by per-iteration sums.
       maxPatterns: (used) =>
         Math.min(MAX_PATTERNS, by === "count" ? used : Math.max(MIN_PATTERN_LIMIT, Math.floor(used / 2))),
-    });
+    };
+    const r = await pushDown(engine, request);
+    if (r.kind === "too many patterns" && by === "covariates") {
+      const target = opts.db ? { db: opts.db, sql: opts.sql } : { parquet: path };
+      return await sumsSource(engine, request, r.census, r.numeric, target, sha256);
+    }
     if (r.kind !== "patterns") return null;
     r.table.origin = {
       engine: engine.engine,
@@ -76,4 +96,58 @@ export async function readPatterns(
   } finally {
     await engine.close();
   }
+}
+
+/**
+ * The levels of each factor with their events, and the numeric columns'
+ * means, over the rows used: the skeleton the design is built from when the
+ * fit runs on per-iteration sums. Null (read the rows) when a numeric column
+ * is read as a factor (its levels' text could differ from the engine's).
+ */
+async function sumsSource(
+  engine: Engine,
+  request: PushDownRequest,
+  census: Census,
+  numeric: Map<string, boolean>,
+  target: EngineTarget,
+  digest: string | undefined,
+): Promise<PatternRead | null> {
+  const factorKeys = request.keys.filter((k) => !numeric.get(k) || request.factors.includes(k));
+  if (factorKeys.some((k) => numeric.get(k))) return null;
+  const numericKeys = request.keys.filter((k) => !factorKeys.includes(k));
+  const s = pieces(engine, request, numeric);
+  const t = innerRows(engine, s);
+  const q = engine.quote;
+  let transferred = 0;
+  const levels: LevelEvents[] = [];
+  for (const k of factorKeys) {
+    const r = await engine.run(`SELECT ${q(k)}, SUM(${s.w} * t_y) AS events FROM ${t} WHERE ${s.used} GROUP BY ${q(k)}`);
+    transferred += r.columns[0].length;
+    levels.push({
+      factor: k,
+      levels: r.columns[0].map((v, i) => ({ level: String(v), events: Number(r.columns[1][i]) })),
+    });
+  }
+  const m = await engine.run(
+    `SELECT SUM(${s.w}) AS observations${numericKeys.map((k, j) => `, SUM(${s.w} * ${engine.double(q(k))}) AS m${j}`).join("")} FROM ${t} WHERE ${s.used}`,
+  );
+  transferred += 1;
+  const observations = Number(m.columns[0][0]);
+  const means = new Map(numericKeys.map((k, j) => [k, Number(m.columns[j + 1][0]) / observations]));
+  const table = skeletonTable(engine.source, request.response, levels, means, DESIGN_LIMITS.columns);
+  table.origin = {
+    engine: engine.engine,
+    queries: engine.queries,
+    rows_transferred: transferred,
+    aggregation: "per-iteration sums",
+  };
+  return {
+    table,
+    census,
+    by: "per-iteration",
+    sums: { engine, target, pieces: s, observations, means },
+    exposureColumn: "",
+    weightsColumn: undefined,
+    sha256: digest ?? createHash("sha256").update(JSON.stringify([levels, [...means]])).digest("hex"),
+  };
 }

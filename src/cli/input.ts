@@ -11,6 +11,7 @@ import { columnLabels, type Table } from "../io/table.js";
 import type { PushDownKey } from "../io/push-down.js";
 import { collapsedDesign } from "../design/collapsed.js";
 import { readPatterns, readThroughEngine } from "./engine-input.js";
+import type { SumsSource } from "../io/engine-sums.js";
 import {
   type Calendar,
   type CalendarOptions,
@@ -38,6 +39,8 @@ export interface LoadedDesigns {
   /** Labels of the alsoRead columns on the first design's rows. */
   labels: Map<string, string[]>;
   sha256: string;
+  /** Set when the rows stay in the engine and the fit runs on per-iteration sums. */
+  sums?: SumsSource;
 }
 
 /**
@@ -135,7 +138,7 @@ export async function loadDesigns(
         ),
       );
       return buildDesign(table, spec, {
-        exposure: pushed ? pushed.exposureColumn : opts.exposure,
+        exposure: pushed ? pushed.exposureColumn || undefined : opts.exposure,
         offset: pushed ? undefined : opts.offset,
         weights: pushed ? pushed.weightsColumn : opts.weights,
         refs: ownRefs,
@@ -146,11 +149,14 @@ export async function loadDesigns(
   let designs = build();
   if (pushed)
     designs = designs.map((d) =>
-      collapsedDesign(d, read, pushed.census, pushed.by, {
-        exposure: opts.exposure,
-        offset: opts.offset,
-        weights: opts.weights,
-      }),
+      collapsedDesign(
+        d,
+        read,
+        pushed.census,
+        pushed.by,
+        { exposure: opts.exposure, offset: opts.offset, weights: opts.weights },
+        pushed.sums,
+      ),
     );
   if (calendar && days) {
     const [used] = dayRange(days.days, designs[0].rowIndex);
@@ -169,7 +175,7 @@ export async function loadDesigns(
         `${name}: ${option} column '${column}' is not in the file. The columns are ${table.header.map((h) => `'${h}'`).join(", ")}.`,
       );
   const labels = new Map(alsoRead.map(({ column }) => [column, columnLabels(table, column, designs[0].rowIndex)]));
-  return { designs, control, labels, sha256 };
+  return { designs, control, labels, sha256, sums: pushed?.sums };
 }
 
 /** The calendar options, or null without --date (an input error when --trend, --season or --day-of-week come without it). */

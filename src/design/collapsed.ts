@@ -25,9 +25,25 @@ export function collapsedDesign(
   design: Design,
   table: Table,
   census: Census,
-  by: PushDownKey,
+  by: PushDownKey | "per-iteration",
   names: { exposure?: string; offset?: string; weights?: string },
+  /** Per-iteration sums: the rows' weight sum and numeric means (the table is a skeleton). */
+  sums?: { observations: number; means: Map<string, number> },
 ): Design {
+  if (sums)
+    return {
+      ...stated(design, census, names),
+      collapsed: {
+        by,
+        rows: census.used,
+        observations: sums.observations,
+        weights: null,
+        devianceShift: 0,
+        logLikShift: 0,
+        y2e: null,
+        means: sums.means,
+      },
+    };
   const P = PATTERN_COLUMNS;
   const rowCounts = columnAt(table, P.rows, design.rowIndex);
   const weightSums = columnAt(table, P.weight, design.rowIndex);
@@ -53,6 +69,14 @@ export function collapsedDesign(
       logLikShift += ylne[p] - Y * lnE - lnf[p] + lgamma(Y + 1);
     }
   }
+  return {
+    ...stated(design, census, names),
+    collapsed: { by, rows, observations, weights: by === "covariates" ? weightSums : null, devianceShift, logLikShift, y2e },
+  };
+}
+
+/** The design's counts, notices and names as for the rows the engine holds. */
+function stated(design: Design, census: Census, names: { exposure?: string; offset?: string; weights?: string }): Design {
   const notices = [...design.notices];
   if (census.missing > 0)
     notices.unshift(
@@ -73,7 +97,6 @@ export function collapsedDesign(
     weightsName: names.weights ?? null,
     dropped: { missing: census.missing, zeroExposureZeroCount: census.zeroExposureZeroCount, zeroWeight: census.zeroWeight },
     notices,
-    collapsed: { by, rows, observations, weights: by === "covariates" ? weightSums : null, devianceShift, logLikShift, y2e },
   };
 }
 

@@ -102,13 +102,17 @@ export interface Design {
 
 /** Engine-merged patterns standing for the rows (see collapsed.ts). */
 export interface Collapsed {
-  by: PushDownKey;
+  by: PushDownKey | "per-iteration";
   /** The rows the patterns stand for. */
   rows: number;
   /** Their frequency weights' sum (the rows, without --weights). */
   observations: number;
   /** Each pattern's sum of frequency weights (covariate patterns; count patterns carry it as the design's weights). */
   weights: Float64Array | null;
+  /** Per-iteration sums: the numeric columns' means over the rows used (the baseline's reference values). */
+  means?: Map<string, number>;
+  /** Per-iteration sums: Pearson's chi-square and the log-likelihood of the rows at the estimate. */
+  figures?: { pearson: number; logLik: number };
   /** Row-level deviance = the patterns' deviance + this (covariate patterns; 0 for count patterns). */
   devianceShift: number;
   /** Row-level log-likelihood = the patterns' + this (covariate patterns; 0 for count patterns). */

@@ -18,6 +18,13 @@ export interface Baseline {
 /** Means over the rows used of the numeric main-effect columns (frequency-weighted). */
 function numericMeans(design: Design): Map<string, number> {
   const out = new Map<string, number>();
+  const given = design.collapsed?.means;
+  if (given) {
+    design.columns.forEach((col) => {
+      if (col.kind === "numeric" && !col.name.includes(":")) out.set(col.name, given.get(col.name) ?? 0);
+    });
+    return out;
+  }
   // Engine-merged covariate patterns weigh by the rows (or weights) each stands for.
   const weights = design.weights ?? design.collapsed?.weights ?? null;
   design.columns.forEach((col, c) => {

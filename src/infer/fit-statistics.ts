@@ -33,6 +33,12 @@ export function fitStatistics(design: Design, fit: GlmFit, negbin = fit.alpha > 
     ll += c.logLikShift;
     nEff = c.observations;
   }
+  if (c?.figures) {
+    // Per-iteration sums: the engine summed the rows at the estimate.
+    pearson = c.figures.pearson;
+    ll = c.figures.logLik;
+    nEff = c.observations;
+  }
   let k = 0;
   for (const s of fit.status) if (s === "estimated" || s === "no_events") k++;
   const nPar = k + (negbin ? 1 : 0);
@@ -51,7 +57,7 @@ export function fitStatistics(design: Design, fit: GlmFit, negbin = fit.alpha > 
 
 /** Residual degrees of freedom: rows (summed weights) less the coefficients estimated or at −∞. */
 export function residualDf(design: Design, fit: GlmFit): number {
-  let nEff = design.collapsed?.y2e ? design.collapsed.observations : design.n;
+  let nEff = design.collapsed && !design.weights ? design.collapsed.observations : design.n;
   if (design.weights) {
     nEff = 0;
     for (let i = 0; i < design.n; i++) nEff += design.weights[i];

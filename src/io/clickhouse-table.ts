@@ -98,6 +98,8 @@ export async function openClickHouse(url: string, sql: string): Promise<Engine> 
     source: `${shownUrl(url)} query`,
     from: subquery(sql),
     quote: quoteClickHouseIdentifier,
+    // ClickHouse string literals take backslash escapes as well as doubled quotes.
+    text: (v) => `'${v.replace(/\\/g, "\\\\").replace(/'/g, "\\'")}'`,
     param: (_k, value) => {
       if (!Number.isFinite(value)) throw new Error(`a non-finite number (${value}) cannot be sent to ClickHouse`);
       return `toFloat64(${String(value)})`;

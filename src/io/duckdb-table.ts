@@ -6,7 +6,7 @@
 import { readFile } from "node:fs/promises";
 import { createHash } from "node:crypto";
 import { InputError } from "../errors.js";
-import { type Engine, type EngineRows, firstLine, subquery } from "./engine.js";
+import { type Engine, type EngineRows, firstLine, sqlText, subquery } from "./engine.js";
 import { loadEngineRows } from "./engine-rows.js";
 import { unreadable } from "./source-bytes.js";
 import type { Table } from "./table.js";
@@ -75,6 +75,7 @@ function duckEngine(
     source,
     from,
     quote: quoteIdentifier,
+    text: sqlText,
     param: (k) => `$${k + 1 + fromParams.length}`,
     double: (x) => `CAST(${x} AS DOUBLE)`,
     lnFactorial: (x) => `LGAMMA(${x} + 1.0)`,

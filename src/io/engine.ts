@@ -21,6 +21,8 @@ export interface Engine {
   from: string;
   /** An identifier, quoted for this engine. */
   quote(name: string): string;
+  /** A string literal (a factor level read from the data), quoted for this engine. */
+  text(value: string): string;
   /**
    * Number k (0-based) of run()'s params in the SQL: a placeholder bound by
    * the driver, or, for an engine without bound parameters, its literal.
@@ -54,6 +56,11 @@ export function lnFactorialSql(x: string): string {
     `((${z} - 0.5) * ln(${z}) - ${z} + 0.91893853320467274178 + 1.0 / (12.0 * ${z})` +
     ` - 1.0 / (360.0 * ${z} * ${z} * ${z}) + 1.0 / (1260.0 * pow(${z}, 5)) - 1.0 / (1680.0 * pow(${z}, 7)))`;
   return `${table} ELSE ${stirling} END`;
+}
+
+/** A standard SQL string literal: single quotes, inner quotes doubled. */
+export function sqlText(value: string): string {
+  return `'${value.replace(/'/g, "''")}'`;
 }
 
 /** The first line of an error's message, at most 300 characters. */

@@ -45,7 +45,7 @@ export interface Census {
 
 export type PushDown =
   | { kind: "patterns"; table: Table; census: Census; patterns: number }
-  | { kind: "too many patterns"; census: Census }
+  | { kind: "too many patterns"; census: Census; numeric: Map<string, boolean> }
   | { kind: "rows"; reason: string };
 
 /** Names of the columns the engine adds to a pattern table. */
@@ -60,7 +60,7 @@ export const PATTERN_COLUMNS = {
 } as const;
 
 /** The SQL pieces over the inner select: t_y, t_x (exposure·e^offset), t_lnx, t_w and the keys. */
-function pieces(engine: Engine, r: PushDownRequest, numeric: Map<string, boolean>) {
+export function pieces(engine: Engine, r: PushDownRequest, numeric: Map<string, boolean>) {
   const q = engine.quote;
   const d = engine.double;
   const big = d("1.7e308");
@@ -98,6 +98,11 @@ function countWhere(cond: string): string {
   return `SUM(CASE WHEN ${cond} THEN 1 ELSE 0 END)`;
 }
 
+/** The user's rows as the inner select of every push-down query (count, exposure, offset and weights as doubles). */
+export function innerRows(engine: Engine, s: ReturnType<typeof pieces>): string {
+  return `(SELECT ${s.inner} FROM ${engine.from}) AS tallyfit_t`;
+}
+
 export async function pushDown(engine: Engine, r: PushDownRequest): Promise<PushDown> {
   const described = await engine.run(`SELECT * FROM ${engine.from} LIMIT 0`);
   const numeric = new Map(described.names.map((n, j) => [n, described.numeric[j]]));
@@ -111,7 +116,7 @@ export async function pushDown(engine: Engine, r: PushDownRequest): Promise<Push
   const text = numbers.find((c) => !numeric.get(c) || r.factors.includes(c));
   if (text !== undefined) return { kind: "rows", reason: `'${text}' is not a number column` };
   const s = pieces(engine, r, numeric);
-  const t = `(SELECT ${s.inner} FROM ${engine.from}) AS tallyfit_t`;
+  const t = innerRows(engine, s);
   const c = await engine.run(
     `SELECT COUNT(*) AS n, ${countWhere(s.missing)} AS missing, ` +
       `${countWhere(`NOT (${s.missing}) AND (${s.faults})`)} AS faults, ` +
@@ -156,7 +161,7 @@ export async function pushDown(engine: Engine, r: PushDownRequest): Promise<Push
       ` LIMIT ${limit + 1}`,
   );
   const patterns = result.columns[0]?.length ?? 0;
-  if (patterns > limit) return { kind: "too many patterns", census };
+  if (patterns > limit) return { kind: "too many patterns", census, numeric };
   const table = typedTable(engine.source, result.names, result.names, result.numeric, result.columns, {
     factors: r.factors,
   });

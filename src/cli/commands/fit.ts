@@ -1,5 +1,6 @@
 // tallyfit fit: one model, its report, and optionally the model file and picture.
 import { analyzeFitParallel, diagnosticsOf, noEventsUpperLimits } from "../../analysis/fit.js";
+import { analyzeInEngine } from "../../analysis/sums-fit.js";
 import { naturalCompare } from "../../design/naming.js";
 import { EXIT, InputError } from "../../errors.js";
 import type { FamilyChoice } from "../../fit/count-fit.js";
@@ -117,10 +118,10 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
   const pushDownKey =
     zeroModel || gee || opts.robust || alsoRead.length
       ? null
-      : (family === "poisson" || family === "quasipoisson") && !opts.plot
+      : (family === "poisson" || family === "quasipoisson") && !opts.plot && opts.format !== "html"
         ? "covariates"
         : "count";
-  const { designs, control, labels, sha256 } = await loadDesigns(
+  const { designs, control, labels, sha256, sums } = await loadDesigns(
     file,
     opts,
     zeroModel ? [opts.model[0], zeroModel] : [opts.model[0]],
@@ -151,7 +152,7 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
     gee && opts.orderBy
       ? orderKeyOf(opts.orderBy, labels.get(opts.orderBy)!, design.rowIndex, clusters[0], design.source)
       : null;
-  const { summary, countFit, cluster, check } = await analyzeFitParallel(design, {
+  const analysisOptions = {
     family,
     control,
     level,
@@ -164,7 +165,10 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
     onProgress,
     baselineAt,
     ratioPer,
-  });
+  };
+  const { summary, countFit, cluster, check } = sums
+    ? analyzeInEngine(design, sums, { ...analysisOptions, family: family as "poisson" | "quasipoisson" })
+    : await analyzeFitParallel(design, analysisOptions);
   if (onProgress && progressOnTerminal()) clearProgressLine();
   if (family === "auto" && check) {
     // More zeros than either plain model expects: the excess-zero families are tried too.
@@ -198,7 +202,9 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
     }
   }
   const wide = opts.format === "text" && !opts.output && process.stdout.isTTY && (process.stdout.columns ?? 0) >= 60;
-  const diag = opts.plot || wide || opts.format === "html" ? diagnosticsOf(design, countFit) : null;
+  // Row-level pictures need the rows: a fit on engine-merged covariate patterns or sums has none.
+  const rowLevel = !design.collapsed || design.collapsed.by === "count";
+  const diag = rowLevel && (opts.plot || wide || opts.format === "html") ? diagnosticsOf(design, countFit) : null;
   const plotTitle = `${summary.family} fit of ${summary.model}`;
   if (opts.plot && diag) addPlot(outputs, opts.plot, plotTitle, diag, summary);
   if (opts.summaryBy)
@@ -245,3 +251,4 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
   await finish(outputs, opts, content);
   return EXIT.ok;
 }
+
