@@ -7,6 +7,8 @@
 //   npm run bench -- --big                 also 10,000,000 rows (about 220 MB), one run per family, and the
 //                                          Poisson fit against the same data collapsed outside tallyfit
 //   npm run bench -- --smoke               10,000 rows, one run each, no yardstick, and the kernel at 5% size (used by the tests)
+//   npm run bench -- --engines             push-down at scale (bench/engines.ts): 100,000,000 rows of Parquet through
+//                                          DuckDB against DuckDB's own GROUP BY, 10,000,000 rows on two ClickHouse shards
 //   npm run bench -- --kernel [--against DIR]  the IRLS kernel micro-benchmark alone (bench/kernel.ts), which the
 //                                          default run also ends with
 // Wall time is measured around each process; peak resident memory comes from
@@ -19,6 +21,7 @@ import { writeBenchFile } from "./generate.js";
 import { collapseBenchFile } from "./collapse.js";
 import { runKernelBench } from "./kernel.js";
 import { predictBench } from "./predict.js";
+import { enginesBench } from "./engines.js";
 import { loadTableStream } from "../src/io/csv.js";
 
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), "..", "..");
@@ -250,6 +253,7 @@ async function big(): Promise<void> {
 async function main(): Promise<void> {
   // The kernel micro-benchmark alone (see bench/kernel.ts); --against DIR adds another build's kernel.
   if (process.argv.includes("--kernel")) return runKernelBench(process.argv.slice(2));
+  if (process.argv.includes("--engines")) return enginesBench(run, BIN, DATA);
   if (process.argv.includes("--smoke")) {
     await bench(10000, 1, false);
     await predictBench(run, BIN, DATA, MODEL, 1);

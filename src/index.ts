@@ -7,9 +7,20 @@ export { EXIT, FitError, InputError } from "./errors.js";
 
 // Load: CSV text or files into typed columns; model files.
 export { loadTable, parseTable, type LoadOptions } from "./io/csv.js";
-export { loadDuckDbQuery, loadParquet } from "./io/duckdb-table.js";
-export { loadPostgresQuery } from "./io/postgres-table.js";
-export { loadClickHouseQuery } from "./io/clickhouse-table.js";
+export { loadDuckDbQuery, loadParquet, openDuckDb, openParquet } from "./io/duckdb-table.js";
+export { loadPostgresQuery, openPostgres } from "./io/postgres-table.js";
+export { loadClickHouseQuery, openClickHouse } from "./io/clickhouse-table.js";
+// Engines and push-down, across the stages: the engine surface and its queries (load), the designs of
+// engine-merged patterns (design), the fit on per-iteration sums (fit) and its composition (analysis).
+export type { Engine, EngineRows } from "./io/engine.js";
+export { loadEngineRows } from "./io/engine-rows.js";
+export { pushDown, type PushDown, type PushDownRequest } from "./io/push-down.js";
+export { sumsQuery, readSums, type SqlColumn, type SumsSource } from "./io/engine-sums.js";
+export { openSyncEngine } from "./io/sync-engine.js";
+export { collapsedDesign, rowDeviance, rowsUsed } from "./design/collapsed.js";
+export { skeletonTable } from "./design/skeleton.js";
+export { fitBySums } from "./fit/sums-fit.js";
+export { analyzeBySums, analyzeInEngine, sqlColumnsOf } from "./analysis/sums-fit.js";
 export { DEFAULT_NA } from "./io/dialect.js";
 export type { Column, FactorColumn, NumericColumn, Table } from "./io/table.js";
 export { loadModelFile, parseModelFile, MODEL_FILE_SCHEMA, type ModelFile } from "./io/model-file.js";

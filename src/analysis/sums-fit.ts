@@ -6,7 +6,13 @@ import type { Design } from "../design/design.js";
 import { DEFAULT_CONTROL, type FitSetup, type GlmFit } from "../fit/kernel/types.js";
 import type { CountFit } from "../fit/count-fit.js";
 import { fitBySums, type SumsAtBeta, type SumsFit } from "../fit/sums-fit.js";
-import { chiSquareQuantile, chiSquareUpperTail, fUpperTail, normalQuantile, studentQuantile } from "../math/distributions.js";
+import {
+  chiSquareQuantile,
+  chiSquareUpperTail,
+  fUpperTail,
+  normalQuantile,
+  studentQuantile,
+} from "../math/distributions.js";
 import { profileLimits, type ProfileResult } from "../infer/profile.js";
 import { summarizeFit } from "../infer/summary.js";
 import { termPlan, type TermTest } from "../infer/terms.js";
@@ -59,7 +65,14 @@ export function analyzeBySums(
   const full = fitBySums(p, sumsAt, { start });
   const nullFit =
     ic >= 0
-      ? fitBySums(p, sumsAt, { start, fixed: new Map(Array.from({ length: p }, (_, c) => c).filter((c) => c !== ic).map((c) => [c, 0])) })
+      ? fitBySums(p, sumsAt, {
+          start,
+          fixed: new Map(
+            Array.from({ length: p }, (_, c) => c)
+              .filter((c) => c !== ic)
+              .map((c) => [c, 0]),
+          ),
+        })
       : null;
   const figured: Design = {
     ...design,
@@ -91,7 +104,12 @@ export function analyzeBySums(
       profiles.set(c, profileLimits(stat, full.beta[c], zq * se, crit));
     }
   }
-  const summary = summarizeFit(figured, mf, { level: o.level, profiles, ratioPer: o.ratioPer, baselineAt: o.baselineAt });
+  const summary = summarizeFit(figured, mf, {
+    level: o.level,
+    profiles,
+    ratioPer: o.ratioPer,
+    baselineAt: o.baselineAt,
+  });
   if (o.termTests !== false && design.model.terms.length > 0)
     summary.term_tests = termPlan(design, mf).map((step, ti): TermTest => {
       const term = design.termLabels[ti];

@@ -6,7 +6,8 @@
 import { openClickHouse } from "../io/clickhouse-table.js";
 import { openDuckDb, openParquet } from "../io/duckdb-table.js";
 import type { Engine } from "../io/engine.js";
-import { openPostgres } from "../io/postgres-table.js";
+import { openPostgres, shownUrl } from "../io/postgres-table.js";
+import { InputError } from "../errors.js";
 import { createHash } from "node:crypto";
 import { DESIGN_LIMITS } from "../design/design.js";
 import { type LevelEvents, skeletonTable } from "../design/skeleton.js";
@@ -39,7 +40,15 @@ async function openEngine(path: string, opts: ModelOptions): Promise<{ engine: E
   if (!opts.db) return openParquet(path);
   if (opts.db.startsWith("duckdb:")) return { engine: await openDuckDb(opts.db, opts.sql!) };
   if (opts.db.startsWith("clickhouse://")) return { engine: await openClickHouse(opts.db, opts.sql!) };
-  return { engine: await openPostgres(opts.db, opts.sql!) };
+  if (/^postgres(ql)?:\/\//.test(opts.db)) return { engine: await openPostgres(opts.db, opts.sql!) };
+  throw unknownDatabase(opts.db);
+}
+
+/** The message for a --db URL of an engine this version does not read. */
+export function unknownDatabase(url: string): InputError {
+  return new InputError(
+    `--db ${shownUrl(url)}: not a database this version reads; give duckdb:[PATH], postgres://user@host:port/db or clickhouse://host:port/db (or export the rows to CSV or Parquet).`,
+  );
 }
 
 export interface PatternRead {
@@ -121,7 +130,9 @@ async function sumsSource(
   let transferred = 0;
   const levels: LevelEvents[] = [];
   for (const k of factorKeys) {
-    const r = await engine.run(`SELECT ${q(k)}, SUM(${s.w} * t_y) AS events FROM ${t} WHERE ${s.used} GROUP BY ${q(k)}`);
+    const r = await engine.run(
+      `SELECT ${q(k)}, SUM(${s.w} * t_y) AS events FROM ${t} WHERE ${s.used} GROUP BY ${q(k)}`,
+    );
     transferred += r.columns[0].length;
     levels.push({
       factor: k,
@@ -148,6 +159,10 @@ async function sumsSource(
     sums: { engine, target, pieces: s, observations, means },
     exposureColumn: "",
     weightsColumn: undefined,
-    sha256: digest ?? createHash("sha256").update(JSON.stringify([levels, [...means]])).digest("hex"),
+    sha256:
+      digest ??
+      createHash("sha256")
+        .update(JSON.stringify([levels, [...means]]))
+        .digest("hex"),
   };
 }

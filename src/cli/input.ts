@@ -5,12 +5,12 @@ import { InputError } from "../errors.js";
 import { parseFormula, termVariables } from "../formula/formula.js";
 import { loadTableStream } from "../io/csv.js";
 import { loadDuckDbQuery, loadParquet } from "../io/duckdb-table.js";
-import { loadPostgresQuery, shownUrl } from "../io/postgres-table.js";
+import { loadPostgresQuery } from "../io/postgres-table.js";
 import { loadClickHouseQuery } from "../io/clickhouse-table.js";
 import { columnLabels, type Table } from "../io/table.js";
 import type { PushDownKey } from "../io/push-down.js";
 import { collapsedDesign } from "../design/collapsed.js";
-import { readPatterns, readThroughEngine } from "./engine-input.js";
+import { readPatterns, readThroughEngine, unknownDatabase } from "./engine-input.js";
 import type { SumsSource } from "../io/engine-sums.js";
 import {
   type Calendar,
@@ -211,9 +211,7 @@ async function readRows(
     if (opts.db.startsWith("duckdb:")) return loadDuckDbQuery(opts.db, opts.sql!, columns);
     if (/^postgres(ql)?:\/\//.test(opts.db)) return loadPostgresQuery(opts.db, opts.sql!, columns);
     if (opts.db.startsWith("clickhouse://")) return loadClickHouseQuery(opts.db, opts.sql!, columns);
-    throw new InputError(
-      `--db ${shownUrl(opts.db)}: not a database this version reads; give duckdb:[PATH], postgres://user@host:port/db or clickhouse://host:port/db (or export the rows to CSV or Parquet).`,
-    );
+    throw unknownDatabase(opts.db);
   }
   if (/\.parquet$/i.test(path)) return loadParquet(path, columns);
   return loadTableStream(

@@ -71,12 +71,24 @@ export function collapsedDesign(
   }
   return {
     ...stated(design, census, names),
-    collapsed: { by, rows, observations, weights: by === "covariates" ? weightSums : null, devianceShift, logLikShift, y2e },
+    collapsed: {
+      by,
+      rows,
+      observations,
+      weights: by === "covariates" ? weightSums : null,
+      devianceShift,
+      logLikShift,
+      y2e,
+    },
   };
 }
 
 /** The design's counts, notices and names as for the rows the engine holds. */
-function stated(design: Design, census: Census, names: { exposure?: string; offset?: string; weights?: string }): Design {
+function stated(
+  design: Design,
+  census: Census,
+  names: { exposure?: string; offset?: string; weights?: string },
+): Design {
   const notices = [...design.notices];
   if (census.missing > 0)
     notices.unshift(
@@ -95,7 +107,11 @@ function stated(design: Design, census: Census, names: { exposure?: string; offs
     exposureName: names.exposure ?? null,
     offsetName: names.offset ?? null,
     weightsName: names.weights ?? null,
-    dropped: { missing: census.missing, zeroExposureZeroCount: census.zeroExposureZeroCount, zeroWeight: census.zeroWeight },
+    dropped: {
+      missing: census.missing,
+      zeroExposureZeroCount: census.zeroExposureZeroCount,
+      zeroWeight: census.zeroWeight,
+    },
     notices,
   };
 }

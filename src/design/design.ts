@@ -121,8 +121,6 @@ export interface Collapsed {
   y2e: Float64Array | null;
 }
 
-
-
 function firstRows(rows: number[]): string {
   const shown = rows.slice(0, 3).join(", ");
   return rows.length > 3 ? `${shown} and ${rows.length - 3} more` : shown;

@@ -25,7 +25,12 @@ export function skeletonTable(
   if (base.length === 0) base.push({ factor: -1, level: 0, event: true });
   const copies = Math.ceil((columns + 1) / base.length);
   const n = base.length * copies;
-  const withEvents = factors.map((f) => Math.max(0, f.levels.findIndex((l) => l.events > 0)));
+  const withEvents = factors.map((f) =>
+    Math.max(
+      0,
+      f.levels.findIndex((l) => l.events > 0),
+    ),
+  );
   const map = new Map<string, Column>();
   const y = new Float64Array(n);
   factors.forEach((f, j) => {

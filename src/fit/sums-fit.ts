@@ -28,7 +28,11 @@ export interface SumsFit {
 }
 
 /** Solve I_ff·d = U_f over the free columns, with I's diagonal scaled to 1 (Jacobi) for the factorisation. */
-function newtonStep(s: SumsAtBeta, p: number, free: number[]): { step: Float64Array; l: Float64Array; d: Float64Array } {
+function newtonStep(
+  s: SumsAtBeta,
+  p: number,
+  free: number[],
+): { step: Float64Array; l: Float64Array; d: Float64Array } {
   const q = free.length;
   const d = Float64Array.from(free, (c) => 1 / Math.sqrt(s.information[c * p + c]));
   const a = new Float64Array(q * q);

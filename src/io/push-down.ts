@@ -111,7 +111,8 @@ export async function pushDown(engine: Engine, r: PushDownRequest): Promise<Push
   if (absent !== undefined) return { kind: "rows", reason: `the query has no column '${absent}'` };
   const roles = [r.response, r.exposure, r.offset, r.weights];
   const both = r.keys.find((k) => roles.includes(k));
-  if (both !== undefined) return { kind: "rows", reason: `'${both}' is both a term and the count, exposure, offset or weights` };
+  if (both !== undefined)
+    return { kind: "rows", reason: `'${both}' is both a term and the count, exposure, offset or weights` };
   const numbers = [r.response, r.exposure, r.offset, r.weights].filter((c): c is string => !!c);
   const text = numbers.find((c) => !numeric.get(c) || r.factors.includes(c));
   if (text !== undefined) return { kind: "rows", reason: `'${text}' is not a number column` };

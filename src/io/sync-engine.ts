@@ -33,7 +33,8 @@ export function openSyncEngine(target: EngineTarget): SyncEngine {
     Atomics.store(flag, 0, 0);
     worker.postMessage(message);
     // A query that never answers is bounded by the engine's own timeouts; this wait is a backstop.
-    if (Atomics.wait(flag, 0, 0, 3_600_000) === "timed-out") throw new InputError("the engine did not answer within an hour.");
+    if (Atomics.wait(flag, 0, 0, 3_600_000) === "timed-out")
+      throw new InputError("the engine did not answer within an hour.");
     const reply = receiveMessageOnPort(port1);
     if (!reply) throw new InputError("the engine's worker stopped without an answer.");
     return reply.message as Record<string, unknown>;

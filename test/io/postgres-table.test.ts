@@ -16,13 +16,13 @@ before(async () => {
   const c = new pg.Client({ connectionString: server.url });
   await c.connect();
   await c.query(
-    "CREATE TABLE visits (date date, week integer, weekday text, clinic text, open_hours double precision, staff_on_duty integer, flu_season integer, visits bigint)",
+    "CREATE TABLE visits (date date, week integer, weekday text, clinic text, open_hours double precision, staff_on_duty integer, flu_season integer, visits bigint, outdoor_c double precision)",
   );
   const lines = readFileSync(CSV, "utf8").trim().split("\n").slice(1);
   for (let k = 0; k < lines.length; k += 400) {
     const batch = lines.slice(k, k + 400).map((l) => l.split(","));
     const values = batch.flatMap((f) => f.map((v) => (v === "NA" || v === "" ? null : v)));
-    const rows = batch.map((_, i) => `(${Array.from({ length: 8 }, (_, j) => `$${i * 8 + j + 1}`).join(", ")})`);
+    const rows = batch.map((_, i) => `(${Array.from({ length: 9 }, (_, j) => `$${i * 9 + j + 1}`).join(", ")})`);
     await c.query(`INSERT INTO visits VALUES ${rows.join(", ")}`, values);
   }
   await c.end();

@@ -251,4 +251,3 @@ export async function runFit(file: string | undefined, opts: FitCliOptions): Pro
   await finish(outputs, opts, content);
   return EXIT.ok;
 }
-
