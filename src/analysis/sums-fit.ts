@@ -151,17 +151,17 @@ export function analyzeInEngine(
       design,
       (beta) => {
         const q = sumsQuery(sums.engine, sums.pieces, columns, beta);
-        return readSums(engine.run(q.sql, q.params), columns.length);
+        return readSums(engine.run(q.sql, q.params), columns);
       },
       o,
     );
     const source = analysis.summary.source;
-    // The sums queries ran after the design was read: count them, one row each, in the source block.
+    // The sums queries ran after the design was read: count them and their rows (one per cell) in the source block.
     if (typeof source !== "string")
       analysis.summary.source = {
         ...source,
         queries: source.queries + engine.queries,
-        rows_transferred: source.rows_transferred + engine.queries,
+        rows_transferred: source.rows_transferred + engine.rows,
       };
     return analysis;
   } finally {

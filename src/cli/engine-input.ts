@@ -13,7 +13,6 @@ import { DESIGN_LIMITS } from "../design/design.js";
 import { type LevelEvents, skeletonTable } from "../design/skeleton.js";
 import {
   type Census,
-  innerRows,
   PATTERN_COLUMNS,
   pieces,
   type PushDownKey,
@@ -91,7 +90,7 @@ export async function readPatterns(
     r.table.origin = {
       engine: engine.engine,
       queries: engine.queries,
-      rows_transferred: r.patterns,
+      rows_transferred: r.transferred,
       aggregation: by === "covariates" ? "covariate patterns" : "count patterns",
     };
     return {
@@ -125,14 +124,12 @@ async function sumsSource(
   if (factorKeys.some((k) => numeric.get(k))) return null;
   const numericKeys = request.keys.filter((k) => !factorKeys.includes(k));
   const s = pieces(engine, request, numeric);
-  const t = innerRows(engine, s);
+  const t = s.rows;
   const q = engine.quote;
   let transferred = 0;
   const levels: LevelEvents[] = [];
   for (const k of factorKeys) {
-    const r = await engine.run(
-      `SELECT ${q(k)}, SUM(${s.w} * t_y) AS events FROM ${t} WHERE ${s.used} GROUP BY ${q(k)}`,
-    );
+    const r = await engine.run(`SELECT ${q(k)}, SUM(t_w * t_y) AS events FROM ${t} WHERE ${s.used} GROUP BY ${q(k)}`);
     transferred += r.columns[0].length;
     levels.push({
       factor: k,
@@ -140,7 +137,7 @@ async function sumsSource(
     });
   }
   const m = await engine.run(
-    `SELECT SUM(${s.w}) AS observations${numericKeys.map((k, j) => `, SUM(${s.w} * ${engine.double(q(k))}) AS m${j}`).join("")} FROM ${t} WHERE ${s.used}`,
+    `SELECT SUM(t_w) AS observations${numericKeys.map((k, j) => `, SUM(t_w * ${engine.double(q(k))}) AS m${j}`).join("")} FROM ${t} WHERE ${s.used}`,
   );
   transferred += 1;
   const observations = Number(m.columns[0][0]);

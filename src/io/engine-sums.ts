@@ -1,13 +1,14 @@
 // Per-iteration sums inside the engine, for models whose covariate patterns
 // are too many to bring back (a continuous covariate): at given coefficients
-// b, one aggregate query returns the Poisson score U = Σ w·(y − mu)·x, the
-// Fisher information I = Σ w·mu·x·x' (for the log link also the observed
-// information), the deviance, Pearson's chi-square and the log-likelihood,
-// with mu = exp(ln e + offset + x'b). The coefficients are bound numbers; the
+// b, one aggregate query returns, per cell of the model's factors, the moments
+// from which the Poisson score U = Σ w·(y − mu)·x and the Fisher information
+// I = Σ w·mu·x·x' (for the log link also the observed information) follow,
+// with the deviance, Pearson's chi-square and the log-likelihood, where
+// mu = exp(ln e + offset + x'b). The coefficients are bound numbers; the
 // design columns are products of factor-level indicators (levels as quoted
 // literals) and numeric columns (quoted names).
 import type { Engine, EngineRows } from "./engine.js";
-import { innerRows, type pieces } from "./push-down.js";
+import type { pieces } from "./push-down.js";
 import type { EngineTarget } from "./sync-engine.js";
 
 /** What the per-iteration sums need: the engine (closed; its SQL dialect), the worker's target and the rows' SQL pieces. */
@@ -34,49 +35,94 @@ export interface PoissonSums {
   logLik: number;
 }
 
-/** The expression of a design column over the inner rows. */
-function columnSql(engine: Engine, c: SqlColumn): string {
-  const parts = [
-    ...c.levels.map((l) => `(CASE WHEN ${engine.quote(l.factor)} = ${engine.text(l.level)} THEN 1.0 ELSE 0.0 END)`),
-    ...c.numbers.map((n) => engine.double(engine.quote(n))),
-  ];
-  return parts.length ? parts.join(" * ") : "1.0";
+/**
+ * The layout of the sums: the model's factors (the cells the engine groups
+ * by), the distinct numeric parts of the columns (features; feature 0 is the
+ * constant 1), and for each column its feature and its levels. Within a cell
+ * every column is its feature or 0, so X'WX and X'(y − mu) follow from each
+ * cell's moments Σ w·mu·f_a·f_b and Σ w·(y − mu)·f_a: the rows carry only the
+ * features' products, not every pair of columns (the cell layout of the
+ * in-process kernel, fit/kernel/layout.ts, inside the engine).
+ */
+export function sumsLayout(columns: SqlColumn[]) {
+  const factors = [...new Set(columns.flatMap((c) => c.levels.map((l) => l.factor)))];
+  const keyOf = (numbers: string[]) => JSON.stringify([...numbers].sort());
+  const features: string[][] = [[]];
+  const featureOf = columns.map((c) => {
+    const k = keyOf(c.numbers);
+    let f = features.findIndex((g) => keyOf(g) === k);
+    if (f < 0) f = features.push([...c.numbers].sort()) - 1;
+    return f;
+  });
+  return { factors, features, featureOf };
 }
 
-/** The sums query at coefficients beta, with its bound numbers. */
+/** The sums query at coefficients beta, with its bound numbers: one row per cell. */
 export function sumsQuery(
   engine: Engine,
   s: ReturnType<typeof pieces>,
   columns: SqlColumn[],
   beta: Float64Array,
 ): { sql: string; params: number[] } {
-  const p = columns.length;
-  const params = Array.from(beta);
-  const xs = columns.map((c, j) => `${columnSql(engine, c)} AS x${j}`);
-  const eta = ["t_lnx", ...columns.map((_, j) => `${engine.param(j, beta[j])} * x${j}`)].join(" + ");
+  const q = engine.quote;
+  const { factors, features } = sumsLayout(columns);
+  const indicator = (c: SqlColumn) =>
+    c.levels.map((l) => `(CASE WHEN ${q(l.factor)} = ${engine.text(l.level)} THEN 1.0 ELSE 0.0 END)`);
+  const numbers = (names: string[]) => names.map((n) => engine.double(q(n)));
+  const x = (c: SqlColumn) => [...indicator(c), ...numbers(c.numbers)].join(" * ") || "1.0";
+  const eta = ["t_lnx", ...columns.map((c, j) => `${engine.param(j, beta[j])} * ${x(c)}`)].join(" + ");
+  const keys = factors.map(q);
+  const f = features.map((g, a) => `${g.length ? numbers(g).join(" * ") : "1.0"} AS f${a}`);
   const rows =
-    `(SELECT ${xs.join(", ")}, t_y, ${s.w} AS t_w, ${s.lnx} AS t_lnx FROM ${innerRows(engine, s)} ` +
-    `WHERE ${s.used}) AS tallyfit_x`;
-  const withMu = `(SELECT *, ${eta} AS t_eta, exp(${eta}) AS t_mu FROM ${rows}) AS tallyfit_mu`;
-  const sums: string[] = [];
-  for (let j = 0; j < p; j++) sums.push(`SUM(t_w * (t_y - t_mu) * x${j}) AS u${j}`);
-  for (let j = 0; j < p; j++) for (let k = 0; k <= j; k++) sums.push(`SUM(t_w * t_mu * x${j} * x${k}) AS i${j}_${k}`);
+    `(SELECT ${[...keys, ...f, "t_y", "t_w", `${eta} AS t_eta`].join(", ")} ` +
+    `FROM ${s.rows} WHERE ${s.used}) AS tallyfit_x`;
+  const withMu = `(SELECT *, exp(t_eta) AS t_mu FROM ${rows}) AS tallyfit_mu`;
+  const sums = [...keys];
+  for (let a = 0; a < features.length; a++) {
+    sums.push(`SUM(t_w * (t_y - t_mu) * f${a}) AS r${a}`);
+    for (let b = 0; b <= a; b++) sums.push(`SUM(t_w * t_mu * f${a} * f${b}) AS m${a}_${b}`);
+  }
   sums.push(
     `SUM(2.0 * t_w * ((CASE WHEN t_y > 0 THEN t_y * (ln(t_y) - t_eta) ELSE 0.0 END) - t_y + t_mu)) AS deviance`,
     `SUM(t_w * (t_y - t_mu) * (t_y - t_mu) / t_mu) AS pearson`,
     `SUM(t_w * (t_y * t_eta - t_mu - ${engine.lnFactorial("t_y")})) AS loglik`,
   );
-  return { sql: `SELECT ${sums.join(", ")} FROM ${withMu}`, params };
+  const group = keys.length ? ` GROUP BY ${keys.join(", ")}` : "";
+  return { sql: `SELECT ${sums.join(", ")} FROM ${withMu}${group}`, params: Array.from(beta) };
 }
 
-/** The sums from the query's one row. */
-export function readSums(r: EngineRows, p: number): PoissonSums {
-  const v = (name: string) => Number(r.columns[r.names.indexOf(name)]?.[0] ?? Number.NaN);
+/** The score, information and figures from the cells' moments. */
+export function readSums(r: EngineRows, columns: SqlColumn[]): PoissonSums {
+  const p = columns.length;
+  const { factors, features, featureOf } = sumsLayout(columns);
+  const col = (name: string) => r.columns[r.names.indexOf(name)] ?? [];
+  const keyCols = factors.map((k) => col(k));
+  const num = (name: string) => col(name).map((v) => Number(v));
+  const rAt = features.map((_, a) => num(`r${a}`));
+  const mAt = features.map((_, a) => features.map((_, b) => num(a >= b ? `m${a}_${b}` : `m${b}_${a}`)));
   const score = new Float64Array(p);
   const information = new Float64Array(p * p);
-  for (let j = 0; j < p; j++) {
-    score[j] = v(`u${j}`);
-    for (let k = 0; k <= j; k++) information[j * p + k] = information[k * p + j] = v(`i${j}_${k}`);
+  const cells = r.columns[0]?.length ?? 0;
+  const on = new Uint8Array(p);
+  let deviance = 0,
+    pearson = 0,
+    logLik = 0;
+  const dev = num("deviance"),
+    pe = num("pearson"),
+    ll = num("loglik");
+  for (let i = 0; i < cells; i++) {
+    columns.forEach((c, j) => {
+      on[j] = c.levels.every((l) => String(keyCols[factors.indexOf(l.factor)][i]) === l.level) ? 1 : 0;
+    });
+    for (let j = 0; j < p; j++) {
+      if (!on[j]) continue;
+      score[j] += rAt[featureOf[j]][i];
+      for (let k = 0; k <= j; k++) if (on[k]) information[j * p + k] += mAt[featureOf[j]][featureOf[k]][i];
+    }
+    deviance += dev[i];
+    pearson += pe[i];
+    logLik += ll[i];
   }
-  return { score, information, deviance: v("deviance"), pearson: v("pearson"), logLik: v("loglik") };
+  for (let j = 0; j < p; j++) for (let k = 0; k < j; k++) information[k * p + j] = information[j * p + k];
+  return { score, information, deviance, pearson, logLik };
 }

@@ -13,7 +13,6 @@
 // any refused row (a negative or fractional count, a bad exposure, offset or
 // weight, a non-finite number) sends the caller back to reading the rows,
 // where the design names the row, column and value.
-import { InputError } from "../errors.js";
 import type { Engine } from "./engine.js";
 import type { Table } from "./table.js";
 import { typedTable } from "./typed-columns.js";
@@ -44,7 +43,7 @@ export interface Census {
 }
 
 export type PushDown =
-  | { kind: "patterns"; table: Table; census: Census; patterns: number }
+  | { kind: "patterns"; table: Table; census: Census; patterns: number; transferred: number }
   | { kind: "too many patterns"; census: Census; numeric: Map<string, boolean> }
   | { kind: "rows"; reason: string };
 
@@ -59,19 +58,24 @@ export const PATTERN_COLUMNS = {
   lnFactorial: "tallyfit__lnfact",
 } as const;
 
-/** The SQL pieces over the inner select: t_y, t_x (exposure·e^offset), t_lnx, t_w and the keys. */
+/**
+ * The user's rows as every push-down query reads them: the keys, and computed
+ * once per row t_y (the count), t_x (exposure·e^offset), t_lnx (its log),
+ * t_w (the weight, 1 without --weights) and t_cls, the row's class: 0 used,
+ * 1 a missing value, 2 a value the design refuses, 3 zero exposure and a zero
+ * count, 4 weight 0 (the design's order of checks).
+ */
 export function pieces(engine: Engine, r: PushDownRequest, numeric: Map<string, boolean>) {
   const q = engine.quote;
   const d = engine.double;
   const big = d("1.7e308");
   const finite = (x: string) => `(${x} >= -${big} AND ${x} <= ${big})`;
   const whole = (x: string) => `(${x} >= 0 AND ${x} <= ${d("1e15")} AND ${x} = floor(${x}))`;
-  const e = r.exposure ? `t_e` : null;
-  const o = r.offset ? `t_o` : null;
+  const e = r.exposure ? "t_e" : null;
+  const o = r.offset ? "t_o" : null;
   const x = e && o ? `(${e} * exp(${o}))` : e ? e : o ? `exp(${o})` : "1.0";
   const lnx = [e ? `(CASE WHEN ${e} > 0 THEN ln(${e}) ELSE 0.0 END)` : null, o].filter(Boolean).join(" + ") || "0.0";
-  const w = r.weights ? "t_w" : "1.0";
-  const inner = [
+  const cast = [
     ...r.keys.map((k) => `${q(k)} AS ${q(k)}`),
     `${d(q(r.response))} AS t_y`,
     ...(r.exposure ? [`${d(q(r.exposure))} AS t_e`] : []),
@@ -87,20 +91,21 @@ export function pieces(engine: Engine, r: PushDownRequest, numeric: Map<string, 
     ...(r.weights ? [`NOT ${whole("t_w")}`] : []),
     ...r.keys.filter((k) => numeric.get(k) && !r.factors.includes(k)).map((k) => `NOT ${finite(q(k))}`),
   ].join(" OR ");
-  const zeroExposure = e ? `(${e} = 0)` : "(1 = 0)";
-  const zeroWeight = r.weights ? `(t_w = 0)` : "(1 = 0)";
-  const used = `NOT (${missing}) AND NOT (${faults}) AND NOT ${zeroExposure} AND NOT ${zeroWeight}`;
-  return { inner, x, lnx, w, missing, faults, zeroExposure, zeroWeight, used };
-}
-
-/** 1 when a condition holds, summed. */
-function countWhere(cond: string): string {
-  return `SUM(CASE WHEN ${cond} THEN 1 ELSE 0 END)`;
-}
-
-/** The user's rows as the inner select of every push-down query (count, exposure, offset and weights as doubles). */
-export function innerRows(engine: Engine, s: ReturnType<typeof pieces>): string {
-  return `(SELECT ${s.inner} FROM ${engine.from}) AS tallyfit_t`;
+  const cls =
+    `CASE WHEN ${missing} THEN 1 WHEN ${faults} THEN 2` +
+    (e ? ` WHEN ${e} = 0 THEN 3` : "") +
+    (r.weights ? " WHEN t_w = 0 THEN 4" : "") +
+    " ELSE 0 END";
+  const select = [
+    ...r.keys.map(q),
+    "t_y",
+    `${x} AS t_x`,
+    `${lnx} AS t_lnx`,
+    r.weights ? "t_w" : "1.0 AS t_w",
+    `${cls} AS t_cls`,
+  ].join(", ");
+  const rows = `(SELECT ${select} FROM (SELECT ${cast} FROM ${engine.from}) AS tallyfit_cast) AS tallyfit_t`;
+  return { rows, used: "t_cls = 0" };
 }
 
 export async function pushDown(engine: Engine, r: PushDownRequest): Promise<PushDown> {
@@ -117,55 +122,79 @@ export async function pushDown(engine: Engine, r: PushDownRequest): Promise<Push
   const text = numbers.find((c) => !numeric.get(c) || r.factors.includes(c));
   if (text !== undefined) return { kind: "rows", reason: `'${text}' is not a number column` };
   const s = pieces(engine, r, numeric);
-  const t = innerRows(engine, s);
-  const c = await engine.run(
-    `SELECT COUNT(*) AS n, ${countWhere(s.missing)} AS missing, ` +
-      `${countWhere(`NOT (${s.missing}) AND (${s.faults})`)} AS faults, ` +
-      `${countWhere(`NOT (${s.missing}) AND NOT (${s.faults}) AND ${s.zeroExposure}`)} AS zero_exposure, ` +
-      `${countWhere(`NOT (${s.missing}) AND NOT (${s.faults}) AND NOT ${s.zeroExposure} AND ${s.zeroWeight}`)} AS zero_weight, ` +
-      `${countWhere(`${s.used} AND t_y > 0`)} AS with_events FROM ${t}`,
-  );
-  const [rows, missing, faults, zeroExposure, zeroWeight, withEvents] = c.columns.map((col) => Number(col[0] ?? 0));
-  if (faults > 0) return { kind: "rows", reason: `${faults} rows hold values the design refuses` };
-  const used = rows - missing - zeroExposure - zeroWeight;
-  if (used === 0 || withEvents === 0) return { kind: "rows", reason: "no rows with events are left to fit" };
-  const census: Census = { rows, missing, zeroExposureZeroCount: zeroExposure, zeroWeight, used };
-  const limit = Math.floor(r.maxPatterns(used));
   const P = PATTERN_COLUMNS;
   const q = engine.quote;
   const keyList = r.keys.map(q);
   const exposureName = r.exposure ?? P.exposure;
-  const select =
+  // One scan: the rows grouped by pattern, count and class (class 0: used), with four plain sums per row; then
+  // per pattern the used rows' sums (the count's logs once per pattern and count) and every class's row count,
+  // which make the census. Patterns that hold no used row (a missing key) come back too, for the census.
+  const inner = r.by === "covariates" ? [...keyList, "t_y", "t_cls"] : [...keyList, "t_y", "t_x", "t_cls"];
+  const used = (x: string) => `SUM(CASE WHEN t_cls = 0 THEN ${x} ELSE 0.0 END)`;
+  const classes = [0, 1, 2, 3, 4].map((k) => `SUM(CASE WHEN t_cls = ${k} THEN n ELSE 0 END) AS tallyfit__class${k}`);
+  const events = `SUM(CASE WHEN t_cls = 0 AND t_y > 0 THEN n ELSE 0 END) AS tallyfit__events`;
+  const byClass =
+    `(SELECT ${[...inner, "COUNT(*) AS n", "SUM(t_w) AS sw", "SUM(t_w * t_x) AS sx", "SUM(CASE WHEN t_cls = 0 THEN t_w / t_x ELSE 0.0 END) AS sinv", "SUM(t_w * t_lnx) AS slnx"].join(", ")} ` +
+    `FROM ${s.rows} GROUP BY ${inner.join(", ")}) AS tallyfit_c`;
+  const outer =
     r.by === "covariates"
       ? [
           ...keyList,
-          `SUM(${s.w} * t_y) AS ${q(r.response)}`,
-          `SUM(${s.w} * ${s.x}) AS ${q(exposureName)}`,
-          `COUNT(*) AS ${P.rows}`,
-          `SUM(${s.w}) AS ${P.weight}`,
-          `SUM(CASE WHEN ${s.x} > 0 THEN ${s.w} * t_y * t_y / ${s.x} ELSE 0.0 END) AS ${P.y2e}`,
-          `SUM(CASE WHEN t_y > 0 THEN ${s.w} * t_y * ln(t_y) ELSE 0.0 END) AS ${P.ylny}`,
-          `SUM(${s.w} * t_y * ${s.lnx}) AS ${P.ylne}`,
-          `SUM(${s.w} * ${engine.lnFactorial("t_y")}) AS ${P.lnFactorial}`,
+          `${used("t_y * sw")} AS ${q(r.response)}`,
+          `${used("sx")} AS ${q(exposureName)}`,
+          `${used("sw")} AS ${P.weight}`,
+          `${used("t_y * t_y * sinv")} AS ${P.y2e}`,
+          `SUM(CASE WHEN t_cls = 0 AND t_y > 0 THEN sw * t_y * ln(t_y) ELSE 0.0 END) AS ${P.ylny}`,
+          `${used("t_y * slnx")} AS ${P.ylne}`,
+          `${used(`sw * ${engine.lnFactorial("t_y")}`)} AS ${P.lnFactorial}`,
         ]
-      : [
-          ...keyList,
-          `t_y AS ${q(r.response)}`,
-          `${s.x} AS ${q(exposureName)}`,
-          `SUM(${s.w}) AS ${P.weight}`,
-          `COUNT(*) AS ${P.rows}`,
-        ];
-  const group = r.by === "covariates" ? keyList : [...keyList, "t_y", s.x];
+      : [...keyList, `t_y AS ${q(r.response)}`, `t_x AS ${q(exposureName)}`, `${used("sw")} AS ${P.weight}`];
+  const group = r.by === "covariates" ? keyList : [...keyList, "t_y", "t_x"];
+  // No more groups than there could be patterns worth sending for all the rows (a table's row count is cheap).
+  const all = Number((await engine.run(`SELECT COUNT(*) AS n FROM ${engine.from}`)).columns[0][0]);
+  const cap = Math.floor(r.maxPatterns(all));
   const result = await engine.run(
-    `SELECT ${select.join(", ")} FROM ${t} WHERE ${s.used}` +
+    `SELECT ${[...outer, ...classes, events].join(", ")} FROM ${byClass}` +
       (group.length ? ` GROUP BY ${group.join(", ")}` : "") +
-      ` LIMIT ${limit + 1}`,
+      ` LIMIT ${cap + 1}`,
   );
-  const patterns = result.columns[0]?.length ?? 0;
-  if (patterns > limit) return { kind: "too many patterns", census, numeric };
-  const table = typedTable(engine.source, result.names, result.names, result.numeric, result.columns, {
-    factors: r.factors,
+  const col = (name: string) => result.columns[result.names.indexOf(name)].map((v) => Number(v));
+  const byK = [0, 1, 2, 3, 4].map((k) => col(`tallyfit__class${k}`));
+  const sum = (xs: number[]) => xs.reduce((a, b) => a + b, 0);
+  const complete = result.columns[0].length <= cap;
+  const counts = complete ? byK.map(sum) : await censusOf(engine, s);
+  const withEvents = complete ? sum(col("tallyfit__events")) : counts[5];
+  const [usedRows, missing, faults, zeroExposure, zeroWeight] = counts;
+  if (faults > 0) return { kind: "rows", reason: `${faults} rows hold values the design refuses` };
+  if (usedRows === 0 || withEvents === 0) return { kind: "rows", reason: "no rows with events are left to fit" };
+  const census: Census = {
+    rows: usedRows + missing + faults + zeroExposure + zeroWeight,
+    missing,
+    zeroExposureZeroCount: zeroExposure,
+    zeroWeight,
+    used: usedRows,
+  };
+  // The patterns: groups with used rows, each with its row count.
+  const keep = byK[0].flatMap((n, i) => (n > 0 ? [i] : []));
+  const patterns = keep.length;
+  if (!complete || patterns > Math.floor(r.maxPatterns(usedRows)))
+    return { kind: "too many patterns", census, numeric };
+  const names = [...outer.map((_, j) => result.names[j]), P.rows];
+  const columns = [...outer.map((_, j) => keep.map((i) => result.columns[j][i])), keep.map((i) => byK[0][i])];
+  const numericOut = [...outer.map((_, j) => result.numeric[j]), true];
+  const table = typedTable(engine.source, names, names, numericOut, columns, { factors: r.factors });
+  return { kind: "patterns", table, census, patterns, transferred: result.columns[0].length };
+}
+
+/** The census alone (when the patterns were too many to send): rows per class, and used rows with events. */
+async function censusOf(engine: Engine, s: ReturnType<typeof pieces>): Promise<number[]> {
+  const c = await engine.run(
+    `SELECT t_cls, COUNT(*) AS n, SUM(CASE WHEN t_y > 0 THEN 1 ELSE 0 END) AS events FROM ${s.rows} GROUP BY t_cls`,
+  );
+  const out = [0, 0, 0, 0, 0, 0];
+  c.columns[0].forEach((k, i) => {
+    out[Number(k)] += Number(c.columns[1][i]);
+    if (Number(k) === 0) out[5] = Number(c.columns[2][i]);
   });
-  if (table.nRows === 0) throw new InputError(`${engine.source}: the query returned no rows to fit.`);
-  return { kind: "patterns", table, census, patterns };
+  return out;
 }

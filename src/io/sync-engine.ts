@@ -16,8 +16,9 @@ export interface EngineTarget {
 
 export interface SyncEngine {
   run(sql: string, params?: number[]): EngineRows;
-  /** Queries run so far. */
+  /** Queries run so far, and the rows they returned. */
   queries: number;
+  rows: number;
   close(): void;
 }
 
@@ -41,11 +42,14 @@ export function openSyncEngine(target: EngineTarget): SyncEngine {
   };
   const self: SyncEngine = {
     queries: 0,
+    rows: 0,
     run(sql, params = []) {
       self.queries++;
       const m = call({ sql, params });
       if (typeof m.error === "string") throw new InputError(m.error);
-      return m.rows as EngineRows;
+      const rows = m.rows as EngineRows;
+      self.rows += rows.columns[0]?.length ?? 0;
+      return rows;
     },
     close() {
       call({ close: true });
