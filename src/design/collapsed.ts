@@ -92,7 +92,7 @@ function stated(
   const notices = [...design.notices];
   if (census.missing > 0)
     notices.unshift(
-      `${census.missing} row${census.missing === 1 ? " has" : "s have"} a missing value in a column the model uses and ${census.missing === 1 ? "was" : "were"} left out (counted in the engine)`,
+      `${census.missing} row${census.missing === 1 ? " has" : "s have"} a missing value in a column the model uses (counted in the engine) and ${census.missing === 1 ? "was" : "were"} left out`,
     );
   if (census.zeroExposureZeroCount > 0)
     notices.push(

@@ -10,8 +10,8 @@ import { tmpdir } from "node:os";
 import { join } from "node:path";
 import { gzipSync } from "node:zlib";
 import { DuckDBInstance } from "@duckdb/node-api";
-import { schemaValidator } from "../helpers.js";
 import { assertLocatedFaults, assertSameFits, CLINIC_CSV, SOURCE_MODELS } from "./source-checks.js";
+import { assertRel, runCli, schemaValidator } from "../helpers.js";
 
 const CSV = CLINIC_CSV;
 const dir = mkdtempSync(join(tmpdir(), "tallyfit-sources-"));
@@ -19,7 +19,15 @@ const GZ = join(dir, "visits.csv.gz");
 const PARQUET = join(dir, "visits.parquet");
 const DB = join(dir, "visits.duckdb");
 
-async function prepare(): Promise<void> {
+let prepared: Promise<void> | null = null;
+
+/** The gzip, Parquet and DuckDB copies of the CSV, made once. */
+function prepare(): Promise<void> {
+  prepared ??= makeCopies();
+  return prepared;
+}
+
+async function makeCopies(): Promise<void> {
   writeFileSync(GZ, gzipSync(readFileSync(CSV)));
   const duck = await DuckDBInstance.create(":memory:");
   const c = await duck.connect();
@@ -53,6 +61,33 @@ test("CSV.gz, Parquet and a DuckDB query fit as the CSV does (1e-9): estimates, 
   );
 });
 
+test("check and compare from an engine (count patterns) equal the CSV's: every test statistic, AIC and deviance (1e-9)", async () => {
+  await prepare();
+  const db = ["--db", `duckdb:${DB}`, "--sql", "SELECT * FROM visits"];
+  const model = ["--model", "visits ~ clinic + weekday + staff_on_duty", "--exposure", "open_hours"];
+  const json = (args: string[], code: number) => {
+    const r = runCli([...args, "--format", "json", "--quiet"]);
+    assert.equal(r.code, code, r.stderr);
+    return JSON.parse(r.stdout);
+  };
+  // These counts vary more than a Poisson model allows: the check flags (exit 4) from both sources.
+  const [a, b] = [json(["check", ...db, ...model], 4).check, json(["check", CSV, ...model], 4).check];
+  assert.equal(a.source.aggregation, "count patterns");
+  assert.equal(a.n_used, b.n_used);
+  assert.equal(a.verdict.code, b.verdict.code);
+  a.tests.forEach((t: { name: string; statistic: number | null }, k: number) => {
+    assert.equal(t.name, b.tests[k].name);
+    if (t.statistic !== null) assertRel(t.statistic, b.tests[k].statistic, 1e-9, `check: ${t.name}`);
+  });
+  const two = ["--model", "visits ~ clinic", "--model", "visits ~ clinic + weekday", "--exposure", "open_hours"];
+  const [c, d] = [json(["compare", ...db, ...two], 0), json(["compare", CSV, ...two], 0)];
+  assert.equal(c.source.aggregation, "count patterns");
+  c.models.forEach((m: { aic: number; deviance: number }, k: number) => {
+    assertRel(m.aic, d.models[k].aic, 1e-9, `compare: AIC of model ${k + 1}`);
+    assertRel(m.deviance, d.models[k].deviance, 1e-9, `compare: deviance of model ${k + 1}`);
+  });
+});
+
 test("faults in other sources: located messages, exit 2, never a stack trace or a password", () => {
   const bad = join(dir, "bad.parquet");
   writeFileSync(bad, "not parquet");
@@ -73,6 +108,18 @@ test("faults in other sources: located messages, exit 2, never a stack trace or 
       /--db mysql:\/\/ana:…@127\.0\.0\.1:1\/x: not a database this version reads/,
     ],
     [["fit", CSV, "--db", "duckdb:", "--sql", "SELECT 1", ...model], /give the data once/],
+    // A row the design refuses: the census finds it, the rows are read, and the design names row, column and value.
+    [
+      [
+        "fit",
+        "--db",
+        "duckdb:",
+        "--sql",
+        `SELECT clinic, open_hours, CASE WHEN week = 3 AND clinic = 'harbour' THEN -2 ELSE visits END AS visits FROM read_csv('${CSV}', nullstr = 'NA') ORDER BY date, clinic`,
+        ...model,
+      ],
+      /query, row \d+, column 'visits': the count is -2; counts must be whole numbers ≥ 0/,
+    ],
   ];
   assertLocatedFaults(cases);
 });
