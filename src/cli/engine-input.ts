@@ -35,8 +35,12 @@ export function readThroughEngine(path: string, opts: ModelOptions): boolean {
   return !!opts.db || /\.parquet$/i.test(path);
 }
 
-async function openEngine(path: string, opts: ModelOptions): Promise<{ engine: Engine; sha256?: string }> {
-  if (!opts.db) return openParquet(path);
+async function openEngine(
+  path: string,
+  opts: ModelOptions,
+  digest: boolean,
+): Promise<{ engine: Engine; sha256?: string }> {
+  if (!opts.db) return openParquet(path, { digest });
   if (opts.db.startsWith("duckdb:")) return { engine: await openDuckDb(opts.db, opts.sql!) };
   if (opts.db.startsWith("clickhouse://")) return { engine: await openClickHouse(opts.db, opts.sql!) };
   if (/^postgres(ql)?:\/\//.test(opts.db)) return { engine: await openPostgres(opts.db, opts.sql!) };
@@ -67,8 +71,10 @@ export async function readPatterns(
   opts: ModelOptions,
   model: { response: string; keys: string[]; factors: string[] },
   by: PushDownKey,
+  /** Whether the file's SHA-256 is wanted (a model file records it); otherwise the digest is of the patterns read. */
+  digest: boolean,
 ): Promise<PatternRead | null> {
-  const { engine, sha256 } = await openEngine(path, opts);
+  const { engine, sha256 } = await openEngine(path, opts, digest);
   try {
     const request: PushDownRequest = {
       ...model,

@@ -107,6 +107,8 @@ export async function loadDesigns(
           opts,
           { response: specs[0].response, keys: vars.filter((v) => !responses.has(v)), factors },
           pushDownKey,
+          // Only a model file records the input's digest.
+          !!(opts as { saveModel?: string }).saveModel,
         )
       : null;
   const { table: read, sha256 } = pushed ?? (await readRows(path, opts, { factors, select }, progress));

@@ -3,7 +3,8 @@
 // against a DuckDB database (--db duckdb:[PATH] --sql QUERY; a file opened
 // read-only). Numbers (integers, decimals, floating point) are numeric
 // columns; text, booleans and dates (as YYYY-MM-DD) are factors.
-import { readFile } from "node:fs/promises";
+import { constants, createReadStream } from "node:fs";
+import { access } from "node:fs/promises";
 import { createHash } from "node:crypto";
 import { InputError } from "../errors.js";
 import { type Engine, type EngineRows, firstLine, sqlText, subquery } from "./engine.js";
@@ -98,14 +99,28 @@ function duckEngine(
   return self;
 }
 
-/** A Parquet file as an engine, with the SHA-256 of its bytes. */
-export async function openParquet(path: string): Promise<{ engine: Engine; sha256: string }> {
-  let bytes: Buffer;
+/** The SHA-256 of a file's bytes, read in chunks (a Parquet file may be gigabytes). */
+async function fileDigest(path: string): Promise<string> {
+  const hash = createHash("sha256");
   try {
-    bytes = await readFile(path);
+    for await (const chunk of createReadStream(path, { highWaterMark: 1 << 22 })) hash.update(chunk as Buffer);
   } catch (e) {
     throw unreadable(path, e);
   }
+  return hash.digest("hex");
+}
+
+/** A Parquet file as an engine, with the SHA-256 of its bytes (when asked: reading a large file costs seconds). */
+export async function openParquet(
+  path: string,
+  options: { digest?: boolean } = {},
+): Promise<{ engine: Engine; sha256?: string }> {
+  try {
+    await access(path, constants.R_OK);
+  } catch (e) {
+    throw unreadable(path, e);
+  }
+  const sha256 = options.digest === false ? undefined : await fileDigest(path);
   const c = await connect(":memory:");
   const engine = duckEngine(
     c,
@@ -115,7 +130,7 @@ export async function openParquet(path: string): Promise<{ engine: Engine; sha25
     [path],
     (e) => new InputError(`${path}: not a readable Parquet file (${firstLine(e)}).`),
   );
-  return { engine, sha256: createHash("sha256").update(bytes).digest("hex") };
+  return { engine, sha256 };
 }
 
 /** A DuckDB database (duckdb: in memory, duckdb:PATH a file opened read-only) and a user's query as an engine. */
@@ -144,7 +159,7 @@ export async function loadParquet(
 ): Promise<{ table: Table; sha256: string }> {
   const { engine, sha256 } = await openParquet(path);
   try {
-    return { table: await loadEngineRows(engine, options, `${path}: the Parquet file has no rows.`), sha256 };
+    return { table: await loadEngineRows(engine, options, `${path}: the Parquet file has no rows.`), sha256: sha256! };
   } finally {
     await engine.close();
   }

@@ -70,7 +70,21 @@ export function sumsQuery(
     c.levels.map((l) => `(CASE WHEN ${q(l.factor)} = ${engine.text(l.level)} THEN 1.0 ELSE 0.0 END)`);
   const numbers = (names: string[]) => names.map((n) => engine.double(q(n)));
   const x = (c: SqlColumn) => [...indicator(c), ...numbers(c.numbers)].join(" * ") || "1.0";
-  const eta = ["t_lnx", ...columns.map((c, j) => `${engine.param(j, beta[j])} * ${x(c)}`)].join(" + ");
+  // A factor's main-effect columns enter as one CASE on the factor's value (one comparison chain per row
+  // instead of one product per column); every other column as its product.
+  const main = new Map<string, number[]>();
+  columns.forEach((c, j) => {
+    if (c.levels.length === 1 && c.numbers.length === 0)
+      main.set(c.levels[0].factor, [...(main.get(c.levels[0].factor) ?? []), j]);
+  });
+  const terms = [...main].map(
+    ([factor, js]) =>
+      `(CASE ${q(factor)} ${js.map((j) => `WHEN ${engine.text(columns[j].levels[0].level)} THEN ${engine.param(j, beta[j])}`).join(" ")} ELSE 0.0 END)`,
+  );
+  columns.forEach((c, j) => {
+    if (!(c.levels.length === 1 && c.numbers.length === 0)) terms.push(`${engine.param(j, beta[j])} * ${x(c)}`);
+  });
+  const eta = ["t_lnx", ...terms].join(" + ");
   const keys = factors.map(q);
   const f = features.map((g, a) => `${g.length ? numbers(g).join(" * ") : "1.0"} AS f${a}`);
   const rows =

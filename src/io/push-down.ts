@@ -150,6 +150,21 @@ export async function pushDown(engine: Engine, r: PushDownRequest): Promise<Push
         ]
       : [...keyList, `t_y AS ${q(r.response)}`, `t_x AS ${q(exposureName)}`, `${used("sw")} AS ${P.weight}`];
   const group = r.by === "covariates" ? keyList : [...keyList, "t_y", "t_x"];
+  // A numeric term may make nearly every row its own pattern: count the patterns first (one row comes back),
+  // and when they are too many to send, take the census alone.
+  if (r.by === "covariates" && r.keys.some((k) => numeric.get(k) && !r.factors.includes(k))) {
+    const g = await engine.run(
+      `SELECT COUNT(*) AS patterns, SUM(n) AS used FROM (SELECT ${[...keyList, "COUNT(*) AS n"].join(", ")} ` +
+        `FROM ${s.rows} WHERE ${s.used} GROUP BY ${keyList.join(", ")}) AS tallyfit_g`,
+    );
+    const [patterns, usedRows] = g.columns.map((c) => Number(c[0] ?? 0));
+    if (usedRows > 0 && patterns > Math.floor(r.maxPatterns(usedRows))) {
+      const counts = await censusOf(engine, s);
+      if (counts[2] > 0) return { kind: "rows", reason: `${counts[2]} rows hold values the design refuses` };
+      if (counts[0] === 0 || counts[5] === 0) return { kind: "rows", reason: "no rows with events are left to fit" };
+      return { kind: "too many patterns", census: censusFrom(counts), numeric };
+    }
+  }
   // No more groups than there could be patterns worth sending for all the rows (a table's row count is cheap).
   const all = Number((await engine.run(`SELECT COUNT(*) AS n FROM ${engine.from}`)).columns[0][0]);
   const cap = Math.floor(r.maxPatterns(all));
@@ -167,13 +182,7 @@ export async function pushDown(engine: Engine, r: PushDownRequest): Promise<Push
   const [usedRows, missing, faults, zeroExposure, zeroWeight] = counts;
   if (faults > 0) return { kind: "rows", reason: `${faults} rows hold values the design refuses` };
   if (usedRows === 0 || withEvents === 0) return { kind: "rows", reason: "no rows with events are left to fit" };
-  const census: Census = {
-    rows: usedRows + missing + faults + zeroExposure + zeroWeight,
-    missing,
-    zeroExposureZeroCount: zeroExposure,
-    zeroWeight,
-    used: usedRows,
-  };
+  const census = censusFrom(counts);
   // The patterns: groups with used rows, each with its row count.
   const keep = byK[0].flatMap((n, i) => (n > 0 ? [i] : []));
   const patterns = keep.length;
@@ -184,6 +193,18 @@ export async function pushDown(engine: Engine, r: PushDownRequest): Promise<Push
   const numericOut = [...outer.map((_, j) => result.numeric[j]), true];
   const table = typedTable(engine.source, names, names, numericOut, columns, { factors: r.factors });
   return { kind: "patterns", table, census, patterns, transferred: result.columns[0].length };
+}
+
+/** The census from the rows per class (used, missing, refused, zero exposure, zero weight). */
+function censusFrom(counts: number[]): Census {
+  const [used, missing, faults, zeroExposureZeroCount, zeroWeight] = counts;
+  return {
+    rows: used + missing + faults + zeroExposureZeroCount + zeroWeight,
+    missing,
+    zeroExposureZeroCount,
+    zeroWeight,
+    used,
+  };
 }
 
 /** The census alone (when the patterns were too many to send): rows per class, and used rows with events. */
