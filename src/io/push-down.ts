@@ -179,7 +179,7 @@ export async function pushDown(engine: Engine, r: PushDownRequest): Promise<Push
   const complete = result.columns[0].length <= cap;
   const counts = complete ? byK.map(sum) : await censusOf(engine, s);
   const withEvents = complete ? sum(col("tallyfit__events")) : counts[5];
-  const [usedRows, missing, faults, zeroExposure, zeroWeight] = counts;
+  const [usedRows, , faults] = counts;
   if (faults > 0) return { kind: "rows", reason: `${faults} rows hold values the design refuses` };
   if (usedRows === 0 || withEvents === 0) return { kind: "rows", reason: "no rows with events are left to fit" };
   const census = censusFrom(counts);
