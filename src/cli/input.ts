@@ -203,12 +203,16 @@ function calendarOptionsOf(opts: ModelOptions): CalendarOptions | null {
  * The rows, from wherever they are: a CSV (gzip-compressed or not), a Parquet
  * file (by its .parquet name), or a query against a database (--db, --sql).
  */
-async function readRows(
+export async function readRows(
   path: string,
-  opts: ModelOptions,
-  columns: { factors: string[]; select: string[] },
+  opts: Pick<ModelOptions, "db" | "sql" | "delimiter" | "decimalComma" | "na">,
+  columns: { factors: string[]; select?: string[] },
   progress?: (bytes: number, rows: number) => void,
 ): Promise<{ table: Table; sha256: string }> {
+  if (!!opts.db !== !!opts.sql)
+    throw new InputError(
+      opts.db ? "--db needs --sql QUERY: the query whose rows are the data." : "--sql needs --db URL.",
+    );
   if (opts.db) {
     if (opts.db.startsWith("duckdb:")) return loadDuckDbQuery(opts.db, opts.sql!, columns);
     if (/^postgres(ql)?:\/\//.test(opts.db)) return loadPostgresQuery(opts.db, opts.sql!, columns);

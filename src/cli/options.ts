@@ -157,7 +157,12 @@ export function addClusterOption(cmd: Command, help: string): Command {
 
 /** The model, family and design options of fit, check and compare, and where the rows come from. */
 export function addModelOptions(cmd: Command, multiModel = false): Command {
-  return addModelSpecOptions(cmd, multiModel)
+  return addSourceOptions(addModelSpecOptions(cmd, multiModel));
+}
+
+/** --db and --sql: rows from a database instead of a file. */
+export function addSourceOptions(cmd: Command): Command {
+  return cmd
     .option(
       "--db <url>",
       "read the rows from a database instead of a file: duckdb: (in memory), duckdb:PATH, postgres://user@host:port/db or clickhouse://host:port/db",

@@ -14,6 +14,7 @@ import {
   addPlotOption,
   addOutputOptions,
   addReadOptions,
+  addSourceOptions,
   addTerminalOptions,
 } from "./options.js";
 
@@ -133,8 +134,10 @@ export function buildProgram(onResult: (code: number) => void): Command {
     .option("--summary-by <col>", "observed and expected totals by group (text and JSON output)")
     .option("--per <n>", "units of exposure for the crude rates of --summary-by", "1");
   addTerminalOptions(
-    addReadOptions(
-      addOutputOptions(predict, "csv, json, text, markdown or html (one self-contained page)", "csv", "the results"),
+    addSourceOptions(
+      addReadOptions(
+        addOutputOptions(predict, "csv, json, text, markdown or html (one self-contained page)", "csv", "the results"),
+      ),
     ),
   ).action(async (file: string | undefined, opts: PredictCliOptions) => onResult(await runPredict(file, opts)));
   withExamples(predict, EXAMPLES.predict);

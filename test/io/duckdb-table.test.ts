@@ -88,6 +88,32 @@ test("check and compare from an engine (count patterns) equal the CSV's: every t
   });
 });
 
+test("predict reads new rows from Parquet and from a DuckDB query as from the CSV: the same rows, means, limits, tails and flags", async () => {
+  await prepare();
+  const model = join(dir, "model.json");
+  const fit = runCli([
+    "fit",
+    CSV,
+    "--model",
+    "visits ~ clinic + weekday",
+    "--exposure",
+    "open_hours",
+    "--save-model",
+    model,
+    "--quiet",
+  ]);
+  assert.equal(fit.code, 0, fit.stderr);
+  const rowsOf = (source: string[]) => {
+    const r = runCli(["predict", "--model-file", model, ...source, "--format", "json", "--quiet"]);
+    assert.ok(r.code === 0 || r.code === 4, r.stderr);
+    return JSON.parse(r.stdout).rows;
+  };
+  const ref = rowsOf([CSV]);
+  assert.ok(ref.length > 1000);
+  assert.deepEqual(rowsOf([PARQUET]), ref, "Parquet");
+  assert.deepEqual(rowsOf(["--db", `duckdb:${DB}`, "--sql", "SELECT * FROM visits"]), ref, "a DuckDB query");
+});
+
 test("faults in other sources: located messages, exit 2, never a stack trace or a password", () => {
   const bad = join(dir, "bad.parquet");
   writeFileSync(bad, "not parquet");

@@ -6,7 +6,8 @@ import { parseTable } from "../../io/csv.js";
 import { loadModelFile } from "../../io/model-file.js";
 import { readSource } from "../../io/source-bytes.js";
 import { ADJUSTMENTS } from "../../infer/multiplicity.js";
-import { columnLabels } from "../../io/table.js";
+import { columnLabels, type Table } from "../../io/table.js";
+import { readRows } from "../input.js";
 import { renderJson } from "../../report/json.js";
 import { renderPredictCsv, renderPredictText } from "../../report/predict.js";
 import { predictPage } from "../../report/pages.js";
@@ -28,6 +29,8 @@ import { notice } from "../terminal.js";
 export const PREDICT_MAX_DRAWS = 100_000;
 
 export interface PredictCliOptions extends IoOptions {
+  db?: string;
+  sql?: string;
   modelFile: string;
   level: string;
   flagLevel: string;
@@ -72,20 +75,14 @@ export async function runPredict(file: string | undefined, opts: PredictCliOptio
   if (opts.output) outputs.claim(opts.output, "--output");
   const saved = await loadModelFile(opts.modelFile);
   const path = file ?? "-";
-  if (path === "-" && process.stdin.isTTY)
+  if (path === "-" && process.stdin.isTTY && !opts.db)
     throw new InputError("no input: give a CSV file of new rows, or pipe one in.");
-  const { bytes, name } = await readSource(path);
+  if (opts.db && file) throw new InputError(`give the new rows once: a FILE (${file}) or --db with --sql, not both.`);
   // The zero part of an excess-zero family may use factors of its own.
   const factors = [...saved.factors, ...(saved.zero_part?.factors ?? [])].map((f) => f.name);
-  const table = parseTable(bytes, {
-    source: name,
-    delimiter: opts.delimiter,
-    decimalComma: opts.decimalComma,
-    na: parseNa(opts.na),
-    factors,
-    // One reader feeds both the predictions and the input fields the CSV output repeats.
-    keepRecords: opts.format === "csv",
-  });
+  const table =
+    opts.db || /\.parquet$/i.test(path) ? await engineRows(path, opts, factors) : await csvRows(path, opts, factors);
+  const name = table.source;
   if (opts.summaryBy && saved.zero_part)
     throw new InputError(
       `--summary-by does not go with the ${saved.family} model yet: its observed/expected limits assume a Poisson or NB2 count. Use --flag-by ${opts.summaryBy}, which gives each group's total with an interval from the ${saved.family} distribution.`,
@@ -165,4 +162,37 @@ export async function runPredict(file: string | undefined, opts: PredictCliOptio
           ? result.n_flagged > 0 || groupsFlagged > 0
           : false;
   return tripped ? EXIT.flagged : EXIT.ok;
+}
+
+/** New rows from a CSV (gzip or not): one reader feeds the predictions and the input fields the CSV output repeats. */
+async function csvRows(path: string, opts: PredictCliOptions, factors: string[]): Promise<Table> {
+  const { bytes, name } = await readSource(path);
+  return parseTable(bytes, {
+    source: name,
+    delimiter: opts.delimiter,
+    decimalComma: opts.decimalComma,
+    na: parseNa(opts.na),
+    factors,
+    keepRecords: opts.format === "csv",
+  });
+}
+
+/** New rows from a Parquet file or a query (every column), their fields as text for the CSV output. */
+async function engineRows(path: string, opts: PredictCliOptions, factors: string[]): Promise<Table> {
+  const { table } = await readRows(path, opts, { factors });
+  if (opts.format === "csv") {
+    const labels = table.header.map((h) =>
+      table.columns.has(h)
+        ? columnLabels(
+            table,
+            h,
+            Int32Array.from({ length: table.nRows }, (_, i) => i),
+          )
+        : [],
+    );
+    table.records = Array.from({ length: table.nRows }, (_, i) =>
+      labels.map((l) => (l[i] === undefined || l[i] === "(missing)" ? "" : l[i])),
+    );
+  }
+  return table;
 }
