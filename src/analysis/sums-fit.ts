@@ -151,7 +151,7 @@ export function analyzeInEngine(
       design,
       (beta) => {
         const q = sumsQuery(sums.engine, sums.pieces, columns, beta);
-        return readSums(engine.run(q.sql, q.params), columns);
+        return readSums(engine.run(q.sql, q.params), columns, sums.constants);
       },
       o,
     );

@@ -143,11 +143,14 @@ async function sumsSource(
     });
   }
   const m = await engine.run(
-    `SELECT SUM(t_w) AS observations${numericKeys.map((k, j) => `, SUM(t_w * ${engine.double(q(k))}) AS m${j}`).join("")} FROM ${t} WHERE ${s.used}`,
+    `SELECT SUM(t_w) AS observations, SUM(t_w * t_y) AS y, ` +
+      `SUM(CASE WHEN t_y > 0 THEN t_w * t_y * ln(t_y) ELSE 0.0 END) AS ylny, SUM(t_w * ${engine.lnFactorial("t_y")}) AS lnfact` +
+      `${numericKeys.map((k, j) => `, SUM(t_w * ${engine.double(q(k))}) AS m${j}`).join("")} FROM ${t} WHERE ${s.used}`,
   );
   transferred += 1;
   const observations = Number(m.columns[0][0]);
-  const means = new Map(numericKeys.map((k, j) => [k, Number(m.columns[j + 1][0]) / observations]));
+  const [total, ylny, lnFactorial] = [1, 2, 3].map((j) => Number(m.columns[j][0]));
+  const means = new Map(numericKeys.map((k, j) => [k, Number(m.columns[j + 4][0]) / observations]));
   const table = skeletonTable(engine.source, request.response, levels, means, DESIGN_LIMITS.columns);
   table.origin = {
     engine: engine.engine,
@@ -159,7 +162,7 @@ async function sumsSource(
     table,
     census,
     by: "per-iteration",
-    sums: { engine, target, pieces: s, observations, means },
+    sums: { engine, target, pieces: s, observations, means, constants: { y: total, ylny, lnFactorial } },
     exposureColumn: "",
     weightsColumn: undefined,
     sha256:

@@ -18,6 +18,14 @@ export interface SumsSource {
   pieces: ReturnType<typeof pieces>;
   observations: number;
   means: Map<string, number>;
+  /** Sums free of the coefficients, taken once: Σ w·y, Σ w·y·ln y and Σ w·ln y!. */
+  constants: SumsConstants;
+}
+
+export interface SumsConstants {
+  y: number;
+  ylny: number;
+  lnFactorial: number;
 }
 
 /** One design column: the product of its factor levels' indicators and its numeric columns (none: the intercept). */
@@ -96,17 +104,15 @@ export function sumsQuery(
     sums.push(`SUM(t_w * (t_y - t_mu) * f${a}) AS r${a}`);
     for (let b = 0; b <= a; b++) sums.push(`SUM(t_w * t_mu * f${a} * f${b}) AS m${a}_${b}`);
   }
-  sums.push(
-    `SUM(2.0 * t_w * ((CASE WHEN t_y > 0 THEN t_y * (ln(t_y) - t_eta) ELSE 0.0 END) - t_y + t_mu)) AS deviance`,
-    `SUM(t_w * (t_y - t_mu) * (t_y - t_mu) / t_mu) AS pearson`,
-    `SUM(t_w * (t_y * t_eta - t_mu - ${engine.lnFactorial("t_y")})) AS loglik`,
-  );
+  // With A = Σ w·y·eta and M = Σ w·mu (the rest taken once, see SumsConstants): deviance
+  // 2(Σ w·y ln y − A − Σ w·y + M), log-likelihood A − M − Σ w·ln y!, Pearson Σ w·y²/mu − 2Σ w·y + M.
+  sums.push("SUM(t_w * t_y * t_eta) AS a", "SUM(t_w * t_mu) AS m", "SUM(t_w * t_y * t_y / t_mu) AS y2mu");
   const group = keys.length ? ` GROUP BY ${keys.join(", ")}` : "";
   return { sql: `SELECT ${sums.join(", ")} FROM ${withMu}${group}`, params: Array.from(beta) };
 }
 
 /** The score, information and figures from the cells' moments. */
-export function readSums(r: EngineRows, columns: SqlColumn[]): PoissonSums {
+export function readSums(r: EngineRows, columns: SqlColumn[], constants: SumsConstants): PoissonSums {
   const p = columns.length;
   const { factors, features, featureOf } = sumsLayout(columns);
   const col = (name: string) => r.columns[r.names.indexOf(name)] ?? [];
@@ -118,12 +124,12 @@ export function readSums(r: EngineRows, columns: SqlColumn[]): PoissonSums {
   const information = new Float64Array(p * p);
   const cells = r.columns[0]?.length ?? 0;
   const on = new Uint8Array(p);
-  let deviance = 0,
-    pearson = 0,
-    logLik = 0;
-  const dev = num("deviance"),
-    pe = num("pearson"),
-    ll = num("loglik");
+  let a = 0,
+    m = 0,
+    y2mu = 0;
+  const aAt = num("a"),
+    mAt0 = num("m"),
+    y2At = num("y2mu");
   for (let i = 0; i < cells; i++) {
     columns.forEach((c, j) => {
       on[j] = c.levels.every((l) => String(keyCols[factors.indexOf(l.factor)][i]) === l.level) ? 1 : 0;
@@ -133,10 +139,14 @@ export function readSums(r: EngineRows, columns: SqlColumn[]): PoissonSums {
       score[j] += rAt[featureOf[j]][i];
       for (let k = 0; k <= j; k++) if (on[k]) information[j * p + k] += mAt[featureOf[j]][featureOf[k]][i];
     }
-    deviance += dev[i];
-    pearson += pe[i];
-    logLik += ll[i];
+    a += aAt[i];
+    m += mAt0[i];
+    y2mu += y2At[i];
   }
+  const { y, ylny, lnFactorial } = constants;
+  const deviance = 2 * (ylny - a - y + m);
+  const pearson = y2mu - 2 * y + m;
+  const logLik = a - m - lnFactorial;
   for (let j = 0; j < p; j++) for (let k = 0; k < j; k++) information[k * p + j] = information[j * p + k];
   return { score, information, deviance, pearson, logLik };
 }
