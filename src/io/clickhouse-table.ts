@@ -100,6 +100,9 @@ export async function openClickHouse(url: string, sql: string): Promise<Engine> 
     quote: quoteClickHouseIdentifier,
     // ClickHouse string literals take backslash escapes as well as doubled quotes.
     text: (v) => `'${v.replace(/\\/g, "\\\\").replace(/'/g, "\\'")}'`,
+    // transform() maps a value through two constant arrays, faster than a CASE chain in ClickHouse.
+    lookup: (column, levels, values) =>
+      `transform(${column}, [${levels.map((l) => self.text(l)).join(", ")}], [${values.join(", ")}], toFloat64(0))`,
     param: (_k, value) => {
       if (!Number.isFinite(value)) throw new Error(`a non-finite number (${value}) cannot be sent to ClickHouse`);
       return `toFloat64(${String(value)})`;

@@ -7,7 +7,7 @@ import { constants, createReadStream } from "node:fs";
 import { access } from "node:fs/promises";
 import { createHash } from "node:crypto";
 import { InputError } from "../errors.js";
-import { type Engine, type EngineRows, firstLine, sqlText, subquery } from "./engine.js";
+import { caseLookup, type Engine, type EngineRows, firstLine, sqlText, subquery } from "./engine.js";
 import { loadEngineRows } from "./engine-rows.js";
 import { unreadable } from "./source-bytes.js";
 import type { Table } from "./table.js";
@@ -77,6 +77,7 @@ function duckEngine(
     from,
     quote: quoteIdentifier,
     text: sqlText,
+    lookup: caseLookup({ text: sqlText }),
     param: (k) => `$${k + 1 + fromParams.length}`,
     double: (x) => `CAST(${x} AS DOUBLE)`,
     lnFactorial: (x) => `LGAMMA(${x} + 1.0)`,

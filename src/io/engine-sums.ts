@@ -85,9 +85,12 @@ export function sumsQuery(
     if (c.levels.length === 1 && c.numbers.length === 0)
       main.set(c.levels[0].factor, [...(main.get(c.levels[0].factor) ?? []), j]);
   });
-  const terms = [...main].map(
-    ([factor, js]) =>
-      `(CASE ${q(factor)} ${js.map((j) => `WHEN ${engine.text(columns[j].levels[0].level)} THEN ${engine.param(j, beta[j])}`).join(" ")} ELSE 0.0 END)`,
+  const terms = [...main].map(([factor, js]) =>
+    engine.lookup(
+      q(factor),
+      js.map((j) => columns[j].levels[0].level),
+      js.map((j) => engine.param(j, beta[j])),
+    ),
   );
   columns.forEach((c, j) => {
     if (!(c.levels.length === 1 && c.numbers.length === 0)) terms.push(`${engine.param(j, beta[j])} * ${x(c)}`);

@@ -28,6 +28,8 @@ export interface Engine {
    * the driver, or, for an engine without bound parameters, its literal.
    */
   param(k: number, value: number): string;
+  /** A number per value of a column (0 for any other value): levels are quoted literals, values SQL numbers. */
+  lookup(column: string, levels: string[], values: string[]): string;
   /** An expression as a double-precision number. */
   double(expr: string): string;
   /** ln(x!) of a whole number x ≥ 0. */
@@ -56,6 +58,12 @@ export function lnFactorialSql(x: string): string {
     `((${z} - 0.5) * ln(${z}) - ${z} + 0.91893853320467274178 + 1.0 / (12.0 * ${z})` +
     ` - 1.0 / (360.0 * ${z} * ${z} * ${z}) + 1.0 / (1260.0 * pow(${z}, 5)) - 1.0 / (1680.0 * pow(${z}, 7)))`;
   return `${table} ELSE ${stirling} END`;
+}
+
+/** lookup() as a simple CASE: the column is read once per row. */
+export function caseLookup(engine: Pick<Engine, "text">): Engine["lookup"] {
+  return (column, levels, values) =>
+    `(CASE ${column} ${levels.map((l, k) => `WHEN ${engine.text(l)} THEN ${values[k]}`).join(" ")} ELSE 0.0 END)`;
 }
 
 /** A standard SQL string literal: single quotes, inner quotes doubled. */

@@ -5,7 +5,7 @@
 // Dates arrive as their text (YYYY-MM-DD), so --date reads them as in a CSV.
 // A password in the URL is never shown in a message.
 import { InputError } from "../errors.js";
-import { type Engine, type EngineRows, lnFactorialSql, sqlText, subquery } from "./engine.js";
+import { caseLookup, type Engine, type EngineRows, lnFactorialSql, sqlText, subquery } from "./engine.js";
 import { loadEngineRows } from "./engine-rows.js";
 import type { Table } from "./table.js";
 import { rowsDigest } from "./typed-columns.js";
@@ -45,6 +45,7 @@ export async function openPostgres(url: string, sql: string): Promise<Engine> {
     from: `${subquery(sql)} AS tallyfit_rows`,
     quote: quotePgIdentifier,
     text: sqlText,
+    lookup: caseLookup({ text: sqlText }),
     param: (k) => `$${k + 1}::double precision`,
     double: (x) => `CAST(${x} AS DOUBLE PRECISION)`,
     lnFactorial: lnFactorialSql,
