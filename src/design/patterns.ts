@@ -11,6 +11,7 @@
 //    offset and the count are merged, each pattern a frequency-weighted row
 //    (weight = Σ w). That is exact for every statistic.
 // Keys are hashed (FNV-1a over their 32-bit words) into an open-addressing table.
+import { denseGrouping } from "./dense-patterns.js";
 import type { Design, Slot } from "./design.js";
 
 export type PatternKey = "covariates" | "covariates, offset and count";
@@ -30,13 +31,16 @@ export interface PatternMerge {
  * into one integer in mixed radix (exact below 2^53), then each distinct
  * numeric array (values, and for the NB also the offset and the count).
  */
-function rowKeys(design: Design, by: PatternKey): { factorKey: Float64Array | null; numeric: Float64Array[] } | null {
+function rowKeys(
+  design: Design,
+  by: PatternKey,
+): { factorKey: Float64Array | null; radix: number; numeric: Float64Array[] } | null {
   const n = design.n;
   const factorSlots = design.matrix.slots.filter((s) => s.cols !== null);
   let factorKey: Float64Array | null = null;
+  let radix = 1;
   if (factorSlots.length > 0) {
     factorKey = new Float64Array(n);
-    let radix = 1;
     for (const s of factorSlots) {
       const cols = s.cols!,
         start = s.colStart;
@@ -48,7 +52,7 @@ function rowKeys(design: Design, by: PatternKey): { factorKey: Float64Array | nu
       if (radix > 2 ** 53) return null;
     }
   }
-  return { factorKey, numeric: numericKeys(design, by) };
+  return { factorKey, radix, numeric: numericKeys(design, by) };
 }
 
 /** The numeric arrays of a row's key, each once: slot values, and for the NB also the offset and the count. */
@@ -124,10 +128,27 @@ const ROUND_BYTES = 64 << 20;
  * small open-addressing table that stays in cache. Patterns are numbered in
  * the order of their first row, which is their representative.
  */
-export function mergePatterns(design: Design, by: PatternKey, maxPatterns = design.n): PatternMerge | null {
+export function mergePatterns(
+  design: Design,
+  by: PatternKey,
+  maxPatterns = design.n,
+  /** "hash" skips the array lookup of few-valued keys (the tests compare both ways). */
+  grouping: "auto" | "hash" = "auto",
+): PatternMerge | null {
   const n = design.n;
   const keys = rowKeys(design, by);
   if (keys === null) return null;
+  // Few key values: one array lookup per row (dense-patterns.ts).
+  const dense = grouping === "auto" ? denseGrouping(n, keys.factorKey, keys.radix, keys.numeric, maxPatterns) : null;
+  if (dense === "too many") return null;
+  if (dense !== null)
+    return {
+      by,
+      design: patternDesign(design, by, dense.pattern, dense.reps),
+      pattern: dense.pattern,
+      rows: n,
+      patterns: dense.count,
+    };
   const cols = keys.factorKey ? [keys.factorKey, ...keys.numeric] : keys.numeric;
   const K = cols.length;
 

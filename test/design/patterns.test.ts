@@ -132,6 +132,14 @@ test("mergePatterns finds the same groups as a plain string key, and keeps the t
     assert.equal(nb.design.offset[p], d.offset[i]);
   }
   assert.equal(mergePatterns(d, "covariates", pm.patterns - 1), null, "gives up past the limit");
+  // Few-valued keys are grouped by an array lookup, the rest by hashing: both number the same patterns alike.
+  for (const by of ["covariates", "covariates, offset and count"] as const) {
+    const hashed = mergePatterns(d, by, d.n, "hash")!;
+    const auto = mergePatterns(d, by)!;
+    assert.deepEqual(auto.pattern, hashed.pattern, `${by}: the same pattern of every row`);
+    assert.deepEqual(auto.design.y, hashed.design.y, `${by}: the same counts`);
+    assert.equal(mergePatterns(d, by, hashed.patterns - 1, "hash"), null, `${by}: hashing gives up past the limit`);
+  }
 });
 
 test("Poisson over merged patterns equals the fit over the rows (exposure, offset, weights, interaction)", () => {
