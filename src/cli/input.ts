@@ -95,6 +95,8 @@ export async function loadDesigns(
   const name = path === "-" ? "<stdin>" : path;
   const progress = opts.quiet || !process.stderr.isTTY ? undefined : readingProgress();
   const responses = new Set(specs.map((s) => s.response));
+  // Only a model file records the input's digest (reading it costs a pass over the bytes, on one thread).
+  const wantDigest = !!(opts as { saveModel?: string }).saveModel;
   const pushed =
     pushDownKey &&
     !calendar &&
@@ -107,11 +109,10 @@ export async function loadDesigns(
           opts,
           { response: specs[0].response, keys: vars.filter((v) => !responses.has(v)), factors },
           pushDownKey,
-          // Only a model file records the input's digest.
-          !!(opts as { saveModel?: string }).saveModel,
+          wantDigest,
         )
       : null;
-  const { table: read, sha256 } = pushed ?? (await readRows(path, opts, { factors, select }, progress));
+  const { table: read, sha256 } = pushed ?? (await readRows(path, opts, { factors, select }, progress, wantDigest));
   if (progress) clearProgressLine();
   for (const f of factors)
     if (!read.header.includes(f))
@@ -208,6 +209,8 @@ export async function readRows(
   opts: Pick<ModelOptions, "db" | "sql" | "delimiter" | "decimalComma" | "na">,
   columns: { factors: string[]; select?: string[] },
   progress?: (bytes: number, rows: number) => void,
+  /** Whether the input's SHA-256 is wanted (only a model file records it). */
+  digest = true,
 ): Promise<{ table: Table; sha256: string }> {
   if (!!opts.db !== !!opts.sql)
     throw new InputError(
@@ -222,7 +225,7 @@ export async function readRows(
   if (/\.parquet$/i.test(path)) return loadParquet(path, columns);
   return loadTableStream(
     path,
-    { delimiter: opts.delimiter, decimalComma: opts.decimalComma, na: parseNa(opts.na), ...columns },
+    { delimiter: opts.delimiter, decimalComma: opts.decimalComma, na: parseNa(opts.na), digest, ...columns },
     progress,
   );
 }

@@ -83,7 +83,10 @@ export function makeReader(options: LoadOptions): ColumnReader {
 /** Read a file or standard input in chunks into typed columns; `progress` is told the bytes and rows so far. */
 export async function loadTableStream(
   path: string,
-  options: Omit<LoadOptions, "source">,
+  options: Omit<LoadOptions, "source"> & {
+    /** The SHA-256 of the bytes is wanted (a model file records it); without it the digest is "" and costs nothing. */
+    digest?: boolean;
+  },
   progress?: (bytes: number, rows: number) => void,
 ): Promise<{ table: Table; sha256: string }> {
   const name = path === "-" ? "<stdin>" : path;
@@ -92,8 +95,9 @@ export async function loadTableStream(
   let any = false,
     nonBlank = false,
     gzip = false;
+  const digest = options.digest !== false;
   const consume = (chunk: Uint8Array) => {
-    hash.update(chunk);
+    if (digest) hash.update(chunk);
     if (!nonBlank && !isBlank(chunk) && !(chunk.length <= 3 && chunk[0] === 0xef)) nonBlank = true;
     any = true;
     reader.feed(chunk);
@@ -131,7 +135,7 @@ export async function loadTableStream(
     throw new InputError(`${name}: the file is empty; expected a header row and at least one data row.`);
   const table = reader.finish();
   if (gzip) table.origin = { engine: "csv.gz", queries: 0, rows_transferred: table.nRows };
-  return { table, sha256: hash.digest("hex") };
+  return { table, sha256: digest ? hash.digest("hex") : "" };
 }
 
 /** Whether a file starts with the gzip magic bytes 1f 8b (whatever its name). */
