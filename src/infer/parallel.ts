@@ -54,10 +54,14 @@ export function takeJobs(
 
 /**
  * Below this much work (rows × IRLS passes, about 24 per profile limit pair
- * and 4 per term test) starting a thread (some 60–100 ms here) costs more
- * than it saves.
+ * and 4 per term test, three times as many with NB2's alpha re-estimated)
+ * a second thread costs more than it saves: starting it, copying the design
+ * and its code still cold take some 200–300 ms. Measured (bench data, five
+ * term tests): the Poisson over 420,000 patterns (8.4M) took 2.75 s with the
+ * worker and 2.58 s without (medians of 6 alternating runs); NB2 on 1M rows
+ * (60M) 4.51 s with it and 4.73 s without.
  */
-export const PARALLEL_MIN_WORK = 5e6;
+export const PARALLEL_MIN_WORK = 1e7;
 /** Above this many rows, copying the design to a worker would cost too much memory. */
 export const PARALLEL_MAX_ROWS = 4000000;
 
@@ -66,7 +70,8 @@ export function wantWorker(plan: InferencePlan, env: NodeJS.ProcessEnv = process
   const ctx = plan.profiles ?? plan.terms;
   if (!ctx || plan.jobs.length < 2 || env.TALLYFIT_WORKERS === "0") return false;
   const n = ctx.design.n;
-  const passes = plan.jobs.reduce((a, j) => a + (j.kind === "profile" ? 24 : 4), 0);
+  const negbin = ctx.base.family === "negbin" && !!ctx.base.negbin && !ctx.base.negbin.boundary;
+  const passes = plan.jobs.reduce((a, j) => a + (j.kind === "profile" ? 24 : 4) * (negbin ? 3 : 1), 0);
   return (
     (n * passes >= PARALLEL_MIN_WORK || env.TALLYFIT_WORKERS === "1") &&
     n <= PARALLEL_MAX_ROWS &&
