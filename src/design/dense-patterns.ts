@@ -18,21 +18,49 @@ export type DenseGrouping =
   /** The keys have too many values for an array: hash instead. */
   | null;
 
-/** Distinct values of a column coded 0, 1, … in order of appearance, or null past MAX_DISTINCT. */
+/**
+ * Distinct values of a column coded 0, 1, … in order of appearance, or null
+ * past MAX_DISTINCT: an open-addressing table over the values' bits (murmur3's
+ * finaliser on the two 32-bit words), with −0 read as 0 and every NaN as one
+ * value, as a Map would have them.
+ */
 function codeValues(values: Float64Array, n: number): { codes: Int32Array; distinct: number } | null {
+  const size = 4 * MAX_DISTINCT;
+  const slotCode = new Int32Array(size).fill(-1);
+  const slotLo = new Int32Array(size),
+    slotHi = new Int32Array(size);
   const codes = new Int32Array(n);
-  const seen = new Map<number, number>();
+  const bits = new Float64Array(1),
+    words = new Int32Array(bits.buffer);
+  let distinct = 0;
   for (let i = 0; i < n; i++) {
     const v = values[i];
-    let c = seen.get(v);
-    if (c === undefined) {
-      c = seen.size;
-      if (c >= MAX_DISTINCT) return null;
-      seen.set(v, c);
+    bits[0] = v === 0 ? 0 : Number.isNaN(v) ? Number.NaN : v;
+    const lo = words[0],
+      hi = words[1];
+    let h = Math.imul(lo ^ Math.imul(hi, 0x9e3779b1), 0x85ebca6b);
+    h ^= h >>> 13;
+    h = Math.imul(h, 0xc2b2ae35);
+    h ^= h >>> 16;
+    let slot = h & (size - 1);
+    for (;;) {
+      const c = slotCode[slot];
+      if (c < 0) {
+        if (distinct >= MAX_DISTINCT) return null;
+        slotCode[slot] = distinct;
+        slotLo[slot] = lo;
+        slotHi[slot] = hi;
+        codes[i] = distinct++;
+        break;
+      }
+      if (slotLo[slot] === lo && slotHi[slot] === hi) {
+        codes[i] = c;
+        break;
+      }
+      slot = (slot + 1) & (size - 1);
     }
-    codes[i] = c;
   }
-  return { codes, distinct: seen.size };
+  return { codes, distinct };
 }
 
 /**
