@@ -151,7 +151,9 @@ async function sumsSource(
   const observations = Number(m.columns[0][0]);
   const [total, ylny, lnFactorial] = [1, 2, 3].map((j) => Number(m.columns[j][0]));
   const means = new Map(numericKeys.map((k, j) => [k, Number(m.columns[j + 4][0]) / observations]));
-  const table = skeletonTable(engine.source, request.response, levels, means, DESIGN_LIMITS.columns);
+  const table = skeletonTable(engine.source, request.response, levels, means, DESIGN_LIMITS.columns, [
+    ...numeric.keys(),
+  ]);
   table.origin = {
     engine: engine.engine,
     queries: engine.queries,

@@ -19,6 +19,8 @@ export function skeletonTable(
   factors: LevelEvents[],
   means: Map<string, number>,
   columns: number,
+  /** Every column name of the source (the table holds only the model's). */
+  header: string[],
 ): Table {
   const base: { factor: number; level: number; event: boolean }[] = [];
   factors.forEach((f, j) => f.levels.forEach((l, k) => base.push({ factor: j, level: k, event: l.events > 0 })));
@@ -50,5 +52,5 @@ export function skeletonTable(
   for (let i = 0; i < n; i++) y[i] = base[i % base.length].event ? 1 : 0;
   map.set(response, { kind: "numeric", name: response, values: y });
   for (const [name, m] of means) map.set(name, { kind: "numeric", name, values: new Float64Array(n).fill(m) });
-  return { source, header: [...map.keys()], nRows: n, columns: map, delimiter: "," };
+  return { source, header, nRows: n, columns: map, delimiter: "," };
 }

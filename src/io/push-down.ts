@@ -191,7 +191,8 @@ export async function pushDown(engine: Engine, r: PushDownRequest): Promise<Push
   const names = [...outer.map((_, j) => result.names[j]), P.rows];
   const columns = [...outer.map((_, j) => keep.map((i) => result.columns[j][i])), keep.map((i) => byK[0][i])];
   const numericOut = [...outer.map((_, j) => result.numeric[j]), true];
-  const table = typedTable(engine.source, names, names, numericOut, columns, { factors: r.factors });
+  // The header names every column of the source, as a CSV's does (the table holds the patterns' columns).
+  const table = typedTable(engine.source, described.names, names, numericOut, columns, { factors: r.factors });
   return { kind: "patterns", table, census, patterns, transferred: result.columns[0].length };
 }
 
