@@ -9,10 +9,10 @@
 //  - "count" (the negative binomial, the check, compare, plots): the count and
 //    the exposure join the key, each pattern a frequency-weighted row, exact
 //    for every statistic.
-// A census query first counts the rows the design would leave out or refuse;
-// any refused row (a negative or fractional count, a bad exposure, offset or
-// weight, a non-finite number) sends the caller back to reading the rows,
-// where the design names the row, column and value.
+// The same query counts each pattern's rows by class (the census: used, left
+// out, refused); any refused row (a negative or fractional count, a bad
+// exposure, offset or weight, a non-finite number) sends the caller back to
+// reading the rows, where the design names the row, column and value.
 import type { Engine } from "./engine.js";
 import type { Table } from "./table.js";
 import { typedTable } from "./typed-columns.js";
