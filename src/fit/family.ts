@@ -34,6 +34,46 @@ export function logDensity(y: number, mu: number, alpha: number): number {
   return lg - lgamma(y + 1) - r * Math.log1p(alpha * mu) + y * (Math.log(alpha * mu) - Math.log1p(alpha * mu));
 }
 
+/**
+ * logDensity at one alpha for many rows, with its count-only terms (log y!,
+ * and for the NB2 log Γ(y + r) − log Γ(r)) computed once per whole count
+ * below 65,536: the same expression in the same order, so the same value.
+ */
+export function logDensityAt(alpha: number): (y: number, mu: number) => number {
+  const CACHE = 65536;
+  const r = alpha === 0 ? 0 : 1 / alpha;
+  // Per whole count y below CACHE: log y! and log Γ(y + r) − log Γ(r), filled on first use.
+  const lgy = new Float64Array(CACHE),
+    ratio = new Float64Array(CACHE);
+  const filled = new Uint8Array(CACHE);
+  const fill = (y: number) => {
+    lgy[y] = lgamma(y + 1);
+    if (alpha > 0) ratio[y] = lgammaRatio(y, r);
+    filled[y] = 1;
+  };
+  const small = (y: number) => y >= 0 && y < CACHE && Number.isInteger(y);
+  const logFactorial = (y: number) => {
+    if (!small(y)) return lgamma(y + 1);
+    if (!filled[y]) fill(y);
+    return lgy[y];
+  };
+  const lgRatio = (y: number) => {
+    if (!small(y)) return lgammaRatio(y, r);
+    if (!filled[y]) fill(y);
+    return ratio[y];
+  };
+  if (alpha === 0)
+    return (y, mu) => {
+      if (mu === 0) return y === 0 ? 0 : -Infinity;
+      return y * Math.log(mu) - mu - logFactorial(y);
+    };
+  return (y, mu) => {
+    if (mu === 0) return y === 0 ? 0 : -Infinity;
+    const lg = lgRatio(y);
+    return lg - logFactorial(y) - r * Math.log1p(alpha * mu) + y * (Math.log(alpha * mu) - Math.log1p(alpha * mu));
+  };
+}
+
 /** log Γ(y + r) − log Γ(r): a direct sum for small whole y, or when r is so large that the lgamma difference would cancel. */
 export function lgammaRatio(y: number, r: number): number {
   if (y === 0) return 0;

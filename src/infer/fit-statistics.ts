@@ -2,7 +2,7 @@
 // log-likelihood, information criteria, residual degrees of freedom, the
 // quasi-Poisson dispersion and the boundary test of alpha = 0.
 import type { Design } from "../design/design.js";
-import { logDensity, variance } from "../fit/family.js";
+import { logDensityAt, variance } from "../fit/family.js";
 import type { GlmFit } from "../fit/kernel/types.js";
 import { chiSquareUpperTail } from "../math/distributions.js";
 
@@ -12,6 +12,7 @@ import { chiSquareUpperTail } from "../math/distributions.js";
  */
 export function fitStatistics(design: Design, fit: GlmFit, negbin = fit.alpha > 0) {
   const { y, weights } = design;
+  const density = logDensityAt(fit.alpha);
   let pearson = 0,
     ll = 0,
     nEff = 0;
@@ -20,7 +21,7 @@ export function fitStatistics(design: Design, fit: GlmFit, negbin = fit.alpha > 
     nEff += w;
     const mu = fit.mu[i];
     if (mu > 0) pearson += (w * (y[i] - mu) ** 2) / variance(mu, fit.alpha);
-    ll += w * logDensity(y[i], mu, fit.alpha);
+    ll += w * density(y[i], mu);
   }
   const c = design.collapsed;
   if (c?.y2e) {
