@@ -6,16 +6,10 @@ import type { Design } from "../design/design.js";
 import { DEFAULT_CONTROL, type FitSetup, type GlmFit } from "../fit/kernel/types.js";
 import type { CountFit } from "../fit/count-fit.js";
 import { fitBySums, type SumsAtBeta, type SumsFit } from "../fit/sums-fit.js";
-import {
-  chiSquareQuantile,
-  chiSquareUpperTail,
-  fUpperTail,
-  normalQuantile,
-  studentQuantile,
-} from "../math/distributions.js";
 import { profileLimits, type ProfileResult } from "../infer/profile.js";
 import { summarizeFit } from "../infer/summary.js";
-import { termPlan, type TermTest } from "../infer/terms.js";
+import { devianceTest, termPlan, type TermTest } from "../infer/terms.js";
+import { profileQuantiles } from "../infer/intervals.js";
 import type { AnalysisOptions, FitAnalysis } from "./fit.js";
 import { readSums, type SqlColumn, type SumsSource, sumsQuery } from "../io/engine-sums.js";
 import { openSyncEngine } from "../io/sync-engine.js";
@@ -94,9 +88,7 @@ export function analyzeBySums(
 
   let profiles: Map<number, ProfileResult> | undefined;
   if (o.intervals !== "wald") {
-    const tq = quasi ? studentQuantile(1 - (1 - o.level) / 2, df) : NaN;
-    const crit = quasi ? tq * tq : chiSquareQuantile(o.level, 1);
-    const zq = quasi ? tq : normalQuantile(1 - (1 - o.level) / 2);
+    const { crit, zq } = profileQuantiles(quasi, df, o.level);
     profiles = new Map();
     for (let c = 0; c < p; c++) {
       const se = Math.sqrt(full.covariance.data[c * p + c] * phi);
@@ -116,16 +108,9 @@ export function analyzeBySums(
       const test = quasi ? "F" : "LR chi-square";
       if ("note" in step) return { term, df: 0, statistic: null, p_value: null, test, note: step.note };
       const k = step.cols.length;
-      const dd = Math.max(0, devianceHeld(new Map(step.cols.map((c) => [c, 0]))) - full.at.deviance);
-      const statistic = quasi ? dd / k / phi : dd;
-      return {
-        term,
-        df: k,
-        statistic,
-        p_value: quasi ? fUpperTail(statistic, k, df) : chiSquareUpperTail(statistic, k),
-        test,
-        note: null,
-      };
+      const rise = devianceHeld(new Map(step.cols.map((c) => [c, 0]))) - full.at.deviance;
+      const { stat, p } = devianceTest(rise, k, quasi ? phi : null, df);
+      return { term, df: k, statistic: stat, p_value: p, test, note: null };
     });
   return { countFit: mf, summary, check: null };
 }

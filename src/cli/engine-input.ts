@@ -3,11 +3,7 @@
 // the rows (io/push-down.ts). Null when the rows must be read after all: the
 // census found rows the design refuses (the design then names them), or there
 // are too many patterns.
-import { openClickHouse } from "../io/clickhouse-table.js";
-import { openDuckDb, openParquet } from "../io/duckdb-table.js";
 import type { Engine } from "../io/engine.js";
-import { openPostgres, shownUrl } from "../io/postgres-table.js";
-import { InputError } from "../errors.js";
 import { createHash } from "node:crypto";
 import { DESIGN_LIMITS } from "../design/design.js";
 import { type LevelEvents, skeletonTable } from "../design/skeleton.js";
@@ -19,8 +15,8 @@ import {
   type PushDownRequest,
   pushDown,
 } from "../io/push-down.js";
-import type { EngineTarget } from "../io/sync-engine.js";
 import type { SumsSource } from "../io/engine-sums.js";
+import { type EngineTarget, openEngine } from "../io/open-engine.js";
 import type { Table } from "../io/table.js";
 import { rowsDigest } from "../io/typed-columns.js";
 import type { ModelOptions } from "./options.js";
@@ -33,25 +29,6 @@ const MAX_PATTERNS = 2_000_000;
 /** Whether the input is read through an engine (a Parquet file or --db). */
 export function readThroughEngine(path: string, opts: ModelOptions): boolean {
   return !!opts.db || /\.parquet$/i.test(path);
-}
-
-async function openEngine(
-  path: string,
-  opts: ModelOptions,
-  digest: boolean,
-): Promise<{ engine: Engine; sha256?: string }> {
-  if (!opts.db) return openParquet(path, { digest });
-  if (opts.db.startsWith("duckdb:")) return { engine: await openDuckDb(opts.db, opts.sql!) };
-  if (opts.db.startsWith("clickhouse://")) return { engine: await openClickHouse(opts.db, opts.sql!) };
-  if (/^postgres(ql)?:\/\//.test(opts.db)) return { engine: await openPostgres(opts.db, opts.sql!) };
-  throw unknownDatabase(opts.db);
-}
-
-/** The message for a --db URL of an engine this version does not read. */
-export function unknownDatabase(url: string): InputError {
-  return new InputError(
-    `--db ${shownUrl(url)}: not a database this version reads; give duckdb:[PATH], postgres://user@host:port/db or clickhouse://host:port/db (or export the rows to CSV or Parquet).`,
-  );
 }
 
 export interface PatternRead {
@@ -74,7 +51,7 @@ export async function readPatterns(
   /** Whether the file's SHA-256 is wanted (a model file records it); otherwise the digest is of the patterns read. */
   digest: boolean,
 ): Promise<PatternRead | null> {
-  const { engine, sha256 } = await openEngine(path, opts, digest);
+  const { engine, sha256 } = await openEngine(opts.db ? { db: opts.db, sql: opts.sql } : { parquet: path }, digest);
   try {
     const request: PushDownRequest = {
       ...model,
@@ -89,7 +66,7 @@ export async function readPatterns(
     };
     const r = await pushDown(engine, request);
     if (r.kind === "too many patterns" && by === "covariates") {
-      const target = opts.db ? { db: opts.db, sql: opts.sql } : { parquet: path };
+      const target: EngineTarget = opts.db ? { db: opts.db, sql: opts.sql } : { parquet: path };
       return await sumsSource(engine, request, r.census, r.numeric, target, sha256);
     }
     if (r.kind !== "patterns") return null;

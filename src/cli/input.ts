@@ -10,7 +10,8 @@ import { loadClickHouseQuery } from "../io/clickhouse-table.js";
 import { columnLabels, type Table } from "../io/table.js";
 import type { PushDownKey } from "../io/push-down.js";
 import { collapsedDesign } from "../design/collapsed.js";
-import { readPatterns, readThroughEngine, unknownDatabase } from "./engine-input.js";
+import { readPatterns, readThroughEngine } from "./engine-input.js";
+import { unknownDatabase } from "../io/open-engine.js";
 import type { SumsSource } from "../io/engine-sums.js";
 import {
   type Calendar,

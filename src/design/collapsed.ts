@@ -12,7 +12,7 @@ import { lgamma } from "../math/distributions.js";
 import type { Census, PushDownKey } from "../io/push-down.js";
 import { PATTERN_COLUMNS } from "../io/push-down.js";
 import type { Table } from "../io/table.js";
-import type { Design } from "./design.js";
+import { type Design, leftOutNotices } from "./design.js";
 
 function columnAt(table: Table, name: string, rows: Int32Array): Float64Array {
   const c = table.columns.get(name);
@@ -94,12 +94,7 @@ function stated(
     notices.unshift(
       `${census.missing} row${census.missing === 1 ? " has" : "s have"} a missing value in a column the model uses (counted in the engine) and ${census.missing === 1 ? "was" : "were"} left out`,
     );
-  if (census.zeroExposureZeroCount > 0)
-    notices.push(
-      `${census.zeroExposureZeroCount} row${census.zeroExposureZeroCount === 1 ? " has" : "s have"} zero exposure and a zero count; ${census.zeroExposureZeroCount === 1 ? "it carries" : "they carry"} no information and ${census.zeroExposureZeroCount === 1 ? "was" : "were"} left out`,
-    );
-  if (census.zeroWeight > 0)
-    notices.push(`${census.zeroWeight} row${census.zeroWeight === 1 ? " has" : "s have"} weight 0 and were left out`);
+  notices.push(...leftOutNotices(census.zeroExposureZeroCount, census.zeroWeight));
   return {
     ...design,
     nRows: census.rows,

@@ -134,6 +134,19 @@ function alsoRows(rows: number[]): string {
 /** The largest design (the information matrix is p × p and dense), and the largest count or weight (2^53 ≈ 9e15 holds whole numbers exactly). */
 export const DESIGN_LIMITS = { columns: 2_000, count: 1e15 } as const;
 
+/** The notices for rows left out with zero exposure and a zero count, or with weight 0 (none for a count of 0). */
+export function leftOutNotices(zeroExposureZeroCount: number, zeroWeight: number): string[] {
+  const out: string[] = [];
+  const z = zeroExposureZeroCount,
+    w = zeroWeight;
+  if (z > 0)
+    out.push(
+      `${z} row${z === 1 ? " has" : "s have"} zero exposure and a zero count; ${z === 1 ? "it carries" : "they carry"} no information and ${z === 1 ? "was" : "were"} left out`,
+    );
+  if (w > 0) out.push(`${w} row${w === 1 ? " has" : "s have"} weight 0 and ${w === 1 ? "was" : "were"} left out`);
+  return out;
+}
+
 /** Build the design matrix for a model on a table. */
 export function buildDesign(table: Table, model: Formula, options: DesignOptions = {}): Design {
   const get = (name: string, role: string): Column => lookupColumn(table, name, role);
@@ -263,14 +276,7 @@ export function buildDesign(table: Table, model: Formula, options: DesignOptions
     notices.push(
       `${missing} row${missing === 1 ? " has" : "s have"} a missing value in a column the model uses (${[...new Set(missingCols)].join(", ")}; rows ${firstRows(missingRows.map(fileRow))}${missing > 3 ? ", …" : ""}) and ${missing === 1 ? "was" : "were"} left out`,
     );
-  if (zeroExp > 0)
-    notices.push(
-      `${zeroExp} row${zeroExp === 1 ? " has" : "s have"} zero exposure and a zero count; ${zeroExp === 1 ? "it carries" : "they carry"} no information and ${zeroExp === 1 ? "was" : "were"} left out`,
-    );
-  if (zeroW > 0)
-    notices.push(
-      `${zeroW} row${zeroW === 1 ? " has" : "s have"} weight 0 and ${zeroW === 1 ? "was" : "were"} left out`,
-    );
+  notices.push(...leftOutNotices(zeroExp, zeroW));
   if (n === 0) {
     throw new InputError(
       `${table.source}: no rows are left to fit (${N} read; ${missing} with missing values, ${zeroExp} with zero exposure and zero count, ${zeroW} with weight 0).`,

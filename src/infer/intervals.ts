@@ -26,13 +26,23 @@ export interface ProfileContext {
  * referred to F(1, df) (= t² on df); otherwise the likelihood ratio against
  * chi-square(1).
  */
+/**
+ * The profile's critical value and the Wald quantile of its first step: t² on
+ * df and t for the quasi-Poisson (with residual df), chi-square(1) and z otherwise.
+ */
+export function profileQuantiles(quasi: boolean, df: number, level: number): { crit: number; zq: number } {
+  if (quasi && df > 0) {
+    const tq = studentQuantile(1 - (1 - level) / 2, df);
+    return { crit: tq * tq, zq: tq };
+  }
+  return { crit: chiSquareQuantile(level, 1), zq: normalQuantile(1 - (1 - level) / 2) };
+}
+
 export function profileContext(design: Design, mf: CountFit, level: number): ProfileContext {
   const quasi = mf.family === "quasipoisson";
   const phi = quasi ? quasiPhi(design, mf.fit) : 1;
   const df = residualDf(design, mf.fit);
-  const tq = quasi && df > 0 ? studentQuantile(1 - (1 - level) / 2, df) : NaN;
-  const crit = quasi && df > 0 ? tq * tq : chiSquareQuantile(level, 1);
-  const zq = quasi && df > 0 ? tq : normalQuantile(1 - (1 - level) / 2);
+  const { crit, zq } = profileQuantiles(quasi, df, level);
   const q = mf.fit.covariance.p;
   const se = new Float64Array(mf.fit.status.length).fill(NaN);
   mf.fit.estimable.forEach((c, k) => (se[c] = Math.sqrt(mf.fit.covariance.data[k * q + k] * phi)));

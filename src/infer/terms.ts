@@ -74,6 +74,20 @@ export function termPlan(design: Design, mf: CountFit): TermTestContext["plan"] 
 }
 
 /** The test for dropping term ti. Centring stays valid while the intercept is free, which term tests never change. */
+/**
+ * A term's test from the deviance rise when its k columns are dropped: the
+ * likelihood ratio against chi-square(k), or for the quasi-Poisson (phi
+ * given) the rise / k / phi against F(k, df).
+ */
+export function devianceTest(rise: number, k: number, phi: number | null, df: number): { stat: number; p: number } {
+  const dd = Math.max(0, rise);
+  if (phi !== null) {
+    const stat = dd / k / phi;
+    return { stat, p: fUpperTail(stat, k, df) };
+  }
+  return { stat: dd, p: chiSquareUpperTail(dd, k) };
+}
+
 export function termTestOf(ctx: TermTestContext, ti: number, workspace?: Workspace): TermTest {
   const { design: fd, base: fm, quasi } = ctx;
   const label = ctx.labels[ti];
@@ -112,14 +126,7 @@ export function termTestOf(ctx: TermTestContext, ti: number, workspace?: Workspa
       setup,
       workspace,
     });
-    const dd = Math.max(0, r.deviance - fm.fit.deviance);
-    if (quasi) {
-      stat = dd / cols.length / ctx.phi;
-      p = fUpperTail(stat, cols.length, ctx.df);
-    } else {
-      stat = dd;
-      p = chiSquareUpperTail(stat, cols.length);
-    }
+    ({ stat, p } = devianceTest(r.deviance - fm.fit.deviance, cols.length, quasi ? ctx.phi : null, ctx.df));
   }
   return { term: label, df: cols.length, statistic: stat, p_value: p, test, note: null };
 }

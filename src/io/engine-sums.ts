@@ -9,7 +9,7 @@
 // literals) and numeric columns (quoted names).
 import type { Engine, EngineRows } from "./engine.js";
 import type { pieces } from "./push-down.js";
-import type { EngineTarget } from "./sync-engine.js";
+import type { EngineTarget } from "./open-engine.js";
 
 /** What the per-iteration sums need: the engine (closed; its SQL dialect), the worker's target and the rows' SQL pieces. */
 export interface SumsSource {

@@ -6,13 +6,7 @@
 import { MessageChannel, receiveMessageOnPort, Worker } from "node:worker_threads";
 import { InputError } from "../errors.js";
 import type { EngineRows } from "./engine.js";
-
-/** What the worker opens: a Parquet file, or a database URL and the user's query. */
-export interface EngineTarget {
-  parquet?: string;
-  db?: string;
-  sql?: string;
-}
+import type { EngineTarget } from "./open-engine.js";
 
 export interface SyncEngine {
   run(sql: string, params?: number[]): EngineRows;
