@@ -40,3 +40,50 @@ export function guessDelimiter(headerLine: string, given: string): string | null
 export function showDelimiter(d: string): string {
   return d === "\t" ? "tab" : `'${d}'`;
 }
+
+const POW10 = Array.from({ length: 23 }, (_, k) => 10 ** k);
+
+/** A field's text as a number with the file's decimal mark (0x2e or 0x2c; a decimal-comma file's '.' is not a decimal point). */
+export function decimalText(str: string, mark: number): number {
+  if (mark === 0x2e) return parseDecimal(str);
+  return str.includes(".") ? NaN : parseDecimal(str.replace(",", "."));
+}
+
+/**
+ * A field's bytes b[s, e) as a finite decimal, or NaN. Plain digits with an
+ * optional fraction are parsed here, exactly (digits/10^k is correctly rounded
+ * while both fit in 2^53); exponents, long mantissas and anything unusual take
+ * the general path of decimalText.
+ */
+export function decimalBytes(b: Uint8Array, s: number, e: number, mark: number): number {
+  if (s >= e) return NaN;
+  let p = s,
+    neg = false;
+  if (b[p] === 0x2d || b[p] === 0x2b) {
+    neg = b[p] === 0x2d;
+    p++;
+  }
+  let m = 0,
+    digits = 0,
+    frac = 0,
+    seenDot = false,
+    any = false;
+  for (; p < e; p++) {
+    const c = b[p];
+    if (c >= 0x30 && c <= 0x39) {
+      any = true;
+      if (m === 0 && c === 0x30 && !seenDot) continue;
+      m = m * 10 + (c - 0x30);
+      digits++;
+      if (seenDot) frac++;
+    } else if (c === mark && !seenDot) seenDot = true;
+    else break;
+  }
+  if (p === e && any && digits <= 15 && frac <= 22) {
+    const v = frac ? m / POW10[frac] : m;
+    return neg ? -v : v;
+  }
+  let str = "";
+  for (let k = s; k < e; k++) str += String.fromCharCode(b[k]);
+  return decimalText(str, mark);
+}

@@ -8,12 +8,11 @@ import { InputError } from "../errors.js";
 import { checkHeader, type Column, type Table } from "./table.js";
 import { firstInvalidUtf8 } from "./source-bytes.js";
 import { checkTextKind, READER_LIMITS } from "./text-kind.js";
-import { guessDelimiter, parseDecimal, showDelimiter } from "./dialect.js";
+import { decimalBytes, decimalText, guessDelimiter, showDelimiter } from "./dialect.js";
 
 const QUOTE = 0x22,
   LF = 0x0a,
   CR = 0x0d;
-const POW10 = Array.from({ length: 23 }, (_, k) => 10 ** k);
 
 interface Builder {
   name: string;
@@ -320,7 +319,9 @@ export class ColumnReader {
           bd.values[i] = NaN;
           continue;
         }
-        const v = fq[j] ? this.decimalText(this.text(b, s, e, true).trim()) : this.number(b, s, e);
+        const v = fq[j]
+          ? decimalText(this.text(b, s, e, true).trim(), this.o.decimal ?? 0x2e)
+          : decimalBytes(b, s, e, this.o.decimal ?? 0x2e);
         if (!Number.isNaN(v)) {
           bd.values[i] = v;
           continue;
@@ -357,51 +358,6 @@ export class ColumnReader {
       if (k === len) return true;
     }
     return false;
-  }
-
-  /** A finite decimal from bytes, or NaN. Plain digits with an optional fraction are parsed exactly here. */
-  private number(b: Uint8Array, s: number, e: number): number {
-    if (s >= e) return NaN;
-    let p = s,
-      neg = false;
-    if (b[p] === 0x2d || b[p] === 0x2b) {
-      neg = b[p] === 0x2d;
-      p++;
-    }
-    let m = 0,
-      digits = 0,
-      frac = 0,
-      seenDot = false,
-      any = false;
-    for (; p < e; p++) {
-      const c = b[p];
-      if (c >= 0x30 && c <= 0x39) {
-        any = true;
-        if (m === 0 && c === 0x30 && !seenDot) continue;
-        m = m * 10 + (c - 0x30);
-        digits++;
-        if (seenDot) frac++;
-      } else if (c === this.decimalMark && !seenDot) seenDot = true;
-      else break;
-    }
-    if (p === e && any && digits <= 15 && frac <= 22) {
-      const v = frac ? m / POW10[frac] : m;
-      return neg ? -v : v;
-    }
-    // Exponents, long mantissas and anything unusual: the general (exact) path.
-    let str = "";
-    for (let k = s; k < e; k++) str += String.fromCharCode(b[k]);
-    return this.decimalText(str);
-  }
-
-  private get decimalMark(): number {
-    return this.o.decimal ?? 0x2e;
-  }
-
-  /** A field's text as a number with the file's decimal mark (a decimal-comma file's '.' is not a decimal point). */
-  private decimalText(str: string): number {
-    if (this.decimalMark === 0x2e) return parseDecimal(str);
-    return str.includes(".") ? NaN : parseDecimal(str.replace(",", "."));
   }
 
   private codeOfBytes(bd: Builder, b: Uint8Array, s: number, e: number): number {
@@ -451,6 +407,47 @@ export class ColumnReader {
       const v = bd.values[i];
       bd.codes[i] = Number.isNaN(v) ? -1 : this.codeOfString(bd, String(v));
     }
+  }
+
+  /** The options this reader was made with (a second reader of the same input needs them). */
+  get streamOptions(): StreamOptions {
+    return this.o;
+  }
+
+  /**
+   * Append the rows another reader read from the rest of the same input, with
+   * the same header (split-read.ts). Level codes are remapped so that levels
+   * stay in order of first appearance over the whole input. Returns false,
+   * changing nothing, when a column is numeric in one part and a factor in the
+   * other, or when this reader holds an unfinished record.
+   */
+  appendPart(part: Table): boolean {
+    if (this.header === null || this.carry?.length) return false;
+    for (const bd of this.builders) {
+      const c = part.columns.get(bd.name);
+      if (bd.keep && (!c || (c.kind === "numeric") !== bd.numeric)) return false;
+    }
+    const n0 = this.nRows,
+      m = part.nRows;
+    for (const bd of this.builders) {
+      if (!bd.keep) continue;
+      const c = part.columns.get(bd.name)!;
+      if (c.kind === "numeric") {
+        bd.values = grow(bd.values, n0 + m);
+        bd.values.set(c.values.subarray(0, m), n0);
+        continue;
+      }
+      const code = Int32Array.from(c.levels, (level) => this.codeOfString(bd, level));
+      bd.codes = grow(bd.codes, n0 + m);
+      const from = c.codes,
+        to = bd.codes;
+      for (let i = 0; i < m; i++) {
+        const k = from[i];
+        to[n0 + i] = k < 0 ? -1 : code[k];
+      }
+    }
+    this.nRows = n0 + m;
+    return true;
   }
 
   finish(): Table {

@@ -1,0 +1,45 @@
+// Worker thread of split-read.ts: reads the second half of a CSV file (the
+// header line first, so the columns are the same) and sends its columns back,
+// their buffers transferred, not copied. Any fault is reported as a refusal:
+// the main thread then reads that half itself, so messages keep their lines.
+import { open } from "node:fs/promises";
+import { parentPort, workerData } from "node:worker_threads";
+import type { Table } from "./table.js";
+import { ColumnReader, type StreamOptions } from "./tokenizer.js";
+
+const { path, header, start, end, options } = workerData as {
+  path: string;
+  header: Uint8Array;
+  start: number;
+  end: number;
+  options: StreamOptions;
+};
+
+async function readPart(): Promise<Table> {
+  const reader = new ColumnReader(options);
+  reader.expectedBytes = header.length + end - start;
+  reader.feed(header);
+  const fh = await open(path, "r");
+  try {
+    const buf = Buffer.allocUnsafe(1 << 22);
+    for (let at = start; at < end; ) {
+      const { bytesRead } = await fh.read(buf, 0, Math.min(buf.length, end - at), at);
+      if (bytesRead === 0) break;
+      at += bytesRead;
+      reader.feed(buf.subarray(0, bytesRead));
+    }
+  } finally {
+    await fh.close();
+  }
+  return reader.finish();
+}
+
+readPart().then(
+  (table) => {
+    const buffers = new Set<ArrayBuffer>();
+    for (const c of table.columns.values())
+      buffers.add((c.kind === "numeric" ? c.values : c.codes).buffer as ArrayBuffer);
+    parentPort!.postMessage({ table }, [...buffers]);
+  },
+  () => parentPort!.postMessage({ table: null }),
+);
