@@ -4,6 +4,7 @@
 // exposure (a zero exposure with a zero count carries no information).
 import { InputError } from "../errors.js";
 import { fileRow } from "../io/table.js";
+import { rowArray } from "../math/shared-arrays.js";
 
 /** The rule an exposure breaks in a row with this count (NaN: no count known), or null. */
 export function exposureRule(exposure: number, count: number): string | null {
@@ -37,7 +38,7 @@ export function logOffset(
   exposure: Float64Array | null,
   offset: Float64Array | null,
 ): Float64Array {
-  const out = new Float64Array(n);
+  const out = rowArray(Float64Array, n);
   if (exposure) for (let k = 0; k < n; k++) out[k] = Math.log(exposure[rowIndex ? rowIndex[k] : k]);
   if (offset) for (let k = 0; k < n; k++) out[k] += offset[rowIndex ? rowIndex[k] : k];
   return out;

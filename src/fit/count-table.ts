@@ -2,6 +2,7 @@
 // response (and alpha) so that a pass over the rows looks them up instead of
 // calling a logarithm or log-gamma per row: every deviance, log-likelihood and
 // alpha derivative over whole counts reads them from one CountTable.
+import { rowArray } from "../math/shared-arrays.js";
 import { harmonicTables, negbinCountTerms } from "./family.js";
 
 const maxCounts = new WeakMap<Float64Array, number>();
@@ -34,11 +35,18 @@ export function maxCount(y: Float64Array): number {
   return t;
 }
 
+/** The counts as 32-bit integers, row-length (shared memory for many rows: see rowArray). */
+function countsOf(y: Float64Array): Int32Array {
+  const c = rowArray(Int32Array, y.length);
+  for (let i = 0; i < y.length; i++) c[i] = y[i];
+  return c;
+}
+
 /** The counts as 32-bit integers for table lookups, remembered per array (null: not tabulable, see maxCount). */
 export function countIndex(y: Float64Array): Int32Array | null {
   let c = countCodes.get(y);
   if (c === undefined) {
-    c = maxCount(y) <= TABLE_LIMIT ? Int32Array.from(y) : null;
+    c = maxCount(y) <= TABLE_LIMIT ? countsOf(y) : null;
     countCodes.set(y, c);
   }
   return c;

@@ -6,6 +6,7 @@
 import { availableParallelism } from "node:os";
 import { Worker } from "node:worker_threads";
 import { FitError, InputError } from "../errors.js";
+import { withoutPassHelper } from "../fit/kernel/pass-team.js";
 import type { Workspace } from "../fit/kernel/types.js";
 import { profileOf, type ProfileContext } from "./intervals.js";
 import { shareLargeArrays } from "./shared-plan.js";
@@ -124,7 +125,10 @@ export async function runJobs(
     }
   }
   try {
-    if (!(workerOnly && reply)) takeJobs(plan, counter, out, onJob);
+    // With a job worker on the second core, this thread's refits keep their passes to themselves.
+    if (!(workerOnly && reply))
+      if (reply) await withoutPassHelper(async () => takeJobs(plan, counter, out, onJob));
+      else takeJobs(plan, counter, out, onJob);
   } catch (e) {
     // This thread's failure decides; do not wait for the worker's jobs.
     if (worker) void worker.terminate();

@@ -5,6 +5,7 @@
 // a hash of their bytes. csv-parse remains the reference implementation in the
 // tests (test/io-tokenizer.test.ts compares the two on awkward files).
 import { InputError } from "../errors.js";
+import { rowArray } from "../math/shared-arrays.js";
 import { checkHeader, type Column, type Table } from "./table.js";
 import { firstInvalidUtf8 } from "./source-bytes.js";
 import { checkTextKind, READER_LIMITS } from "./text-kind.js";
@@ -51,7 +52,7 @@ function copyBytes(b: Uint8Array): Uint8Array {
 function grow<T extends Float64Array | Int32Array>(a: T, need: number, estimate = 0): T {
   if (need <= a.length) return a;
   const size = estimate >= need ? estimate : Math.max(need, a.length * 2);
-  const next = new (a.constructor as { new (n: number): T })(size);
+  const next = rowArray(a.constructor as Parameters<typeof rowArray<T>>[0], size);
   next.set(a);
   return next;
 }

@@ -19,6 +19,15 @@ export interface WorkingInputs {
   withResponse: boolean;
 }
 
+/** The per-cell sums X'WX and X'Wz are assembled from: Σw, Σw·v, Σw·v·v' and Σw·z, Σw·v·z over the numeric slots. */
+export interface CellSums {
+  s0: Float64Array;
+  s1: Float64Array;
+  s2: Float64Array;
+  z0: Float64Array;
+  z1: Float64Array;
+}
+
 /** X'WX and X'Wz from the cell sums (see CellLayout); w and z given as arrays or as their WorkingInputs (w null: every weight 1). */
 export function crossProductsCells(
   slotVals: (ScaledValues | null)[],
@@ -28,6 +37,18 @@ export function crossProductsCells(
   w: Float64Array | WorkingInputs | null,
   z: Float64Array | null,
 ): { a: SymMatrix; b: Float64Array } {
+  return assembleCellSums(slotVals, L, q, cellSums(slotVals, L, 0, n, w, z));
+}
+
+/** The cell sums over rows [from, to) (see crossProductsCells). */
+export function cellSums(
+  slotVals: (ScaledValues | null)[],
+  L: CellLayout,
+  from: number,
+  to: number,
+  w: Float64Array | WorkingInputs | null,
+  z: Float64Array | null,
+): CellSums {
   const M = L.numeric.length;
   const MM = (M * (M + 1)) / 2;
   const C = L.nCells;
@@ -45,7 +66,7 @@ export function crossProductsCells(
   const wArr = w instanceof Float64Array ? w : null;
   const alpha = work ? work.alpha : 0,
     pw = work ? work.pw : null;
-  for (let i = 0; i < n; i++) {
+  for (let i = from; i < to; i++) {
     const c = cell[i];
     if (c < 0) continue;
     let wi: number, zi: number;
@@ -71,6 +92,29 @@ export function crossProductsCells(
       for (let r = 0; r <= m; r++) s2[t++] += wv * vi[r];
     }
   }
+  return { s0, s1, s2, z0, z1 };
+}
+
+/** Add the sums of a later row range to those of an earlier one (in place, always in this order). */
+export function addCellSums(into: CellSums, later: CellSums): void {
+  for (const k of ["s0", "s1", "s2", "z0", "z1"] as const) {
+    const a = into[k],
+      b = later[k];
+    for (let j = 0; j < a.length; j++) a[j] += b[j];
+  }
+}
+
+/** X'WX and X'Wz from the cell sums. */
+export function assembleCellSums(
+  slotVals: (ScaledValues | null)[],
+  L: CellLayout,
+  q: number,
+  sums: CellSums,
+): { a: SymMatrix; b: Float64Array } {
+  const { s0, s1, s2, z0, z1 } = sums;
+  const M = L.numeric.length;
+  const MM = (M * (M + 1)) / 2;
+  const C = L.nCells;
   const k = slotVals.length;
   const a = new Float64Array(q * q);
   const b = new Float64Array(q);

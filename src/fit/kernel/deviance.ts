@@ -2,9 +2,10 @@
 // when the counts are whole (McCullagh and Nelder 1989, §2.3).
 import { CountTable } from "../count-table.js";
 import { unitDeviance } from "../family.js";
+import type { PassTables } from "./passes.js";
 
 /**
- * Total deviance Σ w·d(y, mu), using log mu = eta: Poisson 2[y log y − y·eta − (y − mu)],
+ * Total deviance Σ w·d(y, mu) over rows [from, to), using log mu = eta: Poisson 2[y log y − y·eta − (y − mu)],
  * NB2 2[y log y − y·eta − (y + r){log(1 + alpha·y) − log(1 + alpha·mu)}].
  */
 export function totalDeviance(
@@ -14,14 +15,16 @@ export function totalDeviance(
   pw: Float64Array | null,
   inFit: Uint8Array,
   alpha: number,
-  tab: CountTable | null,
+  tab: PassTables | null,
+  from = 0,
+  to = y.length,
 ): number {
   let d = 0;
   if (tab) {
     const yl = tab.ylogy,
       cnt = tab.counts;
     if (alpha === 0) {
-      for (let i = 0; i < cnt.length; i++) {
+      for (let i = from; i < to; i++) {
         if (!inFit[i]) continue;
         const k = cnt[i],
           m = mu[i];
@@ -31,7 +34,7 @@ export function totalDeviance(
     } else {
       const nb = tab.negbinDeviance,
         r = 1 / alpha;
-      for (let i = 0; i < cnt.length; i++) {
+      for (let i = from; i < to; i++) {
         if (!inFit[i]) continue;
         const k = cnt[i],
           m = mu[i];
@@ -41,7 +44,7 @@ export function totalDeviance(
     }
     return 2 * d;
   }
-  for (let i = 0; i < y.length; i++) if (inFit[i]) d += (pw ? pw[i] : 1) * unitDeviance(y[i], mu[i], alpha);
+  for (let i = from; i < to; i++) if (inFit[i]) d += (pw ? pw[i] : 1) * unitDeviance(y[i], mu[i], alpha);
   return d;
 }
 

@@ -7,7 +7,9 @@ import { addFixedOffset } from "../../design/matrix-columns.js";
 import { FitError } from "../../errors.js";
 import { cholesky, choleskyInverse, choleskySolve, congruence, type SymMatrix } from "../../math/linalg.js";
 import { transformMatrix } from "./information.js";
+import { sharedFloat64 } from "../../math/shared-arrays.js";
 import { IrlsPasses } from "./iteration.js";
+import { passSplit } from "./pass-team.js";
 import { prepareFit } from "./setup.js";
 import { DEFAULT_CONTROL, type FitData, type FitOptions, type FitSetup, type GlmFit, type Workspace } from "./types.js";
 
@@ -129,6 +131,7 @@ export function fitGlm(m: DesignMatrix, data: FitData, options: FitOptions = {})
     covS = choleskyInverse(l, q);
     covariance = congruence(t, covS);
   }
+  passes.release();
   const derivatives = converged ? passes.alphaDerivatives() : null;
   const logLik = passes.logLikAtAlpha();
   return {
@@ -160,8 +163,10 @@ function offsetWithFixed(m: DesignMatrix, offset: Float64Array, fixed: Map<numbe
 
 /** eta and mu arrays of the rows' length, taken from the workspace when it has them (and left there). */
 function workspaceArrays(n: number, ws: Workspace | undefined): { eta: Float64Array; mu: Float64Array } {
-  const eta = ws?.eta?.length === n ? ws.eta : new Float64Array(n);
-  const mu = ws?.mu?.length === n ? ws.mu : new Float64Array(n);
+  // Shared memory when passes are split, so that the helper thread writes its half of eta and mu in place.
+  const alloc = (k: number) => (passSplit(k) > 0 ? sharedFloat64(k) : new Float64Array(k));
+  const eta = ws?.eta?.length === n ? ws.eta : alloc(n);
+  const mu = ws?.mu?.length === n ? ws.mu : alloc(n);
   if (ws) {
     ws.eta = eta;
     ws.mu = mu;

@@ -6,7 +6,14 @@ import type { DesignMatrix } from "../../design/design.js";
 import type { SymMatrix } from "../../math/linalg.js";
 import { CountTable, countIndex } from "../count-table.js";
 import { alphaDerivativesFromSums } from "../family.js";
-import { crossProductsCells, crossProductsCompiled, workingValues } from "./cross-products.js";
+import { inSharedMemory } from "../../math/shared-arrays.js";
+import {
+  addCellSums,
+  assembleCellSums,
+  crossProductsCells,
+  crossProductsCompiled,
+  workingValues,
+} from "./cross-products.js";
 import { totalDeviance } from "./deviance.js";
 import type { CellLayout, CompiledSlot, ScaledValues } from "./layout.js";
 import {
@@ -18,6 +25,8 @@ import {
   predictCellsNegbin,
   predictCellsPoisson,
 } from "./passes.js";
+import type { PassContext, PassMessage, PassReply, PassTablesAt } from "./pass-range.js";
+import { passSplit, releasePassContext, splitPass } from "./pass-team.js";
 import { cellsOf, compiledOf, slotValuesOf } from "./setup.js";
 import type { FitData, FitSetup } from "./types.js";
 
@@ -33,6 +42,10 @@ export class IrlsPasses {
   // Working weights and responses are stored only on the row-by-row path; the cells compute them as they go.
   private readonly w: Float64Array | null;
   private readonly z: Float64Array | null;
+  /** Where each pass is split between two threads (0: it is not; see pass-team.ts). */
+  private readonly half: number;
+  private local: PassContext | null = null;
+  private shared: PassContext | null = null;
 
   constructor(
     m: DesignMatrix,
@@ -52,6 +65,7 @@ export class IrlsPasses {
     this.sums = alphaSumsAt(this.table, alpha, this.joint);
     this.w = this.cells ? null : new Float64Array(m.n);
     this.z = this.cells ? null : new Float64Array(m.n);
+    this.half = this.cells && this.table ? passSplit(m.n) : 0;
   }
 
   /** eta = offset + X·beta' (scaled coordinates), −∞ for rows out of the fit. */
@@ -64,6 +78,12 @@ export class IrlsPasses {
   evaluate(betaS: Float64Array, eta: Float64Array, mu: Float64Array): number {
     const { cells, table, alpha } = this;
     const pw = this.data.weights;
+    if (cells && table && this.half > 0) {
+      const tables = this.tablesAt();
+      const [a, b] = this.split(eta, mu, (from, to) => ({ kind: "predict", betaS, tables, from, to }));
+      if (alpha !== 0) for (let k = 0; k < 6; k++) this.sums.out[k] = a.out![k] + b.out![k];
+      return a.d! + b.d!;
+    }
     if (cells && table)
       return alpha === 0
         ? predictCellsPoisson(cells, this.vals, betaS, this.off, eta, mu, pw, table)
@@ -75,6 +95,11 @@ export class IrlsPasses {
 
   /** The deviance at the current alpha, given eta and mu. */
   deviance(eta: Float64Array, mu: Float64Array): number {
+    if (this.cells && this.table && this.half > 0) {
+      const tables = this.tablesAt();
+      const [a, b] = this.split(eta, mu, (from, to) => ({ kind: "deviance", tables, from, to }));
+      return a.d! + b.d!;
+    }
     return totalDeviance(this.data.y, mu, eta, this.data.weights, this.setup.inFit, this.alpha, this.table);
   }
 
@@ -84,6 +109,11 @@ export class IrlsPasses {
     const n = mu.length,
       q = this.setup.order.length,
       alpha = this.alpha;
+    if (this.cells && this.table && this.half > 0) {
+      const [first, second] = this.split(eta, mu, (from, to) => ({ kind: "sums", alpha, withResponse, from, to }));
+      addCellSums(first.sums!, second.sums!);
+      return assembleCellSums(this.vals, this.cells, q, first.sums!);
+    }
     if (this.cells)
       return crossProductsCells(
         this.vals,
@@ -105,6 +135,70 @@ export class IrlsPasses {
   /** The NB2 log-likelihood the last pass accumulated at the current alpha (joint passes only). */
   logLikAtAlpha(): number | null {
     return this.joint && this.sums.alpha === this.alpha ? this.sums.out[5] : null;
+  }
+
+  /** The count tables of the current alpha, as a split pass's message carries them. */
+  private tablesAt(): PassTablesAt {
+    const t = this.table!,
+      s = this.sums,
+      alpha = this.alpha;
+    const none = new Float64Array(0);
+    return {
+      alpha,
+      ylogy: t.ylogy,
+      negbinDeviance: alpha === 0 ? none : t.negbinDeviance,
+      want: s.want,
+      d: s.d,
+      e: s.e,
+      lgammaTerms: s.lgammaTerms,
+    };
+  }
+
+  /** Both halves of a pass (see pass-team.ts) over this fit's arrays and the given eta and mu. */
+  private split(
+    eta: Float64Array,
+    mu: Float64Array,
+    message: (from: number, to: number) => PassMessage,
+  ): [PassReply, PassReply] {
+    if (this.local?.eta !== eta || this.local.mu !== mu) {
+      const { y, weights: pw } = this.data;
+      this.local = {
+        L: this.cells!,
+        vals: this.vals,
+        off: this.off,
+        y,
+        counts: this.table!.counts,
+        inFit: this.setup.inFit,
+        pw,
+        eta,
+        mu,
+      };
+      this.shared = null;
+    }
+    const local = this.local;
+    const shared = () => {
+      if (this.shared === null) {
+        const L = this.cells!;
+        this.shared = {
+          L: { ...L, cell: inSharedMemory(L.cell) },
+          vals: this.vals.map((v) => (v === null ? null : { ...v, raw: inSharedMemory(v.raw) })),
+          off: inSharedMemory(local.off),
+          y: inSharedMemory(local.y),
+          counts: inSharedMemory(local.counts),
+          inFit: inSharedMemory(local.inFit),
+          pw: local.pw === null ? null : inSharedMemory(local.pw),
+          eta,
+          mu,
+        };
+      }
+      return this.shared;
+    };
+    return splitPass(this, local, shared, message, this.half, eta.length);
+  }
+
+  /** The helper thread no longer needs this fit's arrays. */
+  release(): void {
+    releasePassContext(this);
   }
 
   /** Move to another alpha: its count tables, and fresh sums for the joint pass. */

@@ -2,6 +2,7 @@
 // slots compiled against the estimated columns (the row-by-row path), and rows
 // grouped by column pattern into cells (the cell path).
 import type { DesignMatrix } from "../../design/design.js";
+import { rowArray } from "../../math/shared-arrays.js";
 
 export interface Layout {
   inFit: Uint8Array;
@@ -111,7 +112,7 @@ export function buildCells(
     if (radix > 2 ** 52) return null;
   }
   const ids = new Map<number, number>();
-  const cell = new Int32Array(n);
+  const cell = rowArray(Int32Array, n);
   const reps: number[] = [];
   const nv = varying.length;
   const colsOf = varying.map((sl) => sl.cols!),

@@ -2,6 +2,9 @@
 // and the deviance (McCullagh and Nelder 1989, §2.5), on the cell layout or
 // row by row, with the NB2 pass also accumulating alpha's score sums.
 import type { CountTable } from "../count-table.js";
+
+/** What the passes read of a CountTable: the counts and the per-count tables at one alpha. */
+export type PassTables = Pick<CountTable, "counts" | "ylogy" | "negbinDeviance">;
 import type { CellLayout, CompiledSlot, ScaledValues } from "./layout.js";
 
 /** The per-cell constants of eta = offset + X·beta' (see CellLayout): the indicator part and each numeric slot's coefficient. */
@@ -24,22 +27,27 @@ export function cellCoefficients(L: CellLayout, slotVals: (ScaledValues | null)[
   return { M, cst, coef, raws: vals.map((v) => v.raw), cens: Float64Array.from(vals, (v) => v.center) };
 }
 
-/** eta = offset + X·beta' from the cells: a constant per cell plus the numeric slots (−∞ for rows out of the fit). */
+/**
+ * eta = offset + X·beta' from the cells: a constant per cell plus the numeric
+ * slots (−∞ for rows out of the fit), over rows [from, to) (every pass takes
+ * a row range, so that two threads can share it: pass-team.ts).
+ */
 export function linearPredictorCells(
   L: CellLayout,
   slotVals: (ScaledValues | null)[],
   betaS: Float64Array,
   off: Float64Array,
   eta: Float64Array,
+  from = 0,
+  to = off.length,
 ): void {
   const { M, cst, coef, raws, cens } = cellCoefficients(L, slotVals, betaS);
   const r0 = M > 0 ? raws[0] : off,
     c0 = M > 0 ? cens[0] : 0;
   const r1 = M > 1 ? raws[1] : off,
     c1 = M > 1 ? cens[1] : 0;
-  const cell = L.cell,
-    n = off.length;
-  for (let i = 0; i < n; i++) {
+  const cell = L.cell;
+  for (let i = from; i < to; i++) {
     const c = cell[i];
     if (c < 0) {
       eta[i] = -Infinity;
@@ -66,14 +74,16 @@ export function predictCellsPoisson(
   eta: Float64Array,
   mu: Float64Array,
   pw: Float64Array | null,
-  tab: CountTable,
+  tab: PassTables,
+  from = 0,
+  to = eta.length,
 ): number {
-  linearPredictorCells(L, slotVals, betaS, off, eta);
+  linearPredictorCells(L, slotVals, betaS, off, eta, from, to);
   const cell = L.cell,
     yl = tab.ylogy,
     cnt = tab.counts;
   let d = 0;
-  for (let i = 0; i < eta.length; i++) {
+  for (let i = from; i < to; i++) {
     if (cell[i] < 0) {
       mu[i] = 0;
       continue;
@@ -124,10 +134,12 @@ export function predictCellsNegbin(
   mu: Float64Array,
   pw: Float64Array | null,
   alpha: number,
-  tab: CountTable,
+  tab: PassTables,
   sums: AlphaSums,
+  from = 0,
+  to = eta.length,
 ): number {
-  linearPredictorCells(L, slotVals, betaS, off, eta);
+  linearPredictorCells(L, slotVals, betaS, off, eta, from, to);
   const cell = L.cell,
     yl = tab.ylogy,
     cnt = tab.counts,
@@ -145,7 +157,7 @@ export function predictCellsNegbin(
     a4 = 0,
     a5 = 0,
     ll = 0;
-  for (let i = 0; i < eta.length; i++) {
+  for (let i = from; i < to; i++) {
     if (cell[i] < 0) {
       mu[i] = 0;
       continue;

@@ -1,5 +1,6 @@
 // Screening and conditioning before IRLS (built once per setup), and the
 // setup's layouts, built on first use.
+import { rowArray } from "../../math/shared-arrays.js";
 import type { DesignMatrix } from "../../design/design.js";
 import { screenRank } from "../../math/linalg.js";
 import { crossProductsCells, crossProductsCompiled } from "./cross-products.js";
@@ -32,7 +33,7 @@ export function prepareFit(m: DesignMatrix, data: FitData, fixed?: Map<number, n
   const pw = data.weights;
   const status: CoefStatus[] = new Array(p).fill("estimated");
   if (fixed) for (const c of fixed.keys()) status[c] = "fixed";
-  const inFit = new Uint8Array(n).fill(1);
+  const inFit = rowArray(Uint8Array, n).fill(1);
   if (pw) for (let i = 0; i < n; i++) if (!(pw[i] > 0)) inFit[i] = 0;
 
   // 1. No-events indicator columns.
