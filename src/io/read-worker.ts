@@ -36,9 +36,12 @@ async function readPart(): Promise<Table> {
 
 readPart().then(
   (table) => {
+    // Columns in shared memory (large ones, see rowArray) go with the clone itself; the others are transferred.
     const buffers = new Set<ArrayBuffer>();
-    for (const c of table.columns.values())
-      buffers.add((c.kind === "numeric" ? c.values : c.codes).buffer as ArrayBuffer);
+    for (const c of table.columns.values()) {
+      const b = (c.kind === "numeric" ? c.values : c.codes).buffer;
+      if (b instanceof ArrayBuffer) buffers.add(b);
+    }
     parentPort!.postMessage({ table }, [...buffers]);
   },
   () => parentPort!.postMessage({ table: null }),

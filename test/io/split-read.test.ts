@@ -109,6 +109,15 @@ test("faults in the second half give one reader's message, with its row and line
   assert.deepEqual(await outcome(path, "always"), one);
 });
 
+test("a file with columns large enough for shared memory is joined, and read as one reader reads it", async () => {
+  const r = await assertSame(
+    "large",
+    rows(260000, (i) => `w${i % 9},${i % 2 ? "d" : "n"},${i % 7},${(i % 13) / 4}`),
+  );
+  assert.equal(r.joined, true);
+  assert.equal(r.ok!.nRows, 260000);
+});
+
 test("random files read the same on one thread and on two (fast-check, 60 runs)", async () => {
   const field = fc.constantFrom("1", "2.5", "-3", "", "NA", "x", "w1", "w2", "ward 9", "1e3", '"q"', '"a,b"');
   const line = fc.array(field, { minLength: 3, maxLength: 3 }).map((f) => f.join(","));
