@@ -11,26 +11,14 @@ import { join } from "node:path";
 import fc from "fast-check";
 import { loadTableStream } from "../../src/io/csv.js";
 import { splitWanted } from "../../src/io/split-read.js";
-import type { Table } from "../../src/io/table.js";
+import { snapshot } from "./table-snapshot.js";
 
 const DIR = mkdtempSync(join(tmpdir(), "tallyfit-split-"));
-
-function snapshot(t: Table) {
-  return {
-    header: t.header,
-    nRows: t.nRows,
-    columns: [...t.columns.values()].map((c) =>
-      c.kind === "numeric"
-        ? { name: c.name, kind: c.kind, values: [...c.values].map((v) => (Number.isNaN(v) ? "NaN" : v)) }
-        : { name: c.name, kind: c.kind, levels: c.levels, codes: [...c.codes], reason: c.reason },
-    ),
-  };
-}
 
 async function outcome(path: string, split: "always" | "never", factors: string[] = []) {
   try {
     const r = await loadTableStream(path, { digest: false, split, factors });
-    return { ok: snapshot(r.table), twoThreads: r.twoThreads };
+    return { ok: snapshot(r.table, { reasons: true }), twoThreads: r.twoThreads };
   } catch (e) {
     return { error: (e as Error).message, twoThreads: false };
   }

@@ -6,18 +6,7 @@ import { makeReader, parseTable } from "../../src/io/csv.js";
 import { parseTableWithCsvParse } from "./csv-parse-oracle.js";
 import { InputError } from "../../src/errors.js";
 import type { Table } from "../../src/io/table.js";
-
-function snapshot(t: Table) {
-  return {
-    header: t.header,
-    nRows: t.nRows,
-    columns: [...t.columns.values()].map((c) =>
-      c.kind === "numeric"
-        ? { name: c.name, kind: c.kind, values: [...c.values].map((v) => (Number.isNaN(v) ? "NaN" : v)) }
-        : { name: c.name, kind: c.kind, levels: c.levels, codes: [...c.codes] },
-    ),
-  };
-}
+import { snapshot } from "./table-snapshot.js";
 
 function outcome(f: () => Table) {
   try {
