@@ -93,7 +93,8 @@ export async function loadTableStream(
   progress?: (bytes: number, rows: number) => void,
 ): Promise<{
   table: Table;
-  sha256: string /** The file's second half was read on a worker thread. */;
+  sha256: string;
+  /** The file's second half was read on a worker thread. */
   twoThreads: boolean;
 }> {
   const name = path === "-" ? "<stdin>" : path;

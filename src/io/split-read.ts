@@ -63,6 +63,8 @@ export async function readFileBytes(
         w.once("exit", () => resolve(null));
       });
     }
+    // One 4 MB buffer, refilled: the reader copies what it keeps, so no chunk outlives its read
+    // (a new buffer per chunk would leave hundreds of MB to the garbage collector on a large file).
     const readRange = async (from: number, to: number, watchQuotes: boolean): Promise<boolean> => {
       let quoted = false;
       for (let at = from; at < to; ) {
