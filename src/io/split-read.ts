@@ -3,14 +3,15 @@
 // the first half; the worker's columns are then appended (ColumnReader.appendPart).
 // That line break ends a record only when no quote comes before it (a quoted
 // field may hold a line break), so the halves are joined only when the first
-// half holds no quote and every column has the same kind in both halves.
+// half holds no quote, every column has the same kind in both halves, and the
+// worker did not turn a column into a factor after some numbers (codedAsRead).
 // Otherwise, and on any fault in the second half, this thread reads the second
 // half itself: the table and every message are those of one reader.
 import { open } from "node:fs/promises";
 import { availableParallelism } from "node:os";
 import { env } from "node:process";
 import { Worker } from "node:worker_threads";
-import type { Table } from "./table.js";
+import type { Column, Table } from "./table.js";
 import type { ColumnReader } from "./tokenizer.js";
 
 /**
@@ -83,13 +84,26 @@ export async function readFileBytes(
     }
     const quoted = await readRange(0, cut.at, true);
     const table = quoted ? null : await part;
-    if (table && reader.appendPart(table)) return true;
+    if (table && [...table.columns.values()].every(codedAsRead) && reader.appendPart(table)) return true;
     await readRange(cut.at, size, false);
     return false;
   } finally {
     if (worker) void worker.terminate();
     await fh.close();
   }
+}
+
+/**
+ * Whether a part's column holds its levels as one reader would have read
+ * them: a column that turned into a factor after some numbers (demote) coded
+ * those numbers from their values ("1.50" as "1.5"), where a reader that had
+ * already met text would have kept their bytes.
+ */
+function codedAsRead(c: Column): boolean {
+  if (c.kind === "numeric" || c.reason.forced) return true;
+  const before = c.reason.row - 2;
+  for (let i = 0; i < before; i++) if (c.codes[i] >= 0) return false;
+  return true;
 }
 
 /** The first byte after the first line break at or past the middle, and the header line's bytes; null when either is not found nearby. */
