@@ -1,5 +1,6 @@
 // Design stage: model terms + typed columns → a row-sparse design matrix with
 // treatment (reference-level) coding, an offset, weights and the rows used.
+import { rowArray } from "../math/shared-arrays.js";
 import { InputError } from "../errors.js";
 import type { Column, SourceOrigin, Table } from "../io/table.js";
 import { fileRow } from "../io/table.js";
@@ -288,12 +289,12 @@ export function buildDesign(table: Table, model: Formula, options: DesignOptions
     throw new InputError(
       `${table.source}: the count column '${model.response}' is 0 in every row used (${n} rows); with no events there is no rate to model.`,
     );
-  const rowIndex = new Int32Array(n);
+  const rowIndex = rowArray(Int32Array, n);
   for (let i = 0, k = 0; i < N; i++) if (usable[i]) rowIndex[k++] = i;
   // When every row is used the table's own columns serve (no stage writes into its inputs).
   const pick = (a: Float64Array) => {
     if (n === N) return a;
-    const out = new Float64Array(n);
+    const out = rowArray(Float64Array, n);
     for (let k = 0; k < n; k++) out[k] = a[rowIndex[k]];
     return out;
   };
@@ -445,7 +446,7 @@ export function layoutColumns(
     let values: Float64Array | null = null;
     if (numericParts.length === 1) values = numericParts[0].values;
     else if (numericParts.length > 1) {
-      values = new Float64Array(n);
+      values = rowArray(Float64Array, n);
       for (let k = 0; k < n; k++) {
         let v = 1;
         for (const p of numericParts) v *= p.values[k];
@@ -455,7 +456,7 @@ export function layoutColumns(
     if (factorParts.length === 0) {
       slots.push({ term: ti, colStart: base, colCount: 1, cols: null, values });
     } else {
-      const rowCols = new Int32Array(n);
+      const rowCols = rowArray(Int32Array, n);
       for (let k = 0; k < n; k++) {
         let c = 0;
         let none = false;

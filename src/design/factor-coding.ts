@@ -1,5 +1,6 @@
 // Factor coding: the levels present among the rows used, in natural order or
 // the order given, and the reference level (by default the first with events).
+import { rowArray } from "../math/shared-arrays.js";
 import { InputError } from "../errors.js";
 import type { FactorColumn, Table } from "../io/table.js";
 import { closestName, listNames, naturalCompare } from "./naming.js";
@@ -60,7 +61,7 @@ export function codeFactor(
   }
   const pos = new Map(levels.map((l, i) => [l, i]));
   const remap = c.levels.map((l) => pos.get(l) ?? -1);
-  const codes = new Int32Array(rowIndex.length);
+  const codes = rowArray(Int32Array, rowIndex.length);
   for (let k = 0; k < rowIndex.length; k++) codes[k] = remap[c.codes[rowIndex[k]]];
   return { coding: { name: c.name, levels, reference }, codes, notice };
 }
