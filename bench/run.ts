@@ -11,6 +11,9 @@
 //                                          DuckDB against DuckDB's own GROUP BY, 10,000,000 rows on two ClickHouse shards
 //   npm run bench -- --kernel [--against DIR]  the IRLS kernel micro-benchmark alone (bench/kernel.ts), which the
 //                                          default run also ends with
+//   npm run bench -- --against DIR         also the Poisson and NB2 fits of the build in DIR (a built checkout of
+//                                          another commit), alternating with this build's in the same runs, and its kernel:
+//                                          before and after, side by side
 // Wall time is measured around each process; peak resident memory comes from
 // /usr/bin/time when present. Medians are printed with the ratios.
 import { spawnSync } from "node:child_process";
@@ -34,6 +37,16 @@ function arg(name: string, dflt: number): number {
   const k = process.argv.indexOf(name);
   return k >= 0 ? Number(process.argv[k + 1]) : dflt;
 }
+
+/** The other build to time beside this one (--against DIR): its command-line entry. */
+function againstBin(): string | null {
+  const k = process.argv.indexOf("--against");
+  if (k < 0) return null;
+  const bin = join(resolve(process.argv[k + 1]), "bin", "tallyfit.js");
+  if (!existsSync(bin)) throw new Error(`--against ${process.argv[k + 1]}: no bin/tallyfit.js there`);
+  return bin;
+}
+const AGAINST = againstBin();
 
 interface Timing {
   seconds: number;
@@ -91,6 +104,11 @@ async function bench(rows: number, reps: number, withYardstick: boolean): Promis
     ["tallyfit poisson (Wald)", process.execPath, [BIN, ...base, "--intervals", "wald"]],
     ["tallyfit negbin (Wald)", process.execPath, [BIN, ...base, "--family", "negbin", "--intervals", "wald"]],
   ];
+  if (AGAINST)
+    cases.push(
+      ["other build poisson (Wald)", process.execPath, [AGAINST, ...base, "--intervals", "wald"]],
+      ["other build negbin (Wald)", process.execPath, [AGAINST, ...base, "--family", "negbin", "--intervals", "wald"]],
+    );
   if (rows <= 100000)
     cases.push(
       // Clustered counts: the same fits with cluster-robust errors (20 region clusters), two-way, and GEE.
@@ -202,17 +220,22 @@ async function big(): Promise<void> {
     "--intervals",
     "wald",
   ];
-  for (const family of ["poisson", "negbin"]) {
-    const t = run(process.execPath, [BIN, ...base, "--family", family]);
-    const out = JSON.parse(t.stdout);
-    const merged = out.merged_patterns
-      ? `IRLS over ${out.merged_patterns.patterns.toLocaleString("en")} patterns`
-      : "IRLS over the rows";
-    console.log(
-      `  tallyfit ${family.padEnd(8)} (Wald) ${t.seconds.toFixed(1).padStart(6)} s  ${(rows / t.seconds / 1e3).toFixed(0).padStart(5)}k rows/s  ${(mb / t.seconds).toFixed(1).padStart(5)} MB/s  ` +
-        `${t.rssMB === null ? "" : `${t.rssMB.toFixed(0)} MB peak (${t.rssMB < 1536 ? "under" : "OVER"} 1.5 GB)`}  ${merged}`,
-    );
-  }
+  const builds: [string, string][] = [
+    ["tallyfit", BIN],
+    ...(AGAINST ? [["other build", AGAINST] as [string, string]] : []),
+  ];
+  for (const family of ["poisson", "negbin"])
+    for (const [who, bin] of builds) {
+      const t = run(process.execPath, [bin, ...base, "--family", family]);
+      const out = JSON.parse(t.stdout);
+      const merged = out.merged_patterns
+        ? `IRLS over ${out.merged_patterns.patterns.toLocaleString("en")} patterns`
+        : "IRLS over the rows";
+      console.log(
+        `  ${who} ${family.padEnd(8)} (Wald) ${t.seconds.toFixed(1).padStart(6)} s  ${(rows / t.seconds / 1e3).toFixed(0).padStart(5)}k rows/s  ${(mb / t.seconds).toFixed(1).padStart(5)} MB/s  ` +
+          `${t.rssMB === null ? "" : `${t.rssMB.toFixed(0)} MB peak (${t.rssMB < 1536 ? "under" : "OVER"} 1.5 GB)`}  ${merged}`,
+      );
+    }
   const collapsed = join(DATA, `bench_${rows}_collapsed.csv`);
   const c = await collapseBenchFile(file, collapsed);
   const tight = ["--tolerance", "1e-13", "--max-iter", "100"];
@@ -273,7 +296,7 @@ async function main(): Promise<void> {
   await bench(arg("--rows", 1000000), arg("--reps", 3), withYardstick);
   await predictBench(run, BIN, DATA, MODEL, arg("--reps", 3));
   console.log("");
-  await runKernelBench([]);
+  await runKernelBench(AGAINST ? ["--against", process.argv[process.argv.indexOf("--against") + 1]] : []);
   if (process.argv.includes("--big")) await big();
 }
 
