@@ -66,11 +66,10 @@ export function takeJobs(
 export const PARALLEL_MIN_WORK = 1e7;
 /**
  * Above this many rows, a second thread's own arrays cost too much memory. The
- * design and the fit are shared, not copied (shared-plan.ts), but each thread
- * refits with its own eta, mu, cells and count codes (some 25 bytes a row),
- * and the shared copies stand beside the originals until these are collected.
- * At 10 million rows NB2's five term tests took 27.9 s with the worker against
- * 33.5 s without, at a peak of 1.8–2.1 GB against 1.3 GB.
+ * design and the fit are shared, not copied (rowArray, shared-plan.ts), but
+ * each thread refits with its own eta, mu and count codes. At 10 million rows
+ * NB2's five term tests on two threads took 21.9–27.8 s at 1.83–1.89 GB; one
+ * thread, its passes split with the helper (pass-team.ts), 26.5 s at 1.21 GB.
  */
 export const PARALLEL_MAX_ROWS = 4000000;
 

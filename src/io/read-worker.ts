@@ -4,6 +4,7 @@
 // the main thread then reads that half itself, so messages keep their lines.
 import { open } from "node:fs/promises";
 import { parentPort, workerData } from "node:worker_threads";
+import { forEachChunk } from "./split-read.js";
 import type { Table } from "./table.js";
 import { ColumnReader, type StreamOptions } from "./tokenizer.js";
 
@@ -21,13 +22,7 @@ async function readPart(): Promise<Table> {
   reader.feed(header);
   const fh = await open(path, "r");
   try {
-    const buf = Buffer.allocUnsafe(1 << 22);
-    for (let at = start; at < end; ) {
-      const { bytesRead } = await fh.read(buf, 0, Math.min(buf.length, end - at), at);
-      if (bytesRead === 0) break;
-      at += bytesRead;
-      reader.feed(buf.subarray(0, bytesRead));
-    }
+    await forEachChunk(fh, start, end, Buffer.allocUnsafe(1 << 22), (chunk) => reader.feed(chunk));
   } finally {
     await fh.close();
   }

@@ -7,7 +7,7 @@
 // worker did not turn a column into a factor after some numbers (codedAsRead).
 // Otherwise, and on any fault in the second half, this thread reads the second
 // half itself: the table and every message are those of one reader.
-import { open } from "node:fs/promises";
+import { type FileHandle, open } from "node:fs/promises";
 import { availableParallelism } from "node:os";
 import { env } from "node:process";
 import { Worker } from "node:worker_threads";
@@ -64,18 +64,12 @@ export async function readFileBytes(
         w.once("exit", () => resolve(null));
       });
     }
-    // One 4 MB buffer, refilled: the reader copies what it keeps, so no chunk outlives its read
-    // (a new buffer per chunk would leave hundreds of MB to the garbage collector on a large file).
     const readRange = async (from: number, to: number, watchQuotes: boolean): Promise<boolean> => {
       let quoted = false;
-      for (let at = from; at < to; ) {
-        const { bytesRead } = await fh.read(buf, 0, Math.min(buf.length, to - at), at);
-        if (bytesRead === 0) break;
-        at += bytesRead;
-        const chunk = buf.subarray(0, bytesRead);
+      await forEachChunk(fh, from, to, buf, (chunk) => {
         if (watchQuotes && !quoted && chunk.indexOf(QUOTE) >= 0) quoted = true;
         consume(chunk);
-      }
+      });
       return quoted;
     };
     if (!cut || !part) {
@@ -94,6 +88,26 @@ export async function readFileBytes(
 }
 
 /**
+ * Bytes [from, to) of an open file, in chunks of one buffer refilled: the
+ * reader copies what it keeps, so no chunk outlives its read (a new buffer per
+ * chunk would leave hundreds of MB to the garbage collector on a large file).
+ */
+export async function forEachChunk(
+  fh: FileHandle,
+  from: number,
+  to: number,
+  buf: Buffer,
+  f: (chunk: Uint8Array) => void,
+): Promise<void> {
+  for (let at = from; at < to; ) {
+    const { bytesRead } = await fh.read(buf, 0, Math.min(buf.length, to - at), at);
+    if (bytesRead === 0) break;
+    at += bytesRead;
+    f(buf.subarray(0, bytesRead));
+  }
+}
+
+/**
  * Whether a part's column holds its levels as one reader would have read
  * them: a column that turned into a factor after some numbers (demote) coded
  * those numbers from their values ("1.50" as "1.5"), where a reader that had
@@ -107,7 +121,7 @@ function codedAsRead(c: Column): boolean {
 }
 
 /** The first byte after the first line break at or past the middle, and the header line's bytes; null when either is not found nearby. */
-async function splitPoint(fh: Awaited<ReturnType<typeof open>>, size: number) {
+async function splitPoint(fh: FileHandle, size: number) {
   const head = Buffer.alloc(PROBE);
   const { bytesRead: h } = await fh.read(head, 0, Math.min(PROBE, size), 0);
   const headerEnd = head.subarray(0, h).indexOf(LF) + 1;

@@ -2,7 +2,7 @@
 // hands to another thread without copying: for the row-length arrays that two
 // threads read and write in turn (the IRLS passes split by row range).
 
-type Typed = Float64Array | Int32Array | Uint8Array;
+type Typed = Float64Array | Float32Array | Int32Array | Uint32Array | Int16Array | Uint16Array | Int8Array | Uint8Array;
 
 /**
  * Row-length arrays of this many elements or more are born in shared memory

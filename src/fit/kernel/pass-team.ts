@@ -8,11 +8,15 @@
 import { availableParallelism } from "node:os";
 import { env } from "node:process";
 import { isMainThread, MessageChannel, type MessagePort, receiveMessageOnPort, Worker } from "node:worker_threads";
-import { isShared } from "../../math/shared-arrays.js";
+import { isShared, SHARED_MIN_ROWS } from "../../math/shared-arrays.js";
 import { type PassContext, type PassMessage, type PassReply, runPass } from "./pass-range.js";
 
-/** Passes over this many rows or more are split in two (TALLYFIT_PASS_SPLIT_ROWS overrides it, for the tests). */
-export const PASS_SPLIT_ROWS = 200000;
+/**
+ * Passes over this many rows or more are split in two: the size from which
+ * row-length arrays are born in shared memory (TALLYFIT_PASS_SPLIT_ROWS
+ * overrides it, for the tests).
+ */
+export const PASS_SPLIT_ROWS = SHARED_MIN_ROWS;
 
 /** Where a pass over n rows is split: 0 when it is not. */
 export function passSplit(n: number): number {
@@ -40,10 +44,10 @@ interface Helper {
   sent: number;
   owner: object | null;
   context: PassContext | null;
-  broken: boolean;
 }
 
-let helper: Helper | null = null;
+/** null: not started yet; "none": no helper in this process (one core, or it failed to start or broke). */
+let helper: Helper | "none" | null = null;
 
 function startHelper(): Helper | null {
   if (availableParallelism() < 2 && env.TALLYFIT_WORKERS !== "1") return null;
@@ -56,9 +60,9 @@ function startHelper(): Helper | null {
     });
     worker.unref();
     worker.on("error", () => {
-      if (helper) helper.broken = true;
+      helper = "none";
     });
-    return { worker, port: port1, ctl, sent: 0, owner: null, context: null, broken: false };
+    return { worker, port: port1, ctl, sent: 0, owner: null, context: null };
   } catch {
     return null;
   }
@@ -71,20 +75,20 @@ function startHelper(): Helper | null {
  */
 function readyHelper(): Helper | null {
   if (suspended > 0 || !isMainThread || env.TALLYFIT_WORKERS === "0") return null;
-  if (helper === null) helper = startHelper() ?? ({ broken: true } as Helper);
-  if (helper.broken) return null;
+  if (helper === null) helper = startHelper() ?? "none";
+  if (helper === "none") return null;
   if (env.TALLYFIT_WORKERS === "1") Atomics.wait(helper.ctl, 2, 0, 30000);
   return Atomics.load(helper.ctl, 2) === 1 ? helper : null;
 }
 
 /** Passes whose second half the helper thread has computed so far (for the tests). */
 export function helperPasses(): number {
-  return helper && !helper.broken ? Atomics.load(helper.ctl, 1) : 0;
+  return helper === null || helper === "none" ? 0 : Atomics.load(helper.ctl, 1);
 }
 
 /** Forget a fit's arrays in the helper (they can then be collected). */
 export function releasePassContext(owner: object): void {
-  if (helper && !helper.broken && helper.owner === owner) {
+  if (helper !== null && helper !== "none" && helper.owner === owner) {
     helper.port.postMessage({ type: "drop" });
     helper.owner = null;
     helper.context = null;
@@ -124,7 +128,7 @@ export function splitPass(
   const reply = Atomics.load(hp.ctl, 1) >= seq ? receiveMessageOnPort(hp.port)?.message : undefined;
   if (!reply || (reply as { error?: string }).error !== undefined) {
     // The helper failed: this thread takes the second half from now on.
-    hp.broken = true;
+    helper = "none";
     void hp.worker.terminate();
     return [first, runPass(local, message(h, n))];
   }
