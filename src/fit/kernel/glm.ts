@@ -23,7 +23,7 @@ export function fitGlm(m: DesignMatrix, data: FitData, options: FitOptions = {})
     m,
     setup,
     data,
-    offsetWithFixed(m, data.offset, options.fixed),
+    offsetWithFixed(m, data.offset, options.fixed, options.workspace),
     options.alpha ?? 0,
     !!options.alphaStep,
   );
@@ -153,20 +153,39 @@ export function fitGlm(m: DesignMatrix, data: FitData, options: FitOptions = {})
   };
 }
 
-/** The offset, copied only when fixed coefficients add to it (columns held at 0, as in term tests, do not). */
-function offsetWithFixed(m: DesignMatrix, offset: Float64Array, fixed: Map<number, number> | undefined): Float64Array {
+/**
+ * The offset, copied only when fixed coefficients add to it (columns held at
+ * 0, as in term tests, do not): into the workspace's array when it has one of
+ * the rows' length, so that the many fits of a profile write one array (no
+ * fresh memory to touch per fit, and one array in shared memory for the helper).
+ */
+function offsetWithFixed(
+  m: DesignMatrix,
+  offset: Float64Array,
+  fixed: Map<number, number> | undefined,
+  ws: Workspace | undefined,
+): Float64Array {
   if (!fixed || ![...fixed.values()].some((v) => v !== 0)) return offset;
-  const off = new Float64Array(offset);
+  const off = ws?.off?.length === offset.length ? ws.off : passArray(offset.length);
+  off.set(offset);
   addFixedOffset(m, fixed, off);
+  if (ws) ws.off = off;
   return off;
+}
+
+/**
+ * A row-length array a fit rewrites: in shared memory when its passes are
+ * split, so that the helper thread reads it, and writes its half of eta and mu,
+ * in place (never a copy, which would go stale when the array is rewritten).
+ */
+function passArray(n: number): Float64Array {
+  return passSplit(n) > 0 ? sharedFloat64(n) : new Float64Array(n);
 }
 
 /** eta and mu arrays of the rows' length, taken from the workspace when it has them (and left there). */
 function workspaceArrays(n: number, ws: Workspace | undefined): { eta: Float64Array; mu: Float64Array } {
-  // Shared memory when passes are split, so that the helper thread writes its half of eta and mu in place.
-  const alloc = (k: number) => (passSplit(k) > 0 ? sharedFloat64(k) : new Float64Array(k));
-  const eta = ws?.eta?.length === n ? ws.eta : alloc(n);
-  const mu = ws?.mu?.length === n ? ws.mu : alloc(n);
+  const eta = ws?.eta?.length === n ? ws.eta : passArray(n);
+  const mu = ws?.mu?.length === n ? ws.mu : passArray(n);
   if (ws) {
     ws.eta = eta;
     ws.mu = mu;

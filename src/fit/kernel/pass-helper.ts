@@ -2,6 +2,7 @@
 // memory) and runs the second half of each pass it is sent, waking on the
 // shared flag and answering on its port.
 import { type MessagePort, receiveMessageOnPort, workerData } from "node:worker_threads";
+import { collectGarbage } from "../../math/collect.js";
 import { type PassContext, type PassMessage, runPass } from "./pass-range.js";
 
 const { port, ctl } = workerData as { port: MessagePort; ctl: Int32Array };
@@ -20,8 +21,12 @@ for (;;) {
   for (let r = receiveMessageOnPort(port); r; r = receiveMessageOnPort(port)) {
     const m = r.message as Message;
     if (m.type === "context") context = m.context;
-    else if (m.type === "drop") context = null;
-    else {
+    else if (m.type === "drop") {
+      // This thread never returns to its event loop, where V8's own collections run as tasks: without
+      // this, the shared arrays of every fit it was sent would stay mapped until the process exits.
+      context = null;
+      collectGarbage();
+    } else {
       try {
         if (context === null) throw new Error("no context");
         port.postMessage(runPass(context, m.pass));

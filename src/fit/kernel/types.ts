@@ -86,6 +86,8 @@ export interface FitOptions {
 export interface Workspace {
   eta?: Float64Array;
   mu?: Float64Array;
+  /** The offset plus fixed coefficients' terms, rewritten by each fit that has some. */
+  off?: Float64Array;
 }
 
 /** Screening results: which columns are estimated and how columns are conditioned. */

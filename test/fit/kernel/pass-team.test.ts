@@ -5,7 +5,8 @@
 // (TALLYFIT_PASS_SPLIT_ROWS) so that small data split.
 import { test } from "node:test";
 import assert from "node:assert/strict";
-import { fitCounts } from "../../../src/fit/count-fit.js";
+import { constrainedStatistic, fitCounts } from "../../../src/fit/count-fit.js";
+import type { Workspace } from "../../../src/fit/kernel/types.js";
 import { helperPasses, passSplit, PASS_SPLIT_ROWS } from "../../../src/fit/kernel/pass-team.js";
 import { assertRel, fitCsv, rng, simulateRates } from "../../helpers.js";
 
@@ -57,6 +58,37 @@ for (const family of ["poisson", "negbin"] as const) {
       assertRel(split.negbin!.alpha, whole.negbin!.alpha, 1e-12, "alpha");
       assertRel(split.negbin!.logLik, whole.negbin!.logLik, 1e-12, "log-likelihood");
     }
+  });
+
+  test(`${family}: profile refits that rewrite one workspace give the same statistics on one thread and on two`, () => {
+    // Each refit writes offset + b·x into the workspace's one offset array; a copy of it for the helper
+    // thread made once and kept would go stale, and the two-thread statistics would differ.
+    const mf = withEnv({ TALLYFIT_PASS_SPLIT_ROWS: "1000", TALLYFIT_WORKERS: "0" }, () =>
+      fitCounts(design, { family }),
+    );
+    const col = 1;
+    const at = [-0.3, -0.1, 0.2, 0.4].map((d) => mf.fit.beta[col] + d);
+    const run = (workers: string, workspace: Workspace) =>
+      withEnv({ TALLYFIT_PASS_SPLIT_ROWS: "1000", TALLYFIT_WORKERS: workers }, () => {
+        const stat = constrainedStatistic(design, mf, col, workspace);
+        return at.map((b) => {
+          const v = stat(b);
+          return { v, off: workspace.off };
+        });
+      });
+    const before = helperPasses();
+    const one = run("0", {});
+    const two = run("1", {});
+    assert.ok(helperPasses() > before, "the helper thread ran second halves");
+    assert.deepEqual(
+      two.map((r) => r.v),
+      one.map((r) => r.v),
+    );
+    assert.ok(one[0].v > 0 && one.every((r) => Number.isFinite(r.v)));
+    assert.ok(
+      two.every((r) => r.off !== undefined && r.off === two[0].off),
+      "one offset array for every refit",
+    );
   });
 }
 
