@@ -18,6 +18,7 @@ import { fitGee } from "../fit/gee.js";
 import type { WorkingCorrelation } from "../fit/working-correlation.js";
 import { unitDeviance } from "../fit/family.js";
 import { FitError } from "../errors.js";
+import { collectAfterStage } from "../math/collect.js";
 import { geeCovariance, geeSummaryOf, geeWarnings, type GeeSummary } from "../infer/gee-inference.js";
 
 export interface AnalysisOptions {
@@ -269,6 +270,8 @@ export async function analyzeFitParallel(design: Design, o: AnalysisOptions): Pr
   const onJob = o.onProgress
     ? (k: number, n: number) => o.onProgress?.(`refits: job ${k} of ${n} started…`)
     : undefined;
+  // The fits' dropped arrays go before the constrained fits allocate theirs.
+  collectAfterStage(design.n);
   return assemble(design, o, fitted, plan, await runJobs(plan, undefined, false, onJob));
 }
 

@@ -33,6 +33,7 @@ import {
   parseRefs,
 } from "./options.js";
 import { clearProgressLine, notice, readingProgress } from "./terminal.js";
+import { collectAfterStage } from "../math/collect.js";
 
 export interface LoadedDesigns {
   designs: Design[];
@@ -115,6 +116,8 @@ export async function loadDesigns(
       : null;
   const { table: read, sha256 } = pushed ?? (await readRows(path, opts, { factors, select }, progress, wantDigest));
   if (progress) clearProgressLine();
+  // The reader's buffers and a reading worker's parts are garbage now.
+  collectAfterStage(read.nRows);
   for (const f of factors)
     if (!read.header.includes(f))
       throw new InputError(
@@ -151,6 +154,7 @@ export async function loadDesigns(
       });
     });
   let designs = build();
+  collectAfterStage(read.nRows);
   if (pushed)
     designs = designs.map((d) =>
       collapsedDesign(

@@ -255,6 +255,8 @@ export function fitCounts(design: Design, options: FitModelOptions): CountFit {
       control,
       onIteration: options.onIteration,
       poisson: options.poisson?.fit,
+      // One pair of row-length eta and mu arrays for the Poisson start and the fits after it.
+      workspace: {},
     });
     requireConverged(nb.fit);
     return {

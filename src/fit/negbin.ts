@@ -7,7 +7,7 @@ import { CountTable } from "./count-table.js";
 import { alphaDerivativesFromSums, harmonic, logDensity } from "./family.js";
 import { fitGlm } from "./kernel/glm.js";
 import { prepareFit } from "./kernel/setup.js";
-import type { FitControl, FitData, FitSetup, GlmFit, Workspace } from "./kernel/types.js";
+import type { FitControl, FitData, FitOptions, FitSetup, GlmFit, Workspace } from "./kernel/types.js";
 
 export interface NegbinFit {
   fit: GlmFit;
@@ -18,7 +18,10 @@ export interface NegbinFit {
   /** True when the likelihood is largest at alpha = 0: the model reduces to the Poisson. */
   boundary: boolean;
   outerIterations: number;
-  /** The Poisson fit it started from, with its log-likelihood. */
+  /**
+   * The Poisson fit it started from, with its log-likelihood (with a
+   * workspace, its eta and mu may since hold a later fit's: see NegbinOptions.workspace).
+   */
   poisson: GlmFit;
   poissonLogLik: number;
 }
@@ -125,7 +128,11 @@ export interface NegbinOptions {
   onIteration?: (iteration: number, deviance: number) => void;
   /** A converged Poisson fit of the same rows and fixed columns, to start from instead of fitting one. */
   poisson?: GlmFit;
-  /** Arrays the fits made here write eta and mu into (see FitOptions.workspace); the result's means are these. */
+  /**
+   * Arrays the fits made here write eta and mu into, one fit after the other
+   * (see FitOptions.workspace): the result's means are these, and the Poisson
+   * start's means are written over.
+   */
   workspace?: Workspace;
 }
 
@@ -148,8 +155,13 @@ export function fitNegbin(m: DesignMatrix, data: FitData, o: NegbinOptions): Neg
   const warm = !!(o.warm && o.start && o.startAlpha && o.startAlpha > 0);
   let pois: GlmFit | null = o.poisson ?? null;
   let poisLL = pois ? negbinLogLik(data.y, pois.mu, pw, 0) : NaN;
-  const poissonFit = () => {
-    if (!pois) {
+  let poisMoment = NaN;
+  // The Poisson fit made here writes its eta and mu into the workspace, which the
+  // fits after it write over: then its means are gone (its coefficients stay),
+  // and atBoundary, which returns it as the fit, fits it again.
+  let poisMeansGone = false;
+  const poissonFit = (withMeans = false) => {
+    if (!pois || (withMeans && poisMeansGone)) {
       pois = fitGlm(m, data, {
         control: o.control,
         fixed: o.fixed,
@@ -159,12 +171,23 @@ export function fitNegbin(m: DesignMatrix, data: FitData, o: NegbinOptions): Neg
         onIteration: o.onIteration,
         workspace: o.workspace,
       });
+      poisMeansGone = false;
       poisLL = negbinLogLik(data.y, pois.mu, pw, 0);
     }
     return pois;
   };
+  /** A fit at alpha > 0 from here on. */
+  const fitAt = (options: FitOptions): GlmFit => {
+    if (o.workspace && pois && pois !== o.poisson) poisMeansGone = true;
+    return fitGlm(m, data, { ...options, workspace: o.workspace });
+  };
+  /** The method-of-moments alpha at the Poisson means, for a start (from the first Poisson fit's means). */
+  const momentStart = () => {
+    if (Number.isNaN(poisMoment)) poisMoment = momentAlpha(data.y, poissonFit().mu, pw);
+    return poisMoment;
+  };
   const atBoundary = (evals: number): NegbinFit => {
-    const p = poissonFit();
+    const p = poissonFit(true);
     return {
       fit: p,
       alpha: 0,
@@ -200,11 +223,11 @@ export function fitNegbin(m: DesignMatrix, data: FitData, o: NegbinOptions): Neg
       }
       return next;
     };
-    const a0 = warm ? o.startAlpha! : Math.min(Math.max(momentAlpha(data.y, poissonFit().mu, pw), 1e-4), 1e2);
+    const a0 = warm ? o.startAlpha! : Math.min(Math.max(momentStart(), 1e-4), 1e2);
     const start0 = warm ? o.start! : poissonFit().beta;
     let joint: GlmFit | null = null;
     try {
-      joint = fitGlm(m, data, {
+      joint = fitAt({
         control: { ...o.control, maxIter: Math.max(o.control.maxIter, 100) },
         fixed: o.fixed,
         start: start0,
@@ -213,7 +236,6 @@ export function fitNegbin(m: DesignMatrix, data: FitData, o: NegbinOptions): Neg
         alphaStep,
         skipCovariance: !!o.likelihoodOnly,
         onIteration: o.onIteration,
-        workspace: o.workspace,
       });
     } catch (e) {
       if (!(e instanceof FitError)) throw e;
@@ -245,7 +267,7 @@ export function fitNegbin(m: DesignMatrix, data: FitData, o: NegbinOptions): Neg
   // Profile score in θ = log alpha and its approximate derivative.
   const score = (theta: number): { f: number; df: number; fit: GlmFit } => {
     const a = Math.exp(theta);
-    const fit = fitGlm(m, data, {
+    const fit = fitAt({
       control: o.control,
       fixed: o.fixed,
       start: beta,
@@ -253,7 +275,6 @@ export function fitNegbin(m: DesignMatrix, data: FitData, o: NegbinOptions): Neg
       alpha: a,
       skipCovariance: true,
       stopOnPredicted: true,
-      workspace: o.workspace,
     });
     evals++;
     if (fit.converged) beta = fit.beta;
@@ -263,12 +284,7 @@ export function fitNegbin(m: DesignMatrix, data: FitData, o: NegbinOptions): Neg
   };
 
   // Bracket the root: the score is positive below the maximum and negative above it.
-  let theta = Math.log(
-    Math.min(
-      Math.max(o.startAlpha && o.startAlpha > 0 ? o.startAlpha : momentAlpha(data.y, poissonFit().mu, pw), 1e-4),
-      1e2,
-    ),
-  );
+  let theta = Math.log(Math.min(Math.max(o.startAlpha && o.startAlpha > 0 ? o.startAlpha : momentStart(), 1e-4), 1e2));
   let cur = score(theta);
   let lo = -Infinity,
     hi = Infinity;
@@ -312,9 +328,7 @@ export function fitNegbin(m: DesignMatrix, data: FitData, o: NegbinOptions): Neg
   }
   const alpha = Math.exp(theta);
   // The information matrix at the estimate (a last IRLS fit from the converged point), unless only the likelihood is wanted.
-  const fit = o.likelihoodOnly
-    ? last
-    : fitGlm(m, data, { control: o.control, fixed: o.fixed, start: beta, setup, alpha, workspace: o.workspace });
+  const fit = o.likelihoodOnly ? last : fitAt({ control: o.control, fixed: o.fixed, start: beta, setup, alpha });
   const { h } = alphaDerivatives(data.y, fit.mu, pw, alpha);
   const se = h < 0 ? 1 / Math.sqrt(-h) : null;
   return {
