@@ -78,6 +78,7 @@ export function predictCellsPoisson(
   from = 0,
   to = eta.length,
 ): number {
+  if (pw === null && L.numeric.length <= 2) return predictPoissonFused(L, slotVals, betaS, off, eta, mu, tab, from, to);
   linearPredictorCells(L, slotVals, betaS, off, eta, from, to);
   const cell = L.cell,
     yl = tab.ylogy,
@@ -139,6 +140,8 @@ export function predictCellsNegbin(
   from = 0,
   to = eta.length,
 ): number {
+  if (pw === null && L.numeric.length <= 2)
+    return predictNegbinFused(L, slotVals, betaS, off, eta, mu, alpha, tab, sums, from, to);
   linearPredictorCells(L, slotVals, betaS, off, eta, from, to);
   const cell = L.cell,
     yl = tab.ylogy,
@@ -179,6 +182,137 @@ export function predictCellsNegbin(
       a4 += wi * he[y];
       a5 += wi * res * iq * (1 + 2 * am);
       ll += wi * (lt[y] - r * l + y * (logAlpha + e - l));
+    }
+  }
+  const o = sums.out;
+  o[0] = a1;
+  o[1] = a2;
+  o[2] = a3;
+  o[3] = a4;
+  o[4] = a5;
+  o[5] = ll;
+  return 2 * d;
+}
+
+// The predict passes without prior weights and with at most two numeric
+// slots, eta computed in the same loop as mu and the deviance (no second
+// read of eta): the same sums as the general passes above, which take the
+// rest, and eta to the same bits as linearPredictorCells.
+
+/** The per-cell coefficients of eta for at most two numeric slots (zero where a slot is absent). */
+function fusedCoefficients(L: CellLayout, slotVals: (ScaledValues | null)[], betaS: Float64Array, off: Float64Array) {
+  const { M, cst, coef, raws, cens } = cellCoefficients(L, slotVals, betaS);
+  const C = L.nCells;
+  const k0 = new Float64Array(C),
+    k1 = new Float64Array(C);
+  for (let c = 0; c < C; c++) {
+    if (M > 0) k0[c] = coef[c * M];
+    if (M > 1) k1[c] = coef[c * M + 1];
+  }
+  return {
+    M,
+    cst,
+    k0,
+    k1,
+    r0: M > 0 ? raws[0] : off,
+    c0: M > 0 ? cens[0] : 0,
+    r1: M > 1 ? raws[1] : off,
+    c1: M > 1 ? cens[1] : 0,
+  };
+}
+
+function predictPoissonFused(
+  L: CellLayout,
+  slotVals: (ScaledValues | null)[],
+  betaS: Float64Array,
+  off: Float64Array,
+  eta: Float64Array,
+  mu: Float64Array,
+  tab: PassTables,
+  from: number,
+  to: number,
+): number {
+  const { M, cst, k0, k1, r0, c0, r1, c1 } = fusedCoefficients(L, slotVals, betaS, off);
+  const cell = L.cell,
+    yl = tab.ylogy,
+    cnt = tab.counts;
+  let d = 0;
+  for (let i = from; i < to; i++) {
+    const c = cell[i];
+    if (c < 0) {
+      eta[i] = -Infinity;
+      mu[i] = 0;
+      continue;
+    }
+    let e = off[i] + cst[c];
+    if (M === 1) e += k0[c] * (r0[i] - c0);
+    else if (M === 2) e += k0[c] * (r0[i] - c0) + k1[c] * (r1[i] - c1);
+    eta[i] = e;
+    const mi = Math.exp(e);
+    mu[i] = mi;
+    const y = cnt[i];
+    d += yl[y] - y * e - (y - mi);
+  }
+  return 2 * d;
+}
+
+function predictNegbinFused(
+  L: CellLayout,
+  slotVals: (ScaledValues | null)[],
+  betaS: Float64Array,
+  off: Float64Array,
+  eta: Float64Array,
+  mu: Float64Array,
+  alpha: number,
+  tab: PassTables,
+  sums: AlphaSums,
+  from: number,
+  to: number,
+): number {
+  const { M, cst, k0, k1, r0, c0, r1, c1 } = fusedCoefficients(L, slotVals, betaS, off);
+  const cell = L.cell,
+    yl = tab.ylogy,
+    cnt = tab.counts,
+    nb = tab.negbinDeviance,
+    r = 1 / alpha;
+  const hd = sums.d,
+    he = sums.e,
+    lt = sums.lgammaTerms,
+    want = sums.want,
+    logAlpha = Math.log(alpha);
+  let d = 0,
+    a1 = 0,
+    a2 = 0,
+    a3 = 0,
+    a4 = 0,
+    a5 = 0,
+    ll = 0;
+  for (let i = from; i < to; i++) {
+    const c = cell[i];
+    if (c < 0) {
+      eta[i] = -Infinity;
+      mu[i] = 0;
+      continue;
+    }
+    let e = off[i] + cst[c];
+    if (M === 1) e += k0[c] * (r0[i] - c0);
+    else if (M === 2) e += k0[c] * (r0[i] - c0) + k1[c] * (r1[i] - c1);
+    eta[i] = e;
+    const mi = Math.exp(e);
+    mu[i] = mi;
+    const y = cnt[i];
+    const am = alpha * mi,
+      l = Math.log1p(am);
+    d += yl[y] - y * e - nb[y] + (y + r) * l;
+    if (want && mi > 0) {
+      const iq = 1 / (1 + am),
+        res = (y - mi) * iq;
+      a1 += l - hd[y];
+      a2 += res;
+      a3 += mi * iq;
+      a4 += he[y];
+      a5 += res * iq * (1 + 2 * am);
+      ll += lt[y] - r * l + y * (logAlpha + e - l);
     }
   }
   const o = sums.out;
