@@ -31,11 +31,13 @@ export function fitGlm(m: DesignMatrix, data: FitData, options: FitOptions = {})
 
   const betaS = scaledStart(m, setup, options.start);
   let haveBeta = betaS !== null;
-  if (betaS !== null) {
-    passes.linearPredictor(betaS, eta);
-    for (let i = 0; i < m.n; i++) mu[i] = inFit[i] ? Math.exp(eta[i]) : 0;
-  } else startFromData(data.y, inFit, eta, mu);
-  let devOld = passes.deviance(eta, mu);
+  // From a start: eta, mu and the deviance in one pass (split between threads like every other).
+  let devOld: number;
+  if (betaS !== null) devOld = passes.evaluate(betaS, eta, mu);
+  else {
+    startFromData(data.y, inFit, eta, mu);
+    devOld = passes.deviance(eta, mu);
+  }
   if (!Number.isFinite(devOld) && haveBeta) {
     haveBeta = false;
     startFromData(data.y, inFit, eta, mu);

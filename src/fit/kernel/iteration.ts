@@ -69,7 +69,7 @@ export class IrlsPasses {
   }
 
   /** eta = offset + X·beta' (scaled coordinates), −∞ for rows out of the fit. */
-  linearPredictor(betaS: Float64Array, eta: Float64Array): void {
+  private linearPredictor(betaS: Float64Array, eta: Float64Array): void {
     if (this.cells) linearPredictorCells(this.cells, this.vals, betaS, this.off, eta);
     else linearPredictor(this.compiled!, this.setup.inFit, betaS, this.off, eta);
   }
