@@ -69,6 +69,8 @@ export class ColumnReader {
   private naLengths = 0;
   private naFirst = new Uint8Array(256);
   private fieldStart: number[] = [];
+  /** 1 at the bytes that end an unquoted field's text: the delimiter, CR, LF and the quote. */
+  private readonly stops = new Uint8Array(256);
   private fieldEnd: number[] = [];
   private fieldQuoted: boolean[] = [];
   private decoder = new TextDecoder("utf-8");
@@ -89,6 +91,7 @@ export class ColumnReader {
       if (t.length > 31) this.naLengths = -1;
       if (t.length > 0) this.naFirst[t[0]] = 1;
     }
+    for (const c of [o.delimiter, LF, CR, QUOTE]) this.stops[c] = 1;
   }
 
   get rows(): number {
@@ -154,7 +157,8 @@ export class ColumnReader {
     let pos = 0;
     const fs = this.fieldStart,
       fe = this.fieldEnd,
-      fq = this.fieldQuoted;
+      fq = this.fieldQuoted,
+      stops = this.stops;
     while (pos < n) {
       const recStart = pos;
       const recLine = this.line;
@@ -198,16 +202,13 @@ export class ColumnReader {
               `${this.o.source}, line ${this.line}: text follows a closing quote. Double any quote inside a quoted field ("").`,
             );
         } else {
+          // To the next delimiter, line break or quote: one table lookup per byte.
           let q = p;
-          while (q < n) {
-            const c = b[q];
-            if (c === d || c === LF || c === CR) break;
-            if (c === QUOTE)
-              throw new InputError(
-                `${this.o.source}, line ${this.line}: a quote sits inside an unquoted field. Quote the whole field and double the quote ("").`,
-              );
-            q++;
-          }
+          while (q < n && stops[b[q]] === 0) q++;
+          if (q < n && b[q] === QUOTE)
+            throw new InputError(
+              `${this.o.source}, line ${this.line}: a quote sits inside an unquoted field. Quote the whole field and double the quote ("").`,
+            );
           fs[nf] = p;
           fe[nf] = q;
           fq[nf] = false;
