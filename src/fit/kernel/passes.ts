@@ -78,23 +78,31 @@ export function predictCellsPoisson(
   from = 0,
   to = eta.length,
 ): number {
-  if (pw === null && L.numeric.length <= 2) return predictPoissonFused(L, slotVals, betaS, off, eta, mu, tab, from, to);
-  linearPredictorCells(L, slotVals, betaS, off, eta, from, to);
+  const { M, cst, k0, k1, r0, c0, r1, c1 } = etaInPass(L, slotVals, betaS, off, eta, from, to);
   const cell = L.cell,
     yl = tab.ylogy,
     cnt = tab.counts;
   let d = 0;
   for (let i = from; i < to; i++) {
-    if (cell[i] < 0) {
+    const c = cell[i];
+    if (c < 0) {
+      eta[i] = -Infinity;
       mu[i] = 0;
       continue;
     }
-    const e = eta[i],
-      mi = Math.exp(e);
+    let e: number;
+    if (M < 0) e = eta[i];
+    else {
+      e = off[i] + cst[c];
+      if (M === 1) e += k0[c] * (r0[i] - c0);
+      else if (M === 2) e += k0[c] * (r0[i] - c0) + k1[c] * (r1[i] - c1);
+      eta[i] = e;
+    }
+    const mi = Math.exp(e);
     mu[i] = mi;
     const y = cnt[i];
-    const u = yl[y] - y * e - (y - mi);
-    d += pw === null ? u : pw[i] * u;
+    const wi = pw === null ? 1 : pw[i];
+    d += wi * (yl[y] - y * e - (y - mi));
   }
   return 2 * d;
 }
@@ -140,9 +148,7 @@ export function predictCellsNegbin(
   from = 0,
   to = eta.length,
 ): number {
-  if (pw === null && L.numeric.length <= 2)
-    return predictNegbinFused(L, slotVals, betaS, off, eta, mu, alpha, tab, sums, from, to);
-  linearPredictorCells(L, slotVals, betaS, off, eta, from, to);
+  const { M, cst, k0, k1, r0, c0, r1, c1 } = etaInPass(L, slotVals, betaS, off, eta, from, to);
   const cell = L.cell,
     yl = tab.ylogy,
     cnt = tab.counts,
@@ -161,12 +167,21 @@ export function predictCellsNegbin(
     a5 = 0,
     ll = 0;
   for (let i = from; i < to; i++) {
-    if (cell[i] < 0) {
+    const c = cell[i];
+    if (c < 0) {
+      eta[i] = -Infinity;
       mu[i] = 0;
       continue;
     }
-    const e = eta[i],
-      mi = Math.exp(e);
+    let e: number;
+    if (M < 0) e = eta[i];
+    else {
+      e = off[i] + cst[c];
+      if (M === 1) e += k0[c] * (r0[i] - c0);
+      else if (M === 2) e += k0[c] * (r0[i] - c0) + k1[c] * (r1[i] - c1);
+      eta[i] = e;
+    }
+    const mi = Math.exp(e);
     mu[i] = mi;
     const y = cnt[i];
     const wi = pw === null ? 1 : pw[i];
@@ -194,13 +209,27 @@ export function predictCellsNegbin(
   return 2 * d;
 }
 
-// The predict passes without prior weights and with at most two numeric
-// slots, eta computed in the same loop as mu and the deviance (no second
-// read of eta): the same sums as the general passes above, which take the
-// rest, and eta to the same bits as linearPredictorCells.
+const NONE = new Float64Array(0);
 
-/** The per-cell coefficients of eta for at most two numeric slots (zero where a slot is absent). */
-function fusedCoefficients(L: CellLayout, slotVals: (ScaledValues | null)[], betaS: Float64Array, off: Float64Array) {
+/**
+ * How a predict pass gets eta: for at most two numeric slots, in its own loop
+ * from the per-cell coefficients (zero where a slot is absent), with the same
+ * operations as linearPredictorCells, so the same bits and no second read of
+ * eta; for more (M = −1), linearPredictorCells writes eta first.
+ */
+function etaInPass(
+  L: CellLayout,
+  slotVals: (ScaledValues | null)[],
+  betaS: Float64Array,
+  off: Float64Array,
+  eta: Float64Array,
+  from: number,
+  to: number,
+) {
+  if (L.numeric.length > 2) {
+    linearPredictorCells(L, slotVals, betaS, off, eta, from, to);
+    return { M: -1, cst: NONE, k0: NONE, k1: NONE, r0: off, c0: 0, r1: off, c1: 0 };
+  }
   const { M, cst, coef, raws, cens } = cellCoefficients(L, slotVals, betaS);
   const C = L.nCells;
   const k0 = new Float64Array(C),
@@ -219,110 +248,6 @@ function fusedCoefficients(L: CellLayout, slotVals: (ScaledValues | null)[], bet
     r1: M > 1 ? raws[1] : off,
     c1: M > 1 ? cens[1] : 0,
   };
-}
-
-function predictPoissonFused(
-  L: CellLayout,
-  slotVals: (ScaledValues | null)[],
-  betaS: Float64Array,
-  off: Float64Array,
-  eta: Float64Array,
-  mu: Float64Array,
-  tab: PassTables,
-  from: number,
-  to: number,
-): number {
-  const { M, cst, k0, k1, r0, c0, r1, c1 } = fusedCoefficients(L, slotVals, betaS, off);
-  const cell = L.cell,
-    yl = tab.ylogy,
-    cnt = tab.counts;
-  let d = 0;
-  for (let i = from; i < to; i++) {
-    const c = cell[i];
-    if (c < 0) {
-      eta[i] = -Infinity;
-      mu[i] = 0;
-      continue;
-    }
-    let e = off[i] + cst[c];
-    if (M === 1) e += k0[c] * (r0[i] - c0);
-    else if (M === 2) e += k0[c] * (r0[i] - c0) + k1[c] * (r1[i] - c1);
-    eta[i] = e;
-    const mi = Math.exp(e);
-    mu[i] = mi;
-    const y = cnt[i];
-    d += yl[y] - y * e - (y - mi);
-  }
-  return 2 * d;
-}
-
-function predictNegbinFused(
-  L: CellLayout,
-  slotVals: (ScaledValues | null)[],
-  betaS: Float64Array,
-  off: Float64Array,
-  eta: Float64Array,
-  mu: Float64Array,
-  alpha: number,
-  tab: PassTables,
-  sums: AlphaSums,
-  from: number,
-  to: number,
-): number {
-  const { M, cst, k0, k1, r0, c0, r1, c1 } = fusedCoefficients(L, slotVals, betaS, off);
-  const cell = L.cell,
-    yl = tab.ylogy,
-    cnt = tab.counts,
-    nb = tab.negbinDeviance,
-    r = 1 / alpha;
-  const hd = sums.d,
-    he = sums.e,
-    lt = sums.lgammaTerms,
-    want = sums.want,
-    logAlpha = Math.log(alpha);
-  let d = 0,
-    a1 = 0,
-    a2 = 0,
-    a3 = 0,
-    a4 = 0,
-    a5 = 0,
-    ll = 0;
-  for (let i = from; i < to; i++) {
-    const c = cell[i];
-    if (c < 0) {
-      eta[i] = -Infinity;
-      mu[i] = 0;
-      continue;
-    }
-    let e = off[i] + cst[c];
-    if (M === 1) e += k0[c] * (r0[i] - c0);
-    else if (M === 2) e += k0[c] * (r0[i] - c0) + k1[c] * (r1[i] - c1);
-    eta[i] = e;
-    const mi = Math.exp(e);
-    mu[i] = mi;
-    const y = cnt[i];
-    const am = alpha * mi,
-      l = Math.log1p(am);
-    d += yl[y] - y * e - nb[y] + (y + r) * l;
-    if (want && mi > 0) {
-      const iq = 1 / (1 + am),
-        res = (y - mi) * iq;
-      a1 += l - hd[y];
-      a2 += res;
-      a3 += mi * iq;
-      a4 += he[y];
-      a5 += res * iq * (1 + 2 * am);
-      ll += lt[y] - r * l + y * (logAlpha + e - l);
-    }
-  }
-  const o = sums.out;
-  o[0] = a1;
-  o[1] = a2;
-  o[2] = a3;
-  o[3] = a4;
-  o[4] = a5;
-  o[5] = ll;
-  return 2 * d;
 }
 
 /** eta = offset + X·beta' (scaled coordinates) over the rows in the fit. */

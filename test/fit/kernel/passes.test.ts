@@ -1,14 +1,19 @@
-// The passes written out for data without prior weights and with at most two
-// numeric slots (the fused predict passes in passes.ts, the working cell sums
-// in cross-products.ts) against the general loops they stand in for: the same
-// operations in the same order, so the same bits. The general loops are
-// reached with prior weights of exactly 1 (w·x = x) and with the working
-// weights and responses given as arrays.
+// The passes written out for the common case against the general loops they
+// stand in for: the same operations in the same order, so the same bits. The
+// predict passes compute eta in their own loop for at most two numeric slots
+// (against linearPredictorCells, and with prior weights of exactly 1, w·x = x);
+// the working cell sums run a loop per slot count without prior weights
+// (against the general loop over stored weights and responses).
 import { test } from "node:test";
 import assert from "node:assert/strict";
 import { CountTable } from "../../../src/fit/count-table.js";
 import { cellSums } from "../../../src/fit/kernel/cross-products.js";
-import { alphaSumsAt, predictCellsNegbin, predictCellsPoisson } from "../../../src/fit/kernel/passes.js";
+import {
+  alphaSumsAt,
+  linearPredictorCells,
+  predictCellsNegbin,
+  predictCellsPoisson,
+} from "../../../src/fit/kernel/passes.js";
 import { cellsOf, prepareFit, slotValuesOf } from "../../../src/fit/kernel/setup.js";
 import { fitCsv, rng, simulateRates } from "../../helpers.js";
 
@@ -28,8 +33,10 @@ for (const [model, slots] of [
   const betaS = Float64Array.from({ length: setup.order.length }, (_, k) => 0.3 - 0.1 * k);
   const ones = new Float64Array(n).fill(1);
 
-  test(`${model}: ${slots} numeric slots, fused predict passes equal the general ones to the last bit`, () => {
+  test(`${model}: ${slots} numeric slots, the predict passes' eta, mu, deviance and alpha sums are the general loops' to the last bit`, () => {
     assert.equal(L.numeric.length, slots);
+    const written = new Float64Array(n);
+    linearPredictorCells(L, vals, betaS, design.offset, written);
     for (const alpha of [0, 0.4]) {
       const table = CountTable.of(design.y, alpha)!;
       const run = (pw: Float64Array | null) => {
@@ -42,7 +49,9 @@ for (const [model, slots] of [
             : predictCellsNegbin(L, vals, betaS, design.offset, eta, mu, pw, alpha, table, sums);
         return { d, eta: bits(eta), mu: bits(mu), out: bits(sums.out) };
       };
-      assert.deepEqual(run(null), run(ones), `alpha ${alpha}`);
+      const plain = run(null);
+      assert.deepEqual(plain, run(ones), `alpha ${alpha}`);
+      assert.equal(plain.eta, bits(written), "eta as linearPredictorCells writes it");
     }
   });
 
