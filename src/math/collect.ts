@@ -12,7 +12,11 @@ import { SHARED_MIN_ROWS } from "./shared-arrays.js";
 
 let gc: (() => void) | null | undefined;
 
-/** A full collection of this thread's heap, where V8 lets a program ask for one (else nothing). */
+/**
+ * A full collection of this thread's heap, where V8 lets a program ask for one
+ * (else nothing). The V8 flag it sets only puts a gc function into contexts
+ * created after it, as the one made here; the program's own are unchanged.
+ */
 export function collectGarbage(): void {
   if (gc === undefined) {
     gc = null;
