@@ -8,6 +8,7 @@ import { FitError } from "../../errors.js";
 import { cholesky, choleskyInverse, choleskySolve, congruence, type SymMatrix } from "../../math/linalg.js";
 import { transformMatrix } from "./information.js";
 import { sharedFloat64 } from "../../math/shared-arrays.js";
+import { countIndex, maxCount } from "../count-table.js";
 import { IrlsPasses } from "./iteration.js";
 import { passSplit } from "./pass-team.js";
 import { prepareFit } from "./setup.js";
@@ -216,8 +217,16 @@ function scaledStart(m: DesignMatrix, setup: FitSetup, start: Float64Array | nul
   return betaS;
 }
 
-/** The usual start from the data: mu = y + 0.1, eta = log mu (rows out of the fit: mu = 0, eta = −∞). */
+/**
+ * The usual start from the data: mu = y + 0.1, eta = log mu (rows out of the
+ * fit: mu = 0, eta = −∞); for whole counts, log(k + 0.1) is taken once per
+ * count value (the same numbers as per row).
+ */
 function startFromData(y: Float64Array, inFit: Uint8Array, eta: Float64Array, mu: Float64Array): void {
+  const counts = countIndex(y);
+  const top = counts === null ? 0 : maxCount(y);
+  const logs =
+    counts === null || top > y.length ? null : Float64Array.from({ length: top + 1 }, (_, k) => Math.log(k + 0.1));
   for (let i = 0; i < y.length; i++) {
     if (!inFit[i]) {
       mu[i] = 0;
@@ -225,7 +234,7 @@ function startFromData(y: Float64Array, inFit: Uint8Array, eta: Float64Array, mu
       continue;
     }
     mu[i] = y[i] + 0.1;
-    eta[i] = Math.log(mu[i]);
+    eta[i] = logs === null ? Math.log(mu[i]) : logs[counts![i]];
   }
 }
 
