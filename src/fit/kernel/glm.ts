@@ -7,10 +7,9 @@ import { addFixedOffset } from "../../design/matrix-columns.js";
 import { FitError } from "../../errors.js";
 import { cholesky, choleskyInverse, choleskySolve, congruence, type SymMatrix } from "../../math/linalg.js";
 import { transformMatrix } from "./information.js";
-import { sharedFloat64 } from "../../math/shared-arrays.js";
 import { countIndex, maxCount } from "../count-table.js";
 import { IrlsPasses } from "./iteration.js";
-import { passSplit } from "./pass-team.js";
+import { passRowArray } from "./pass-team.js";
 import { prepareFit } from "./setup.js";
 import { DEFAULT_CONTROL, type FitData, type FitOptions, type FitSetup, type GlmFit, type Workspace } from "./types.js";
 
@@ -169,26 +168,17 @@ function offsetWithFixed(
   ws: Workspace | undefined,
 ): Float64Array {
   if (!fixed || ![...fixed.values()].some((v) => v !== 0)) return offset;
-  const off = ws?.off?.length === offset.length ? ws.off : passArray(offset.length);
+  const off = ws?.off?.length === offset.length ? ws.off : passRowArray(offset.length);
   off.set(offset);
   addFixedOffset(m, fixed, off);
   if (ws) ws.off = off;
   return off;
 }
 
-/**
- * A row-length array a fit rewrites: in shared memory when its passes are
- * split, so that the helper thread reads it, and writes its half of eta and mu,
- * in place (never a copy, which would go stale when the array is rewritten).
- */
-function passArray(n: number): Float64Array {
-  return passSplit(n) > 0 ? sharedFloat64(n) : new Float64Array(n);
-}
-
 /** eta and mu arrays of the rows' length, taken from the workspace when it has them (and left there). */
 function workspaceArrays(n: number, ws: Workspace | undefined): { eta: Float64Array; mu: Float64Array } {
-  const eta = ws?.eta?.length === n ? ws.eta : passArray(n);
-  const mu = ws?.mu?.length === n ? ws.mu : passArray(n);
+  const eta = ws?.eta?.length === n ? ws.eta : passRowArray(n);
+  const mu = ws?.mu?.length === n ? ws.mu : passRowArray(n);
   if (ws) {
     ws.eta = eta;
     ws.mu = mu;

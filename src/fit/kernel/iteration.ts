@@ -30,6 +30,9 @@ import { passSplit, releasePassContext, splitPass } from "./pass-team.js";
 import { cellsOf, compiledOf, slotValuesOf } from "./setup.js";
 import type { FitData, FitSetup } from "./types.js";
 
+/** The Poisson's stand-in for the NB2-only table in a pass message. */
+const NO_TABLE = new Float64Array(0);
+
 export class IrlsPasses {
   alpha: number;
   /** True when alpha's score sums come out of the same pass as the deviance (joint NB2 estimation on cells). */
@@ -142,11 +145,10 @@ export class IrlsPasses {
     const t = this.table!,
       s = this.sums,
       alpha = this.alpha;
-    const none = new Float64Array(0);
     return {
       alpha,
       ylogy: t.ylogy,
-      negbinDeviance: alpha === 0 ? none : t.negbinDeviance,
+      negbinDeviance: alpha === 0 ? NO_TABLE : t.negbinDeviance,
       want: s.want,
       d: s.d,
       e: s.e,

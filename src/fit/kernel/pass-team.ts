@@ -8,7 +8,7 @@
 import { availableParallelism } from "node:os";
 import { env } from "node:process";
 import { isMainThread, MessageChannel, type MessagePort, receiveMessageOnPort, Worker } from "node:worker_threads";
-import { isShared, SHARED_MIN_ROWS } from "../../math/shared-arrays.js";
+import { isShared, SHARED_MIN_ROWS, sharedFloat64 } from "../../math/shared-arrays.js";
 import { type PassContext, type PassMessage, type PassReply, runPass } from "./pass-range.js";
 
 /**
@@ -22,6 +22,16 @@ export const PASS_SPLIT_ROWS = SHARED_MIN_ROWS;
 export function passSplit(n: number): number {
   const min = Number(env.TALLYFIT_PASS_SPLIT_ROWS) || PASS_SPLIT_ROWS;
   return n >= min ? n >>> 1 : 0;
+}
+
+/**
+ * A row-length array that a fit rewrites and its passes read: in shared memory
+ * when passes over n rows are split, so that the helper thread reads it, and
+ * writes its half of eta and mu, in place (never a copy, which would go stale
+ * when the array is rewritten).
+ */
+export function passRowArray(n: number): Float64Array {
+  return passSplit(n) > 0 ? sharedFloat64(n) : new Float64Array(n);
 }
 
 let suspended = 0;
