@@ -7,7 +7,7 @@ import { createGunzip } from "node:zlib";
 import { InputError } from "../errors.js";
 import { DEFAULT_NA, defaultDelimiter } from "./dialect.js";
 import { unreadable } from "./source-bytes.js";
-import { readFileBytes, type SplitMode, splitWanted } from "./split-read.js";
+import { readFileBytes } from "./file-chunks.js";
 import type { Table } from "./table.js";
 import { ColumnReader } from "./tokenizer.js";
 
@@ -87,20 +87,15 @@ export async function loadTableStream(
   options: Omit<LoadOptions, "source"> & {
     /** The SHA-256 of the bytes is wanted (a model file records it); without it the digest is "" and costs nothing. */
     digest?: boolean;
-    /** Two threads for a large file: "auto" (the default) decides by size, cores and TALLYFIT_WORKERS. */
-    split?: SplitMode;
   },
   progress?: (bytes: number, rows: number) => void,
 ): Promise<{
   table: Table;
   sha256: string;
-  /** The file's second half was read on a worker thread. */
-  twoThreads: boolean;
 }> {
   const name = path === "-" ? "<stdin>" : path;
   const reader = makeReader({ ...options, source: name });
   const hash = createHash("sha256");
-  let twoThreads = false;
   let any = false,
     nonBlank = false,
     gzip = false;
@@ -121,9 +116,7 @@ export async function loadTableStream(
     } else {
       const size = (await stat(path)).size;
       reader.expectedBytes = size;
-      // A large file is read on two threads, except when the digest (one pass over every byte) or the records are wanted.
-      const split = !digest && !options.keepRecords && splitWanted(size, options.split);
-      twoThreads = await readFileBytes(path, size, reader, consume, split);
+      await readFileBytes(path, size, reader, consume);
     }
   } catch (e) {
     if (e instanceof InputError) throw e;
@@ -135,7 +128,7 @@ export async function loadTableStream(
     throw new InputError(`${name}: the file is empty; expected a header row and at least one data row.`);
   const table = reader.finish();
   if (gzip) table.origin = { engine: "csv.gz", queries: 0, rows_transferred: table.nRows };
-  return { table, sha256: digest ? hash.digest("hex") : "", twoThreads };
+  return { table, sha256: digest ? hash.digest("hex") : "" };
 }
 
 /** Whether a file starts with the gzip magic bytes 1f 8b (whatever its name). */

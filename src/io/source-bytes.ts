@@ -41,6 +41,36 @@ export function unreadable(name: string, e: unknown): InputError {
   return new InputError(`${name}: cannot read the file (${why}).`);
 }
 
+/**
+ * Refuse bytes [from, upto) of a reader's buffer when they hold a NUL byte
+ * (any, up to the buffer's end) or are not UTF-8, naming the line (`line` is
+ * that of buf[0]) and the input offset (`offset` is that of buf[0]).
+ */
+export function checkTextBytes(
+  buf: Uint8Array,
+  from: number,
+  upto: number,
+  at: { source: string; line: number; offset: number },
+): void {
+  const lineOf = (k: number) => {
+    let line = at.line;
+    for (let j = 0; j < k; j++) if (buf[j] === 0x0a) line++;
+    return line;
+  };
+  const nul = buf.subarray(from).indexOf(0);
+  if (nul >= 0)
+    throw new InputError(
+      `${at.source}, line ${lineOf(from + nul)}: the file holds a NUL byte (offset ${at.offset + from + nul}), so it is not a text file; export the data as CSV text in UTF-8.`,
+    );
+  const bad = firstInvalidUtf8(buf.subarray(from, upto));
+  if (bad >= 0) {
+    const k = from + bad;
+    throw new InputError(
+      `${at.source}, line ${lineOf(k)}: the file is not valid UTF-8 (byte 0x${buf[k].toString(16).padStart(2, "0")} at offset ${at.offset + k}). Save it as UTF-8 (for example with iconv -f latin1 -t utf-8) and run again.`,
+    );
+  }
+}
+
 /** Byte offset of the first invalid UTF-8 sequence, or −1 (RFC 3629 §4); Node's native check first, the scan below only to locate a fault. */
 export function firstInvalidUtf8(b: Uint8Array): number {
   if (isUtf8(b)) return -1;

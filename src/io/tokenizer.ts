@@ -5,31 +5,18 @@
 // a hash of their bytes. csv-parse remains the reference implementation in the
 // tests (test/io-tokenizer.test.ts compares the two on awkward files).
 import { InputError } from "../errors.js";
-import { rowArray } from "../math/shared-arrays.js";
+import { isShared } from "../math/shared-arrays.js";
 import { checkHeader, type Column, type Table } from "./table.js";
-import { firstInvalidUtf8 } from "./source-bytes.js";
+import { checkTextBytes } from "./source-bytes.js";
 import { checkTextKind, READER_LIMITS } from "./text-kind.js";
-import { decimalBytes, decimalText, guessDelimiter, showDelimiter } from "./dialect.js";
+import { type ColumnBuilder, growColumn } from "./column-builder.js";
+import { codeOfBytes, codeOfString, emptyLevelIndex } from "./level-index.js";
+import { type PlainDialect, type PlainPass, plainRecords } from "./plain-records.js";
+import { decimalBytesInto, decimalText, guessDelimiter, showDelimiter } from "./dialect.js";
 
 const QUOTE = 0x22,
   LF = 0x0a,
   CR = 0x0d;
-
-interface Builder {
-  name: string;
-  keep: boolean;
-  forced: boolean;
-  numeric: boolean;
-  values: Float64Array;
-  codes: Int32Array;
-  levels: string[];
-  /** Level lookup: hash of the bytes → codes with that hash. */
-  byHash: Map<number, number[]>;
-  /** Level lookup for levels of at most 6 bytes: the bytes packed into one number (exact) → code. */
-  byPacked: Map<number, number>;
-  levelBytes: Uint8Array[];
-  firstText: { row: number; value: string } | null;
-}
 
 export interface StreamOptions {
   source: string;
@@ -43,36 +30,24 @@ export interface StreamOptions {
   keepRecords?: boolean;
 }
 
-function copyBytes(b: Uint8Array): Uint8Array {
-  const c = new Uint8Array(b.length);
-  c.set(b);
-  return c;
-}
-
-function grow<T extends Float64Array | Int32Array>(a: T, need: number, estimate = 0): T {
-  if (need <= a.length) return a;
-  const size = estimate >= need ? estimate : Math.max(need, a.length * 2);
-  const next = rowArray(a.constructor as Parameters<typeof rowArray<T>>[0], size);
-  next.set(a);
-  return next;
-}
-
 /** Incremental reader: feed() chunks of bytes, then finish(). */
 export class ColumnReader {
   private header: string[] | null = null;
-  private builders: Builder[] = [];
+  private builders: ColumnBuilder[] = [];
   private nRows = 0;
   private line = 1;
   private carry: Uint8Array | null = null;
+  private joined = new Uint8Array(0);
   private naBytes: Uint8Array[];
   /** Bit k set: some missing-value token has k bytes (−1: one is longer than 31). */
   private naLengths = 0;
   private naFirst = new Uint8Array(256);
-  private fieldStart: number[] = [];
+  private fieldStart = new Int32Array(64);
   /** 1 at the bytes that end an unquoted field's text: the delimiter, CR, LF and the quote. */
   private readonly stops = new Uint8Array(256);
-  private fieldEnd: number[] = [];
-  private fieldQuoted: boolean[] = [];
+  private fieldEnd = new Int32Array(64);
+  /** 1: the field was quoted. */
+  private fieldQuoted = new Uint8Array(64);
   private decoder = new TextDecoder("utf-8");
   /** Bytes at the start of the carried tail already checked as UTF-8. */
   private validated = 0;
@@ -81,6 +56,16 @@ export class ColumnReader {
   private readonly keptRecords: string[][] = [];
   /** The input's size in bytes when known (a file): columns are then sized from the rows seen so far, not by doubling. */
   expectedBytes = 0;
+  /** Told of the column arrays in shared memory made for one record (all columns grow at the same row): prefault.ts. */
+  onColumnArrays: ((arrays: (Float64Array | Int32Array)[]) => void) | null = null;
+  private fresh: (Float64Array | Int32Array)[] = [];
+  /** The fast path's view of the dialect; null when records are kept as text (the fast path makes none). */
+  private readonly plain: PlainDialect | null;
+  private readonly plainOut: PlainPass = { at: 0, records: 0 };
+  /** Rows every kept column has room for, as of the last look. */
+  private plainCap = 0;
+  private plainMisses = 0;
+  private plainSkip = 0;
   /** Input offset of the buffer being tokenized. */
   private bufferBase = 0;
 
@@ -92,6 +77,15 @@ export class ColumnReader {
       if (t.length > 0) this.naFirst[t[0]] = 1;
     }
     for (const c of [o.delimiter, LF, CR, QUOTE]) this.stops[c] = 1;
+    this.plain = o.keepRecords
+      ? null
+      : {
+          delimiter: o.delimiter,
+          mark: o.decimal ?? 0x2e,
+          stops: this.stops,
+          naLengths: this.naLengths,
+          naFirst: this.naFirst,
+        };
   }
 
   get rows(): number {
@@ -104,10 +98,18 @@ export class ColumnReader {
     if (this.bytesRead === chunk.length) checkTextKind(chunk, this.o.source);
     let buf: Uint8Array;
     if (this.carry?.length) {
-      buf = new Uint8Array(this.carry.length + chunk.length);
+      // The carried tail and the chunk side by side in one buffer kept for the next chunk: a fresh buffer per
+      // chunk costs its pages' first touch, slow on virtual machines (DEVELOPERS.md, "Speed and memory").
+      const need = this.carry.length + chunk.length;
+      if (this.joined.length < need) this.joined = new Uint8Array(need + (1 << 16));
+      buf = this.joined.subarray(0, need);
       buf.set(this.carry);
       buf.set(chunk, this.carry.length);
-    } else buf = chunk;
+    } else
+      buf =
+        Object.getPrototypeOf(chunk) === Uint8Array.prototype
+          ? chunk
+          : new Uint8Array(chunk.buffer, chunk.byteOffset, chunk.length);
     if (
       this.header === null &&
       this.bytesRead === chunk.length &&
@@ -122,24 +124,7 @@ export class ColumnReader {
     if (!last) {
       upto = buf.lastIndexOf(LF) + 1;
     }
-    const nul = buf.subarray(this.validated).indexOf(0);
-    if (nul >= 0) {
-      const at = this.validated + nul;
-      let line = this.line;
-      for (let k = 0; k < at; k++) if (buf[k] === LF) line++;
-      throw new InputError(
-        `${this.o.source}, line ${line}: the file holds a NUL byte (offset ${this.bufferBase + at}), so it is not a text file; export the data as CSV text in UTF-8.`,
-      );
-    }
-    const bad = firstInvalidUtf8(buf.subarray(this.validated, upto));
-    if (bad >= 0) {
-      const at = this.validated + bad;
-      let line = this.line;
-      for (let k = 0; k < at; k++) if (buf[k] === LF) line++;
-      throw new InputError(
-        `${this.o.source}, line ${line}: the file is not valid UTF-8 (byte 0x${buf[at].toString(16).padStart(2, "0")} at offset ${this.bytesRead - chunk.length - (this.carry?.length ?? 0) + at}). Save it as UTF-8 (for example with iconv -f latin1 -t utf-8) and run again.`,
-      );
-    }
+    checkTextBytes(buf, this.validated, upto, { source: this.o.source, line: this.line, offset: this.bufferBase });
     const consumed = this.records(buf, last);
     if (buf.length - consumed > READER_LIMITS.lineBytes)
       throw new InputError(
@@ -147,7 +132,7 @@ export class ColumnReader {
       );
     this.validated = Math.max(0, upto - consumed);
     // Copies, never views: the caller may refill its buffer.
-    this.carry = consumed < buf.length ? copyBytes(buf.subarray(consumed)) : null;
+    this.carry = consumed < buf.length ? new Uint8Array(buf.subarray(consumed)) : null;
   }
 
   /** Tokenize records in buf; returns the offset after the last complete record. */
@@ -155,11 +140,15 @@ export class ColumnReader {
     const d = this.o.delimiter;
     const n = b.length;
     let pos = 0;
-    const fs = this.fieldStart,
+    let fs = this.fieldStart,
       fe = this.fieldEnd,
-      fq = this.fieldQuoted,
-      stops = this.stops;
+      fq = this.fieldQuoted;
+    const stops = this.stops;
     while (pos < n) {
+      if (this.plain && this.header !== null && this.plainSkip-- <= 0) {
+        pos = this.plainPass(b, pos);
+        if (pos >= n) break;
+      }
       const recStart = pos;
       const recLine = this.line;
       let nf = 0;
@@ -167,6 +156,12 @@ export class ColumnReader {
       let complete = false;
       for (;;) {
         // One field.
+        if (nf === fs.length) {
+          this.moreFields();
+          fs = this.fieldStart;
+          fe = this.fieldEnd;
+          fq = this.fieldQuoted;
+        }
         if (p < n && b[p] === QUOTE) {
           let q = p + 1;
           let closed = false;
@@ -194,7 +189,7 @@ export class ColumnReader {
           }
           fs[nf] = p + 1;
           fe[nf] = q;
-          fq[nf] = true;
+          fq[nf] = 1;
           nf++;
           p = q + 1;
           if (p < n && b[p] !== d && b[p] !== LF && b[p] !== CR)
@@ -211,7 +206,7 @@ export class ColumnReader {
             );
           fs[nf] = p;
           fe[nf] = q;
-          fq[nf] = false;
+          fq[nf] = 0;
           nf++;
           p = q;
         }
@@ -249,6 +244,41 @@ export class ColumnReader {
     return n;
   }
 
+  /**
+   * Plain records from pos on the fast path (plain-records.ts); returns where
+   * it stopped. After a pass that read nothing, the general path reads the
+   * next 1, 2, 4, … up to 1024 records before the fast path tries again, so a
+   * file of records that are seldom plain costs little more than before.
+   */
+  private plainPass(b: Uint8Array, pos: number): number {
+    if (this.nRows >= this.plainCap) {
+      let cap = Infinity;
+      for (const bd of this.builders) if (bd.keep) cap = Math.min(cap, bd.numeric ? bd.values.length : bd.codes.length);
+      this.plainCap = cap;
+    }
+    const pass = this.plainOut;
+    plainRecords(this.plain!, this.builders, b, pos, this.nRows, this.plainCap, pass);
+    this.nRows += pass.records;
+    this.line += pass.records;
+    this.plainMisses = pass.records > 0 ? 0 : Math.min(this.plainMisses * 2 + 1, 1024);
+    this.plainSkip = this.plainMisses;
+    return pass.at;
+  }
+
+  /** Room for twice as many fields in a record. */
+  private moreFields(): void {
+    const n = this.fieldStart.length * 2;
+    const fs = new Int32Array(n),
+      fe = new Int32Array(n),
+      fq = new Uint8Array(n);
+    fs.set(this.fieldStart);
+    fe.set(this.fieldEnd);
+    fq.set(this.fieldQuoted);
+    this.fieldStart = fs;
+    this.fieldEnd = fe;
+    this.fieldQuoted = fq;
+  }
+
   private text(b: Uint8Array, s: number, e: number, quoted: boolean): string {
     const t = this.decoder.decode(b.subarray(s, e));
     return quoted ? t.replace(/""/g, '"') : t;
@@ -264,7 +294,7 @@ export class ColumnReader {
           `${this.o.source}, row 1: the header has ${nf} columns; tallyfit reads at most ${READER_LIMITS.columns}.`,
         );
       const header: string[] = [];
-      for (let j = 0; j < nf; j++) header.push(this.text(b, fs[j], fe[j], fq[j]).trim());
+      for (let j = 0; j < nf; j++) header.push(this.text(b, fs[j], fe[j], fq[j] === 1).trim());
       this.header = header;
       checkHeader(header, this.o.source, (m) => new InputError(m));
       this.builders = header.map((h) => {
@@ -277,10 +307,7 @@ export class ColumnReader {
           numeric: !forced,
           values: new Float64Array(keep ? 1024 : 0),
           codes: new Int32Array(keep && forced ? 1024 : 0),
-          levels: [],
-          byHash: new Map(),
-          byPacked: new Map(),
-          levelBytes: [],
+          index: emptyLevelIndex(),
           firstText: null,
         };
       });
@@ -303,42 +330,61 @@ export class ColumnReader {
     const i = this.nRows;
     if (this.o.keepRecords) {
       const rec: string[] = new Array(nf);
-      for (let j = 0; j < nf; j++) rec[j] = this.text(b, fs[j], fe[j], fq[j]);
+      for (let j = 0; j < nf; j++) rec[j] = this.text(b, fs[j], fe[j], fq[j] === 1);
       this.keptRecords.push(rec);
     }
+    const builders = this.builders,
+      naLengths = this.naLengths,
+      mark = this.o.decimal ?? 0x2e;
     for (let j = 0; j < nf; j++) {
-      const bd = this.builders[j];
+      const bd = builders[j];
       if (!bd.keep) continue;
       let s = fs[j],
         e = fe[j];
       // Trim spaces and tabs.
       while (s < e && (b[s] === 0x20 || b[s] === 0x09)) s++;
       while (e > s && (b[e - 1] === 0x20 || b[e - 1] === 0x09)) e--;
-      const missing = this.isNa(b, s, e);
+      // Most fields cannot be a missing-value token: no token has this length, or starts with this byte.
+      const len = e - s;
+      const missing =
+        len > 0 && naLengths !== -1 && (len > 31 || !(naLengths & (1 << len)) || !this.naFirst[b[s]])
+          ? false
+          : this.isNa(b, s, e);
       if (bd.numeric) {
-        if (bd.values.length <= i) bd.values = grow(bd.values, i + 1, this.rowEstimate(fs[0]));
+        if (bd.values.length <= i) bd.values = this.grown(bd.values, i + 1, fs[0]);
         if (missing) {
           bd.values[i] = NaN;
           continue;
         }
-        const v = fq[j]
-          ? decimalText(this.text(b, s, e, true).trim(), this.o.decimal ?? 0x2e)
-          : decimalBytes(b, s, e, this.o.decimal ?? 0x2e);
-        if (!Number.isNaN(v)) {
-          bd.values[i] = v;
-          continue;
-        }
-        bd.firstText = { row, value: this.text(b, s, e, fq[j]) };
+        if (fq[j]) {
+          const v = decimalText(this.text(b, s, e, true).trim(), this.o.decimal ?? 0x2e);
+          if (!Number.isNaN(v)) {
+            bd.values[i] = v;
+            continue;
+          }
+        } else if (decimalBytesInto(b, s, e, mark, bd.values, i)) continue;
+        bd.firstText = { row, value: this.text(b, s, e, fq[j] === 1) };
         this.demote(bd, i);
       }
-      if (bd.codes.length <= i) bd.codes = grow(bd.codes, i + 1, this.rowEstimate(fs[0]));
+      if (bd.codes.length <= i) bd.codes = this.grown(bd.codes, i + 1, fs[0]);
       bd.codes[i] = missing
         ? -1
         : fq[j]
-          ? this.codeOfString(bd, this.text(b, s, e, true).trim())
-          : this.codeOfBytes(bd, b, s, e);
+          ? codeOfString(bd.index, this.text(b, s, e, true).trim())
+          : codeOfBytes(bd.index, b, s, e);
     }
     this.nRows++;
+    if (this.fresh.length > 0) {
+      this.onColumnArrays!(this.fresh);
+      this.fresh = [];
+    }
+  }
+
+  /** A column array grown to hold row need − 1, sized from the rows expected; `at` is the current record's offset. */
+  private grown<T extends Float64Array | Int32Array>(a: T, need: number, at: number): T {
+    const next = growColumn(a, need, this.rowEstimate(at));
+    if (this.onColumnArrays && isShared(next)) this.fresh.push(next);
+    return next;
   }
 
   /** Rows the whole input will hold, from the bytes per row so far (0: unknown yet); `at` is the current record's offset in the buffer. */
@@ -348,11 +394,9 @@ export class ColumnReader {
     return Math.ceil((this.expectedBytes / done) * this.nRows * 1.02) + 1024;
   }
 
+  /** Whether bytes [s, e) are a missing-value token (record() first rules most fields out by length and first byte). */
   private isNa(b: Uint8Array, s: number, e: number): boolean {
     const len = e - s;
-    // Most fields cannot be a missing-value token: no token has this length, or starts with this byte.
-    if (len > 0 && this.naLengths !== -1 && (len > 31 || !(this.naLengths & (1 << len)) || !this.naFirst[b[s]]))
-      return false;
     for (const t of this.naBytes) {
       if (t.length !== len) continue;
       let k = 0;
@@ -362,94 +406,13 @@ export class ColumnReader {
     return false;
   }
 
-  private codeOfBytes(bd: Builder, b: Uint8Array, s: number, e: number): number {
-    if (e - s <= 6) {
-      // Short levels (ward codes, sexes, years): the bytes and the length are the key.
-      let key = e - s;
-      for (let k = s; k < e; k++) key = key * 256 + b[k];
-      const code = bd.byPacked.get(key);
-      if (code !== undefined) return code;
-      const fresh = this.newLevel(bd, b, s, e);
-      bd.byPacked.set(key, fresh);
-      return fresh;
-    }
-    let h = 0x811c9dc5;
-    for (let k = s; k < e; k++) h = Math.imul(h ^ b[k], 0x01000193);
-    const list = bd.byHash.get(h);
-    if (list)
-      for (const code of list) {
-        const lb = bd.levelBytes[code];
-        if (lb.length !== e - s) continue;
-        let k = 0;
-        while (k < lb.length && lb[k] === b[s + k]) k++;
-        if (k === lb.length) return code;
-      }
-    const code = this.newLevel(bd, b, s, e);
-    if (list) list.push(code);
-    else bd.byHash.set(h, [code]);
-    return code;
-  }
-
-  private newLevel(bd: Builder, b: Uint8Array, s: number, e: number): number {
-    const code = bd.levels.length;
-    bd.levels.push(this.decoder.decode(b.subarray(s, e)));
-    bd.levelBytes.push(copyBytes(b.subarray(s, e)));
-    return code;
-  }
-
-  private codeOfString(bd: Builder, t: string): number {
-    const bytes = new TextEncoder().encode(t);
-    return this.codeOfBytes(bd, bytes, 0, bytes.length);
-  }
-
-  private demote(bd: Builder, upto: number): void {
+  private demote(bd: ColumnBuilder, upto: number): void {
     bd.numeric = false;
     bd.codes = new Int32Array(Math.max(16, bd.values.length));
     for (let i = 0; i < upto; i++) {
       const v = bd.values[i];
-      bd.codes[i] = Number.isNaN(v) ? -1 : this.codeOfString(bd, String(v));
+      bd.codes[i] = Number.isNaN(v) ? -1 : codeOfString(bd.index, String(v));
     }
-  }
-
-  /** The options this reader was made with (a second reader of the same input needs them). */
-  get streamOptions(): StreamOptions {
-    return this.o;
-  }
-
-  /**
-   * Append the rows another reader read from the rest of the same input, with
-   * the same header (split-read.ts). Level codes are remapped so that levels
-   * stay in order of first appearance over the whole input. Returns false,
-   * changing nothing, when a column is numeric in one part and a factor in the
-   * other, or when this reader holds an unfinished record.
-   */
-  appendPart(part: Table): boolean {
-    if (this.header === null || this.carry?.length) return false;
-    for (const bd of this.builders) {
-      const c = part.columns.get(bd.name);
-      if (bd.keep && (!c || (c.kind === "numeric") !== bd.numeric)) return false;
-    }
-    const n0 = this.nRows,
-      m = part.nRows;
-    for (const bd of this.builders) {
-      if (!bd.keep) continue;
-      const c = part.columns.get(bd.name)!;
-      if (c.kind === "numeric") {
-        bd.values = grow(bd.values, n0 + m);
-        bd.values.set(c.values.subarray(0, m), n0);
-        continue;
-      }
-      const code = Int32Array.from(c.levels, (level) => this.codeOfString(bd, level));
-      bd.codes = grow(bd.codes, n0 + m);
-      const from = c.codes,
-        to = bd.codes;
-      for (let i = 0; i < m; i++) {
-        const k = from[i];
-        to[n0 + i] = k < 0 ? -1 : code[k];
-      }
-    }
-    this.nRows = n0 + m;
-    return true;
   }
 
   finish(): Table {
@@ -459,6 +422,7 @@ export class ColumnReader {
       this.bytesRead -= rest.length;
       this.feed(rest, true);
     }
+    this.joined = new Uint8Array(0);
     const source = this.o.source;
     if (this.header === null)
       throw new InputError(`${source}: the file is empty; expected a header row and at least one data row.`);
@@ -476,7 +440,7 @@ export class ColumnReader {
           kind: "factor",
           name: bd.name,
           codes: fit(bd.codes),
-          levels: bd.levels,
+          levels: bd.index.levels,
           reason: bd.forced ? { forced: true } : { forced: false, row: bd.firstText!.row, value: bd.firstText!.value },
         });
     }

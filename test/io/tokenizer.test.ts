@@ -114,3 +114,13 @@ test("chunks fed from one refilled buffer (as files are read) give the same tabl
     assert.deepEqual(snapshot(r.finish()), whole, `chunks of ${size} bytes`);
   }
 });
+
+test("a fault's offset counts from the file's first byte, byte-order mark included", () => {
+  const bytes = Uint8Array.from([0xef, 0xbb, 0xbf, ...new TextEncoder().encode("a,b\n1,"), 0xe9, 0x0a]);
+  assert.throws(
+    () => parseTable(bytes, { source: "bom.csv" }),
+    /line 2: the file is not valid UTF-8 \(byte 0xe9 at offset 9\)/,
+  );
+  const nul = Uint8Array.from([0xef, 0xbb, 0xbf, ...new TextEncoder().encode("a,b\n1,2\n3,"), 0, 0x0a]);
+  assert.throws(() => parseTable(nul, { source: "nul.csv" }), /line 3: the file holds a NUL byte \(offset 13\)/);
+});
