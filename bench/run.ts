@@ -17,7 +17,7 @@
 // Wall time is measured around each process; peak resident memory comes from
 // /usr/bin/time when present. Medians are printed with the ratios.
 import { spawnSync } from "node:child_process";
-import { existsSync, mkdirSync, openSync, readSync, closeSync, statSync } from "node:fs";
+import { existsSync, mkdirSync, statSync } from "node:fs";
 import { dirname, join, resolve } from "node:path";
 import { fileURLToPath } from "node:url";
 import { writeBenchFile } from "./generate.js";
@@ -25,13 +25,15 @@ import { collapseBenchFile } from "./collapse.js";
 import { runKernelBench } from "./kernel.js";
 import { predictBench } from "./predict.js";
 import { enginesBench } from "./engines.js";
-import { loadTableStream } from "../src/io/csv.js";
 import { PREFAULT_MIN_BYTES } from "../src/io/prefault.js";
 
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), "..", "..");
 const BIN = join(ROOT, "bin", "tallyfit.js");
 const DATA = join(ROOT, "bench", "data");
 const YARDSTICK = join(ROOT, "bench", "yardstick.py");
+const READ_ONCE = join(ROOT, "dist", "bench", "read-once.js");
+/** Fresh processes that each time the byte scan and the loader. */
+const READ_RUNS = 7;
 const MODEL = "visits ~ region + agegrp + sex + insured + score";
 
 function arg(name: string, dflt: number): number {
@@ -78,19 +80,6 @@ function yardstickPython(): string | null {
   return null;
 }
 let PYTHON = "python3";
-
-/** The floor for any CSV reader in Node: read the file and count newlines. */
-function byteScan(file: string): number {
-  const t0 = process.hrtime.bigint();
-  const fd = openSync(file, "r");
-  const buf = Buffer.allocUnsafe(1 << 22);
-  let lines = 0;
-  for (let n = readSync(fd, buf, 0, buf.length, null); n > 0; n = readSync(fd, buf, 0, buf.length, null))
-    for (let i = 0; i < n; i++) if (buf[i] === 10) lines++;
-  closeSync(fd);
-  void lines;
-  return Number(process.hrtime.bigint() - t0) / 1e9;
-}
 
 async function bench(rows: number, reps: number, withYardstick: boolean): Promise<void> {
   mkdirSync(DATA, { recursive: true });
@@ -179,19 +168,16 @@ async function bench(rows: number, reps: number, withYardstick: boolean): Promis
       `  deviance: tallyfit ${t.deviance.toFixed(4)}, yardstick ${y.deviance.toFixed(4)} (relative difference ${(Math.abs(t.deviance - y.deviance) / y.deviance).toExponential(1)})`,
     );
   }
-  const scan = byteScan(file);
-  const t0 = process.hrtime.bigint();
-  // As fit reads it: no digest (only --save-model takes one); from 8 MB a worker touches the columns' pages ahead.
-  const { table } = await loadTableStream(file, {
-    select: ["region", "agegrp", "sex", "insured", "score", "exposure", "visits"],
-    digest: false,
-  });
-  const load = Number(process.hrtime.bigint() - t0) / 1e9;
+  // Reading: the byte scan and the loader in each of READ_RUNS fresh processes (bench/read-once.ts), medians.
+  const reads = Array.from({ length: READ_RUNS }, () => JSON.parse(run(process.execPath, [READ_ONCE, file]).stdout));
+  const scan = median(reads.map((r) => r.scan)),
+    load = median(reads.map((r) => r.load));
+  const ratios = reads.map((r) => r.load / r.scan).sort((a, b) => a - b);
   console.log(
-    `  loader alone (in process${statSync(file).size >= PREFAULT_MIN_BYTES ? ", pages touched ahead" : ""}): ${load.toFixed(3)} s, ${(table.nRows / load / 1e6).toFixed(2)}M rows/s, ${(mb / load).toFixed(0)} MB/s`,
+    `  loader alone (${READ_RUNS} fresh processes${statSync(file).size >= PREFAULT_MIN_BYTES ? ", pages touched ahead" : ""}): ${load.toFixed(3)} s, ${(rows / load / 1e6).toFixed(2)}M rows/s, ${(mb / load).toFixed(0)} MB/s`,
   );
   console.log(
-    `  byte scan (read + count newlines): ${scan.toFixed(3)} s, ${(mb / scan).toFixed(0)} MB/s, the floor for any CSV reader here; the loader is ×${(load / scan).toFixed(1)} of it`,
+    `  byte scan (read + count newlines): ${scan.toFixed(3)} s, ${(mb / scan).toFixed(0)} MB/s, the floor for any CSV reader here; the loader is ×${(load / scan).toFixed(1)} of it (×${ratios[0].toFixed(1)}–${ratios[ratios.length - 1].toFixed(1)} by process)`,
   );
 }
 
