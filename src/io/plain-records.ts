@@ -1,20 +1,18 @@
 // The reader's fast path for plain records: no quote, no padding, no missing
 // value, a number in every numeric column, exactly the header's fields, each
-// record ending in LF or CR LF. A plain record is read in one pass over its
-// bytes: a number is parsed as its field is scanned, a level looked up as
-// soon as its end is found. The first record that is not plain, that would
+// record ending in LF or CR LF. A plain record is read field by field straight
+// into the columns: a number parsed, a level looked up, as soon as the field's
+// end is found, with no list of field bounds in between. The first record that is not plain, that would
 // need a column to grow, or that the buffer does not hold whole, ends the
 // pass; the general path of tokenizer.ts reads it (with its messages), then
 // this path takes over again. A plain record gives the same values, codes
 // and counts on either path (test/io/plain-records.test.ts).
 import type { ColumnBuilder } from "./column-builder.js";
+import { decimalBytesInto } from "./dialect.js";
 import { codeOfBytes } from "./level-index.js";
 
 const LF = 0x0a,
   CR = 0x0d;
-
-/** 10^k for k ≤ 22, all exact doubles (as in dialect.ts's decimalBytesInto). */
-const POW10 = Array.from({ length: 23 }, (_, k) => 10 ** k);
 
 /** What the pass needs of the reader, fixed for a file. */
 export interface PlainDialect {
@@ -66,31 +64,12 @@ export function plainRecords(
         while (p < n && stops[b[p]] === 0) p++;
         if (p >= n || !plainEnd(b, p, lastField, d)) break records;
       } else if (bd.numeric) {
-        let neg = false;
-        if (p < n && (b[p] === 0x2d || b[p] === 0x2b)) {
-          neg = b[p] === 0x2d;
-          p++;
-        }
-        let m = 0,
-          digits = 0,
-          frac = 0,
-          seenDot = false,
-          any = false;
-        for (; p < n; p++) {
-          const c = b[p];
-          if (c >= 0x30 && c <= 0x39) {
-            any = true;
-            if (m === 0 && c === 0x30 && !seenDot) continue;
-            m = m * 10 + (c - 0x30);
-            digits++;
-            if (seenDot) frac++;
-          } else if (c === mark && !seenDot) seenDot = true;
-          else break;
-        }
-        if (p >= n || !any || digits > 15 || frac > 22 || !plainEnd(b, p, lastField, d)) break records;
-        if (!(naLengths !== -1 && (p - s > 31 || !(naLengths & (1 << (p - s))) || !naFirst[b[s]]))) break records;
-        const v = frac ? m / POW10[frac] : m;
-        bd.values[i] = neg ? -v : v;
+        // A number as the general path reads it (padding, an exponent, … go to decimalText, and fail or not as there).
+        while (p < n && stops[b[p]] === 0) p++;
+        const len = p - s;
+        if (p >= n || len === 0 || !plainEnd(b, p, lastField, d)) break records;
+        if (!(naLengths !== -1 && (len > 31 || !(naLengths & (1 << len)) || !naFirst[b[s]]))) break records;
+        if (!decimalBytesInto(b, s, p, mark, bd.values, i)) break records;
       } else {
         while (p < n && stops[b[p]] === 0) p++;
         const len = p - s;
