@@ -94,3 +94,8 @@ function plainEnd(b: Uint8Array, p: number, lastField: boolean, d: number): bool
   if (!lastField) return c === d;
   return c === LF || (c === CR && p + 1 < b.length && b[p + 1] === LF);
 }
+
+/** Whether bytes [s, e) are not empty and start and end with a printable ASCII byte, so that trim() leaves their text as it is. */
+export function bareEdges(b: Uint8Array, s: number, e: number): boolean {
+  return e > s && b[s] > 0x20 && b[s] < 0x7f && b[e - 1] > 0x20 && b[e - 1] < 0x7f;
+}

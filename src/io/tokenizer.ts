@@ -11,7 +11,7 @@ import { checkTextBytes } from "./source-bytes.js";
 import { checkTextKind, READER_LIMITS } from "./text-kind.js";
 import { type ColumnBuilder, growColumn } from "./column-builder.js";
 import { codeOfBytes, codeOfString, emptyLevelIndex } from "./level-index.js";
-import { type PlainDialect, type PlainPass, plainRecords } from "./plain-records.js";
+import { bareEdges, type PlainDialect, type PlainPass, plainRecords } from "./plain-records.js";
 import { decimalBytesInto, decimalText, guessDelimiter, showDelimiter } from "./dialect.js";
 
 const QUOTE = 0x22,
@@ -46,7 +46,7 @@ export class ColumnReader {
   /** 1 at the bytes that end an unquoted field's text: the delimiter, CR, LF and the quote. */
   private readonly stops = new Uint8Array(256);
   private fieldEnd = new Int32Array(64);
-  /** 1: the field was quoted. */
+  /** 1: the field was quoted; 2: quoted, with a doubled quote in it. */
   private fieldQuoted = new Uint8Array(64);
   private decoder = new TextDecoder("utf-8");
   /** Bytes at the start of the carried tail already checked as UTF-8. */
@@ -164,10 +164,12 @@ export class ColumnReader {
         }
         if (p < n && b[p] === QUOTE) {
           let q = p + 1;
-          let closed = false;
+          let closed = false,
+            doubled = false;
           while (q < n) {
             if (b[q] === QUOTE) {
               if (q + 1 < n && b[q + 1] === QUOTE) {
+                doubled = true;
                 q += 2;
                 continue;
               }
@@ -189,7 +191,7 @@ export class ColumnReader {
           }
           fs[nf] = p + 1;
           fe[nf] = q;
-          fq[nf] = 1;
+          fq[nf] = doubled ? 2 : 1;
           nf++;
           p = q + 1;
           if (p < n && b[p] !== d && b[p] !== LF && b[p] !== CR)
@@ -294,7 +296,7 @@ export class ColumnReader {
           `${this.o.source}, row 1: the header has ${nf} columns; tallyfit reads at most ${READER_LIMITS.columns}.`,
         );
       const header: string[] = [];
-      for (let j = 0; j < nf; j++) header.push(this.text(b, fs[j], fe[j], fq[j] === 1).trim());
+      for (let j = 0; j < nf; j++) header.push(this.text(b, fs[j], fe[j], fq[j] !== 0).trim());
       this.header = header;
       checkHeader(header, this.o.source, (m) => new InputError(m));
       this.builders = header.map((h) => {
@@ -330,7 +332,7 @@ export class ColumnReader {
     const i = this.nRows;
     if (this.o.keepRecords) {
       const rec: string[] = new Array(nf);
-      for (let j = 0; j < nf; j++) rec[j] = this.text(b, fs[j], fe[j], fq[j] === 1);
+      for (let j = 0; j < nf; j++) rec[j] = this.text(b, fs[j], fe[j], fq[j] !== 0);
       this.keptRecords.push(rec);
     }
     const builders = this.builders,
@@ -350,26 +352,29 @@ export class ColumnReader {
         len > 0 && naLengths !== -1 && (len > 31 || !(naLengths & (1 << len)) || !this.naFirst[b[s]])
           ? false
           : this.isNa(b, s, e);
+      // A quoted field's text is decoded only when it holds a doubled quote or starts or ends with white space that
+      // trim() removes; otherwise its bytes are those the text would encode to, and are read as an unquoted field's.
+      const viaText = fq[j] === 2 || (fq[j] === 1 && !bareEdges(b, s, e));
       if (bd.numeric) {
         if (bd.values.length <= i) bd.values = this.grown(bd.values, i + 1, fs[0]);
         if (missing) {
           bd.values[i] = NaN;
           continue;
         }
-        if (fq[j]) {
+        if (viaText) {
           const v = decimalText(this.text(b, s, e, true).trim(), this.o.decimal ?? 0x2e);
           if (!Number.isNaN(v)) {
             bd.values[i] = v;
             continue;
           }
         } else if (decimalBytesInto(b, s, e, mark, bd.values, i)) continue;
-        bd.firstText = { row, value: this.text(b, s, e, fq[j] === 1) };
+        bd.firstText = { row, value: this.text(b, s, e, fq[j] !== 0) };
         this.demote(bd, i);
       }
       if (bd.codes.length <= i) bd.codes = this.grown(bd.codes, i + 1, fs[0]);
       bd.codes[i] = missing
         ? -1
-        : fq[j]
+        : viaText
           ? codeOfString(bd.index, this.text(b, s, e, true).trim())
           : codeOfBytes(bd.index, b, s, e);
     }

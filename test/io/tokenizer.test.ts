@@ -23,6 +23,10 @@ const CORPUS: [string, string][] = [
   ["CRLF", "a,b\r\n1,x\r\n2,y\r\n"],
   ["BOM", "\ufeffa,b\n1,2\n"],
   ["quotes and doubled quotes", 'a,b\n"1","say ""hi"""\n"2","plain"\n'],
+  [
+    "quoted fields, read from their bytes unless trim() or a doubled quote would change their text",
+    'a,b,c\n" 1 ","\u00a0x\u00a0",p\n"2","y ""z""","q"\n"\v3","NA","\u3000r"\n"4.50","x",""\n',
+  ],
   ["embedded delimiter and newline", 'a,b\n1,"x, y"\n2,"two\nlines"\n3,"cr\r\nlf"\n'],
   ["empty fields and missing tokens", "a,b,c\n,NA,1\nnull,.,NaN\n4,z,\n"],
   ["spaces around values", "a , b\n 1 , x \n2,  y\n"],
