@@ -2,12 +2,11 @@
 // takes one chunk, the next is being read into the other buffer. From
 // PREFAULT_MIN_BYTES up, a worker touches the reader's column arrays' pages
 // ahead of it (prefault.ts). A file is read on this one thread: parsing the
-// second half of a file on a worker and joining the halves (this module's
-// earlier design) took longer than one thread with its pages touched ahead,
-// because the join copies the second half into fresh pages of the first's
-// columns (DEVELOPERS.md, "Speed and memory").
-import type { FileHandle } from "node:fs/promises";
-import { open } from "node:fs/promises";
+// second half of a file on a worker and joining the halves (an earlier design,
+// removed) took longer than one thread with its pages touched ahead, because
+// the join copies the second half into fresh pages of the first's columns
+// (DEVELOPERS.md, "Speed and memory").
+import { type FileHandle, open } from "node:fs/promises";
 import { type Prefault, prefaultWanted, startPrefault } from "./prefault.js";
 import type { ColumnReader } from "./tokenizer.js";
 

@@ -2,10 +2,10 @@
 // value, a number in every numeric column, exactly the header's fields, each
 // record ending in LF or CR LF. A plain record is read field by field straight
 // into the columns: a number parsed, a level looked up, as soon as the field's
-// end is found, with no list of field bounds in between. The first record that is not plain, that would
-// need a column to grow, or that the buffer does not hold whole, ends the
-// pass; the general path of tokenizer.ts reads it (with its messages), then
-// this path takes over again. A plain record gives the same values, codes
+// end is found, with no list of field bounds in between. The first record that
+// is not plain, that would need a column to grow, or that the buffer does not
+// hold whole, ends the pass; the general path of tokenizer.ts reads it (with
+// its messages), then this path takes over again. A plain record gives the same values, codes
 // and counts on either path (test/io/plain-records.test.ts).
 import type { ColumnBuilder } from "./column-builder.js";
 import { decimalBytesInto } from "./dialect.js";
@@ -36,7 +36,8 @@ export interface PlainPass {
 /**
  * Read plain records of b from `pos` into the builders' arrays at rows
  * `row`, `row` + 1, …, below `cap` (the rows every kept column has room for).
- * Returns the offset of the first record not read and the count read.
+ * Sets out.at to the offset of the first record not read, and out.records to
+ * the count read.
  */
 export function plainRecords(
   dialect: PlainDialect,
