@@ -50,7 +50,8 @@ export function plainRecords(
 ): void {
   const { delimiter: d, mark, stops, naLengths, naFirst } = dialect;
   const n = b.length,
-    ncol = builders.length;
+    ncol = builders.length,
+    last = ncol - 1;
   let i = row;
   out.records = 0;
   records: while (i < cap) {
@@ -58,42 +59,32 @@ export function plainRecords(
     for (let j = 0; j < ncol; j++) {
       const bd = builders[j];
       const s = p;
-      // The byte that must end this field: the delimiter, or the line's end after the last field.
-      const lastField = j === ncol - 1;
-      if (!bd.keep) {
-        // Read and checked for its end only, as on the general path.
-        while (p < n && stops[b[p]] === 0) p++;
-        if (p >= n || !plainEnd(b, p, lastField, d)) break records;
-      } else if (bd.numeric) {
-        // A number as the general path reads it (padding, an exponent, … go to decimalText, and fail or not as there).
-        while (p < n && stops[b[p]] === 0) p++;
+      while (p < n && stops[b[p]] === 0) p++;
+      if (p >= n) break records;
+      // The field must end at the delimiter, or after the last field at LF or CR LF.
+      const c = b[p];
+      if (j === last ? !(c === LF || (c === CR && p + 1 < n && b[p + 1] === LF)) : c !== d) break records;
+      if (bd.keep) {
         const len = p - s;
-        if (p >= n || len === 0 || !plainEnd(b, p, lastField, d)) break records;
-        if (!(naLengths !== -1 && (len > 31 || !(naLengths & (1 << len)) || !naFirst[b[s]]))) break records;
-        if (!decimalBytesInto(b, s, p, mark, bd.values, i)) break records;
-      } else {
-        while (p < n && stops[b[p]] === 0) p++;
-        const len = p - s;
-        if (p >= n || len === 0 || !plainEnd(b, p, lastField, d)) break records;
-        if (b[s] === 0x20 || b[s] === 0x09 || b[p - 1] === 0x20 || b[p - 1] === 0x09) break records;
-        if (!(naLengths !== -1 && (len > 31 || !(naLengths & (1 << len)) || !naFirst[b[s]]))) break records;
-        bd.codes[i] = codeOfBytes(bd.index, b, s, p);
+        // Not empty, and not possibly a missing-value token (by its length and first byte).
+        if (len === 0 || !(naLengths !== -1 && (len > 31 || !(naLengths & (1 << len)) || !naFirst[b[s]])))
+          break records;
+        if (bd.numeric) {
+          // A number as the general path reads it; padding, an exponent, … go to decimalText there, and fail here.
+          if (!decimalBytesInto(b, s, p, mark, bd.values, i)) break records;
+        } else {
+          if (b[s] === 0x20 || b[s] === 0x09 || b[p - 1] === 0x20 || b[p - 1] === 0x09) break records;
+          bd.codes[i] = codeOfBytes(bd.index, b, s, p);
+        }
       }
-      // Past the delimiter; after the last field, past LF or CR LF.
-      p += lastField && b[p] === CR ? 2 : 1;
+      // Past the delimiter, LF, or CR LF.
+      p += c === CR ? 2 : 1;
     }
     pos = p;
     i++;
   }
   out.at = pos;
   out.records = i - row;
-}
-
-/** Whether byte p of b ends a field as a plain record's field ends: the delimiter, or after the last field LF or CR LF. */
-function plainEnd(b: Uint8Array, p: number, lastField: boolean, d: number): boolean {
-  const c = b[p];
-  if (!lastField) return c === d;
-  return c === LF || (c === CR && p + 1 < b.length && b[p + 1] === LF);
 }
 
 /** Whether bytes [s, e) are not empty and start and end with a printable ASCII byte, so that trim() leaves their text as it is. */
