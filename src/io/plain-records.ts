@@ -70,7 +70,7 @@ export function plainRecords(
         if (len === 0 || !(naLengths !== -1 && (len > 31 || !(naLengths & (1 << len)) || !naFirst[b[s]])))
           break records;
         if (bd.numeric) {
-          // A number as the general path reads it; padding, an exponent, … go to decimalText there, and fail here.
+          // Read as the general path reads it; a padded field is no number here and goes there to be trimmed.
           if (!decimalBytesInto(b, s, p, mark, bd.values, i)) break records;
         } else {
           if (b[s] === 0x20 || b[s] === 0x09 || b[p - 1] === 0x20 || b[p - 1] === 0x09) break records;
