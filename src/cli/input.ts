@@ -116,7 +116,7 @@ export async function loadDesigns(
       : null;
   const { table: read, sha256 } = pushed ?? (await readRows(path, opts, { factors, select }, progress, wantDigest));
   if (progress) clearProgressLine();
-  // The reader's buffers and a reading worker's parts are garbage now.
+  // The reader's buffers and its carried bytes are garbage now.
   collectAfterStage(read.nRows);
   for (const f of factors)
     if (!read.header.includes(f))

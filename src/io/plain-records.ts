@@ -86,8 +86,3 @@ export function plainRecords(
   out.at = pos;
   out.records = i - row;
 }
-
-/** Whether bytes [s, e) are not empty and start and end with a printable ASCII byte, so that trim() leaves their text as it is. */
-export function bareEdges(b: Uint8Array, s: number, e: number): boolean {
-  return e > s && b[s] > 0x20 && b[s] < 0x7f && b[e - 1] > 0x20 && b[e - 1] < 0x7f;
-}

@@ -11,7 +11,7 @@ import { checkTextBytes } from "./source-bytes.js";
 import { checkTextKind, READER_LIMITS } from "./text-kind.js";
 import { type ColumnBuilder, growColumn } from "./column-builder.js";
 import { codeOfBytes, codeOfString, emptyLevelIndex } from "./level-index.js";
-import { bareEdges, type PlainDialect, type PlainPass, plainRecords } from "./plain-records.js";
+import { type PlainDialect, type PlainPass, plainRecords } from "./plain-records.js";
 import { decimalBytesInto, decimalText, guessDelimiter, showDelimiter } from "./dialect.js";
 
 const QUOTE = 0x22,
@@ -28,6 +28,11 @@ export interface StreamOptions {
   select: Set<string> | null;
   /** Also keep every data row's fields as text (predict repeats the input rows in its CSV output). */
   keepRecords?: boolean;
+}
+
+/** Whether bytes [s, e) are not empty and start and end with a printable ASCII byte, so that trim() leaves their text as it is. */
+function bareEdges(b: Uint8Array, s: number, e: number): boolean {
+  return e > s && b[s] > 0x20 && b[s] < 0x7f && b[e - 1] > 0x20 && b[e - 1] < 0x7f;
 }
 
 /** Incremental reader: feed() chunks of bytes, then finish(). */

@@ -78,7 +78,7 @@ export function predictCellsPoisson(
   from = 0,
   to = eta.length,
 ): number {
-  const { M, cst, k0, k1, r0, c0, r1, c1 } = etaInPass(L, slotVals, betaS, off, eta, from, to);
+  const p = etaInPass(L, slotVals, betaS, off, eta, from, to);
   const cell = L.cell,
     yl = tab.ylogy,
     cnt = tab.counts;
@@ -90,14 +90,7 @@ export function predictCellsPoisson(
       mu[i] = 0;
       continue;
     }
-    let e: number;
-    if (M < 0) e = eta[i];
-    else {
-      e = off[i] + cst[c];
-      if (M === 1) e += k0[c] * (r0[i] - c0);
-      else if (M === 2) e += k0[c] * (r0[i] - c0) + k1[c] * (r1[i] - c1);
-      eta[i] = e;
-    }
+    const e = rowEta(p, off, eta, i, c);
     const mi = Math.exp(e);
     mu[i] = mi;
     const y = cnt[i];
@@ -148,7 +141,7 @@ export function predictCellsNegbin(
   from = 0,
   to = eta.length,
 ): number {
-  const { M, cst, k0, k1, r0, c0, r1, c1 } = etaInPass(L, slotVals, betaS, off, eta, from, to);
+  const p = etaInPass(L, slotVals, betaS, off, eta, from, to);
   const cell = L.cell,
     yl = tab.ylogy,
     cnt = tab.counts,
@@ -173,14 +166,7 @@ export function predictCellsNegbin(
       mu[i] = 0;
       continue;
     }
-    let e: number;
-    if (M < 0) e = eta[i];
-    else {
-      e = off[i] + cst[c];
-      if (M === 1) e += k0[c] * (r0[i] - c0);
-      else if (M === 2) e += k0[c] * (r0[i] - c0) + k1[c] * (r1[i] - c1);
-      eta[i] = e;
-    }
+    const e = rowEta(p, off, eta, i, c);
     const mi = Math.exp(e);
     mu[i] = mi;
     const y = cnt[i];
@@ -210,6 +196,18 @@ export function predictCellsNegbin(
 }
 
 const NONE = new Float64Array(0);
+
+type EtaPass = ReturnType<typeof etaInPass>;
+
+/** Row i's eta in a predict pass (its cell c ≥ 0): the one linearPredictorCells wrote when M < 0, else computed here and written. */
+function rowEta(p: EtaPass, off: Float64Array, eta: Float64Array, i: number, c: number): number {
+  if (p.M < 0) return eta[i];
+  let e = off[i] + p.cst[c];
+  if (p.M === 1) e += p.k0[c] * (p.r0[i] - p.c0);
+  else if (p.M === 2) e += p.k0[c] * (p.r0[i] - p.c0) + p.k1[c] * (p.r1[i] - p.c1);
+  eta[i] = e;
+  return e;
+}
 
 /**
  * How a predict pass gets eta: for at most two numeric slots, in its own loop
